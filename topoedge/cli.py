@@ -1,0 +1,158 @@
+"""The ``topoedge`` command line.
+
+``topoedge run [CONFIG]``    ribbon spectrum of a scenario, results folder
+``topoedge bench``           side-by-side timings against kwant
+
+Bad input (configuration, overrides, an existing results folder) ends with
+one line on standard error and exit status 2, before anything is written.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+import time
+import warnings
+from pathlib import Path
+
+from . import __version__
+from .config import DEFAULT_SCENARIO, ConfigError, load_scenario
+
+EXIT_BAD_INPUT = 2
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message):  # one line, status 2, like every other bad input
+        self.exit(EXIT_BAD_INPUT, f"{self.prog}: error: {message}\n")
+
+
+def _parser() -> argparse.ArgumentParser:
+    parser = _Parser(prog="topoedge", description="Bulk topology and edge modes of lattice quantum-Hall ribbons.")
+    parser.add_argument("--version", action="version", version=f"topoedge {__version__}")
+    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
+
+    common = _Parser(add_help=False)
+    common.add_argument(
+        "--set", dest="overrides", action="append", default=[], metavar="SECTION.KEY=VALUE",
+        help="override one configuration key (repeatable), e.g. --set ribbon.edge.width=6",
+    )
+    common.add_argument("--json", action="store_true", help="print the summary as JSON on stdout")
+    common.add_argument("--quiet", action="store_true", help="print nothing but errors (and --json output)")
+
+    run = sub.add_parser("run", parents=[common], help="compute a scenario and write a results folder")
+    run.add_argument("config", nargs="?", default=None, help=f"scenario TOML file (default: {DEFAULT_SCENARIO.name})")
+    run.add_argument("--out", type=Path, default=None,
+                     help="results folder (default: results/<scenario>-<date-time>)")
+    run.add_argument("--force", action="store_true", help="replace an existing results folder")
+
+    bench = sub.add_parser("bench", parents=[common], help="time the ribbon spectrum against kwant.physics.Bands")
+    bench.add_argument("config", nargs="?", default=None, help="scenario TOML file (default: the shipped default)")
+    bench.add_argument("--width", type=int, default=400, help="sites across the ribbon per spin (default 400)")
+    bench.add_argument("--k-points", type=int, default=200, help="number of momenta (default 200)")
+    bench.add_argument("--window", type=float, default=0.5,
+                       help="half-width of the energy window around E_F, units of t (default 0.5)")
+    return parser
+
+
+def _say(args, text: str) -> None:
+    if not args.quiet:
+        print(text, flush=True)
+
+
+def _default_out(config_path: str | None) -> Path:
+    stem = Path(config_path).stem if config_path else DEFAULT_SCENARIO.stem
+    base = Path("results") / f"{stem}-{time.strftime('%Y%m%d-%H%M%S')}"
+    out, n = base, 1
+    while out.exists():
+        n += 1
+        out = base.with_name(f"{base.name}-{n}")
+    return out
+
+
+def _cmd_run(args) -> int:
+    from .pipeline import run_scenario
+    from .results import check_destination, format_summary, write_run
+
+    scenario = load_scenario(args.config, args.overrides)
+    out = args.out if args.out is not None else _default_out(args.config)
+    check_destination(out, force=args.force)
+    progress = sys.stdout.isatty() and not args.quiet
+    result = run_scenario(scenario, progress=progress)
+
+    def ribbon_figure(path: Path) -> None:
+        import matplotlib
+
+        matplotlib.use("Agg")
+        import matplotlib.pyplot as plt
+
+        from .plotting import plot_ribbon_spectrum
+
+        fig, ax = plt.subplots(figsize=(7.0, 5.0), layout="constrained")
+        artists = plot_ribbon_spectrum(
+            result.spectrum, ax=ax, width=scenario.ribbon.width, fermi_energy=scenario.fermi.energy
+        )
+        sm = plt.cm.ScalarMappable(norm=artists["norm"], cmap="coolwarm")
+        fig.colorbar(sm, ax=ax, label=r"$\langle y \rangle$ across the ribbon (sites; 0 = bottom edge)")
+        ax.set_title(f"{scenario.title or 'ribbon spectrum'}: flux {scenario.lattice.flux} per plaquette", fontsize=10)
+        fig.savefig(path, dpi=150)
+        plt.close(fig)
+
+    write_run(out, result, {"ribbon_spectrum.png": ribbon_figure}, force=args.force)
+    if args.json:
+        print(json.dumps(result.summary, indent=2))
+    _say(args, format_summary(result.summary))
+    _say(args, f"  results      {out}/ (summary.json, spectrum.h5, ribbon_spectrum.png)")
+    return 0
+
+
+def _cmd_bench(args) -> int:
+    from .bench import bench_ribbon
+
+    if args.width < 2 or args.k_points < 2 or not args.window > 0:
+        raise ConfigError(
+            f"bench: got --width {args.width}, --k-points {args.k_points}, --window {args.window}; "
+            "expected width >= 2, k-points >= 2 and window > 0"
+        )
+    scenario = load_scenario(args.config, args.overrides)
+    _say(args, f"benchmark: W = {args.width} sites per spin, {args.k_points} k points "
+               f"(kwant.physics.Bands and topoedge on the same finalized ribbon) ...")
+    report = bench_ribbon(scenario, width=args.width, k_points=args.k_points, window=args.window)
+    if args.json:
+        print(json.dumps(report, indent=2))
+    if not args.quiet:
+        s, r = report["seconds"], report["ratios"]
+        print(f"  solver: {report['solver']}; {report['orbitals']} orbitals; "
+              f"window {report['window_t'][0]:.4f} .. {report['window_t'][1]:.4f} t "
+              f"({report['states_in_window']} states over all k)")
+        print(f"  {'variant':44s} {'seconds':>9s}")
+        for key, value in s.items():
+            print(f"  {key:44s} {value:9.3f}")
+        print(f"  {'ratio (kwant / topoedge)':44s} {'x':>9s}")
+        for key, value in r.items():
+            print(f"  {key:44s} {value:9.1f}")
+        d = report["max_energy_difference_t"]
+        print(f"  largest |E_topoedge - E_kwant|: all {d['all']:.2e} t, window {d['window']:.2e} t")
+    return 0
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Entry point of the ``topoedge`` command."""
+    args = _parser().parse_args(argv)
+    # kwant warns at import that its sparse solver falls back to SciPy; the
+    # ribbon and bulk calculations do not use that solver.
+    warnings.filterwarnings("ignore", message="MUMPS is not available")
+    from .results import ResultsExistError
+
+    try:
+        return {"run": _cmd_run, "bench": _cmd_bench}[args.command](args)
+    except (ConfigError, ResultsExistError) as err:
+        print(f"topoedge: error: {err}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        print("topoedge: interrupted; nothing was written", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

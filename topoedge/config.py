@@ -1,0 +1,603 @@
+"""TOML scenarios validated once into frozen dataclasses.
+
+A scenario file has a top-level ``title`` and the sections ``[lattice]``,
+``[spin]``, ``[ribbon]``, ``[ribbon.edge]``, ``[spectrum]`` and ``[fermi]``.
+Every key is one row of the schema table ``_KEYS`` (path, type, unit, meaning,
+expectation, constraint); its default is the default of the matching
+dataclass field. A new key is one row plus one dataclass field.
+
+Units: all energies share the unit of ``lattice.hopping``, written ``t``
+(with the default hopping 1.0 they are in units of the hopping itself);
+lengths are in lattice constants ``a``; flux is in flux quanta ``phi0`` per
+plaquette.
+
+Every problem raises `ConfigError` with a one-line message
+``<key.path>: <what was wrong>; expected <what>`` plus a fix where one exists.
+"""
+
+from __future__ import annotations
+
+import difflib
+import json
+import math
+import numbers
+import os
+import re
+import tomllib
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, field, fields
+from fractions import Fraction
+from pathlib import Path
+from typing import Any
+
+__all__ = [
+    "DEFAULT_SCENARIO", "EDGE_PROFILES", "SOLVERS", "ConfigError",
+    "EdgeConfig", "FermiConfig", "LatticeConfig", "RibbonConfig", "Scenario",
+    "SpectrumConfig", "SpinConfig", "apply_overrides", "key_docs",
+    "load_scenario", "parse_scenario",
+]
+
+DEFAULT_SCENARIO = Path(__file__).resolve().parent.parent / "configs" / "default.toml"
+EDGE_PROFILES = ("none", "linear", "tanh", "erf", "table")
+SOLVERS = ("auto", "banded", "dense")
+
+
+class ConfigError(ValueError):
+    """Invalid scenario, override or scenario file; ``str(err)`` is one line."""
+
+    def __init__(self, message: str) -> None:
+        super().__init__(re.sub(r"\s*[\r\n]+\s*", " ", message))
+
+
+@dataclass(frozen=True)
+class LatticeConfig:
+    """Square lattice with a uniform magnetic field.
+
+    Attributes
+    ----------
+    hopping : float
+        Nearest-neighbour hopping t > 0, in the energy unit t.
+    flux : fractions.Fraction
+        Flux p/q per plaquette, in flux quanta phi0; a negative p reverses
+        the field.
+    onsite : float
+        Uniform on-site energy, in t.
+    """
+
+    hopping: float = 1.0
+    flux: Fraction = Fraction(1, 40)
+    onsite: float = 0.0
+
+
+@dataclass(frozen=True)
+class SpinConfig:
+    """Spin-1/2 degree of freedom.
+
+    Attributes
+    ----------
+    enabled : bool
+        Two orbitals (spin up, spin down) per site when true.
+    zeeman : float
+        Zeeman splitting Delta, in t: spin up is shifted by -Delta/2 and
+        spin down by +Delta/2. Must be 0 when ``enabled`` is false.
+    """
+
+    enabled: bool = True
+    zeeman: float = 0.0
+
+
+@dataclass(frozen=True)
+class EdgeConfig:
+    """Confining potential near both edges of the ribbon.
+
+    Attributes
+    ----------
+    profile : str
+        One of `EDGE_PROFILES`: "none" (hard wall), "linear", "tanh", "erf"
+        (ramps of width ``width``) or "table" (interpolated from ``table``).
+    width : float
+        Ramp width w, in lattice constants a (sites), 0 <= w <= W/2.
+    height : float
+        Potential V0 at the outermost row, in t.
+    table : tuple of (float, float)
+        Rows (distance from the edge in a, potential in t) with distances
+        >= 0 and strictly increasing; only with profile "table".
+    """
+
+    profile: str = "none"
+    width: float = 0.0
+    height: float = 0.0
+    table: tuple[tuple[float, float], ...] = ()
+
+
+@dataclass(frozen=True)
+class RibbonConfig:
+    """Ribbon infinite along x and ``width`` sites across.
+
+    Attributes
+    ----------
+    width : int
+        Number of sites W across the ribbon (W >= 2), i.e. width in a.
+    edge : EdgeConfig
+        Edge potential applied at both edges.
+    """
+
+    width: int = 120
+    edge: EdgeConfig = EdgeConfig()
+
+
+@dataclass(frozen=True)
+class SpectrumConfig:
+    """Sampling and solver of the ribbon spectrum.
+
+    Attributes
+    ----------
+    k_points : int
+        Number of momenta k in [-pi, pi), in units of 1/a (>= 2).
+    window : float or None
+        Half-width, in t, of the energy window kept around the Fermi
+        energy; None keeps all states.
+    solver : str
+        One of `SOLVERS`.
+    """
+
+    k_points: int = 301
+    window: float | None = None
+    solver: str = "auto"
+
+
+@dataclass(frozen=True)
+class FermiConfig:
+    """Fermi level.
+
+    Attributes
+    ----------
+    energy : float
+        Fermi energy E_F, in t.
+    """
+
+    energy: float = 0.0
+
+
+@dataclass(frozen=True)
+class Scenario:
+    """A complete validated scenario; build it with `parse_scenario`.
+
+    ``source`` (the file it was read from) is not a TOML key and does not
+    take part in equality.
+    """
+
+    title: str = ""
+    lattice: LatticeConfig = LatticeConfig()
+    spin: SpinConfig = SpinConfig()
+    ribbon: RibbonConfig = RibbonConfig()
+    spectrum: SpectrumConfig = SpectrumConfig()
+    fermi: FermiConfig = FermiConfig()
+    source: str | None = field(default=None, compare=False)
+
+    def to_dict(self) -> dict[str, Any]:
+        """Return the scenario as a plain nested dict of TOML values.
+
+        The flux becomes a string "p/q", the edge table a list of lists and
+        an unset ``spectrum.window`` is left out, so that
+        ``parse_scenario(s.to_dict()) == s``.
+        """
+        out: dict[str, Any] = {}
+        for path in _KEYS:
+            value = _plain(_lookup(self, path))
+            if value is not None:
+                *sections, name = path.split(".")
+                table = out
+                for section in sections:
+                    table = table.setdefault(section, {})
+                table[name] = value
+        return out
+
+
+_SECTIONS: dict[str, type] = {
+    "": Scenario, "lattice": LatticeConfig, "spin": SpinConfig,
+    "ribbon": RibbonConfig, "ribbon.edge": EdgeConfig,
+    "spectrum": SpectrumConfig, "fermi": FermiConfig,
+}
+
+
+@dataclass(frozen=True)
+class _Key:
+    path: str
+    kind: str              # a key of _CONVERTERS
+    unit: str
+    doc: str
+    expect: str            # completes "expected ..." in error messages
+    check: Callable[[Any], bool] | None = None
+    choices: tuple[str, ...] = ()
+    optional: bool = False  # None (absent) is allowed
+
+
+def _positive(x):
+    return x > 0
+
+
+_KEYS: dict[str, _Key] = {key.path: key for key in (
+    _Key("title", "string", "-", "Free-text title of the scenario.", "a string"),
+    _Key("lattice.hopping", "float", "t", "Nearest-neighbour hopping t; the energy unit.",
+         "a hopping > 0 in t", _positive),
+    _Key("lattice.flux", "flux", "phi0 per plaquette",
+         "Flux per plaquette as a fraction p/q; negative p reverses the field.",
+         "a string 'p/q' such as '1/40'"),
+    _Key("lattice.onsite", "float", "t", "Uniform on-site energy.", "a finite energy in t"),
+    _Key("spin.enabled", "boolean", "-", "Spin-1/2: two orbitals per site.", "true or false"),
+    _Key("spin.zeeman", "float", "t",
+         "Zeeman splitting Delta: spin up at -Delta/2, spin down at +Delta/2.",
+         "a finite energy in t"),
+    _Key("ribbon.width", "integer", "sites (a)", "Number of sites W across the ribbon.",
+         "an integer number of sites >= 2", lambda n: n >= 2),
+    _Key("ribbon.edge.profile", "choice", "-", "Shape of the edge potential.",
+         "one of " + ", ".join(map(repr, EDGE_PROFILES)), choices=EDGE_PROFILES),
+    _Key("ribbon.edge.width", "float", "a", "Ramp width w of the edge potential (0 = no ramp).",
+         "a width >= 0 in lattice constants", lambda w: w >= 0),
+    _Key("ribbon.edge.height", "float", "t", "Edge potential V0 at the outermost row.",
+         "a finite potential in t"),
+    _Key("ribbon.edge.table", "pairs", "a, t",
+         "Rows [distance from the edge, potential] for profile 'table'.",
+         "an array of [distance, potential] pairs of finite numbers"),
+    _Key("spectrum.k_points", "integer", "-", "Number of momenta k in [-pi, pi) (k in 1/a).",
+         "an integer number of k points >= 2", lambda n: n >= 2),
+    _Key("spectrum.window", "float", "t",
+         "Half-width of the energy window around fermi.energy; unset keeps all states.",
+         "a half-width > 0 in t (leave the key out to keep all states)", _positive,
+         optional=True),
+    _Key("spectrum.solver", "choice", "-", "Eigenvalue solver of the ribbon spectrum.",
+         "one of " + ", ".join(map(repr, SOLVERS)), choices=SOLVERS),
+    _Key("fermi.energy", "float", "t", "Fermi energy E_F.", "a finite energy in t"),
+)}
+
+_TOML_TYPES = {bool: "boolean", int: "integer", float: "float", str: "string",
+               list: "array", tuple: "array", dict: "table"}
+
+
+def _show(value: Any) -> str:
+    """Quote a value for a message: repr-like, TOML booleans, at most 60 chars."""
+    text = str(value).lower() if isinstance(value, bool) else repr(value)
+    return text if len(text) <= 60 else text[:57] + "..."
+
+
+def _type_error(key: _Key, value: Any, hint: str = "") -> ConfigError:
+    kind = _TOML_TYPES.get(type(value), type(value).__name__)
+    return ConfigError(f"{key.path}: got {_show(value)} ({kind}); expected {key.expect}{hint}")
+
+
+def _is_real(value: Any) -> bool:
+    return isinstance(value, numbers.Real) and not isinstance(value, bool)
+
+
+def _to_float(key: _Key, value: Any) -> float:
+    if not _is_real(value):
+        raise _type_error(key, value)
+    try:
+        number = float(value)
+    except OverflowError:
+        number = math.inf
+    if not math.isfinite(number):
+        raise ConfigError(f"{key.path}: got {_show(value)} (not finite); expected {key.expect}")
+    return number
+
+
+def _to_int(key: _Key, value: Any) -> int:
+    if isinstance(value, numbers.Integral) and not isinstance(value, bool):
+        return int(value)
+    whole = isinstance(value, float) and value.is_integer()
+    hint = f" (write {int(value)} without a decimal point)" if whole else ""
+    raise _type_error(key, value, hint)
+
+
+def _to_bool(key: _Key, value: Any) -> bool:
+    if not isinstance(value, bool):
+        raise _type_error(key, value)
+    return value
+
+
+def _to_str(key: _Key, value: Any) -> str:
+    if not isinstance(value, str):
+        raise _type_error(key, value)
+    return value
+
+
+def _to_choice(key: _Key, value: Any) -> str:
+    if _to_str(key, value) not in key.choices:
+        close = difflib.get_close_matches(value, key.choices, n=1)
+        hint = f" (did you mean {close[0]!r}?)" if close else ""
+        raise ConfigError(f"{key.path}: got {_show(value)}; expected {key.expect}{hint}")
+    return value
+
+
+_FLUX = re.compile(r"\s*([+-]?[0-9]+)\s*(?:/\s*([+-]?[0-9]+)\s*)?")
+
+
+def _to_flux(key: _Key, value: Any) -> Fraction:
+    if isinstance(value, numbers.Integral) and not isinstance(value, bool):
+        return Fraction(int(value))
+    if isinstance(value, float) and math.isfinite(value):
+        near = Fraction(value).limit_denominator(1000)
+        raise _type_error(key, value, f"; write it as a string: flux = \"{_fraction(near)}\"")
+    match = _FLUX.fullmatch(_to_str(key, value))
+    if match is None:
+        raise ConfigError(f"{key.path}: got {_show(value)}; expected {key.expect}")
+    p, q = int(match[1]), int(match[2] or 1)
+    if q < 1:
+        hint = f" (put the sign on p: '{-p}/{-q}')" if q < 0 else ""
+        raise ConfigError(f"{key.path}: got {_show(value)}; expected q >= 1{hint}")
+    if math.gcd(p, q) != 1:
+        raise ConfigError(f"{key.path}: got {_show(value)}; p and q must be coprime "
+                          f"(use '{_fraction(Fraction(p, q))}')")
+    return Fraction(p, q)
+
+
+def _to_pairs(key: _Key, value: Any) -> tuple[tuple[float, float], ...]:
+    if not isinstance(value, (list, tuple)):
+        raise _type_error(key, value)
+    rows = []
+    for i, row in enumerate(value):
+        where = f"{key.path}[{i}]"
+        if not (isinstance(row, (list, tuple)) and len(row) == 2
+                and all(_is_real(x) and math.isfinite(x) for x in row)):
+            raise ConfigError(f"{where}: got {_show(row)}; expected a [distance, potential] "
+                              "pair of finite numbers (distance in a, potential in t)")
+        distance, potential = float(row[0]), float(row[1])
+        if distance < 0:
+            raise ConfigError(f"{where}: got distance {distance!r}; expected a distance "
+                              ">= 0 from the edge in lattice constants")
+        if rows and distance <= rows[-1][0]:
+            raise ConfigError(f"{where}: got distance {distance!r} after {rows[-1][0]!r}; "
+                              "expected strictly increasing distances")
+        rows.append((distance, potential))
+    return tuple(rows)
+
+
+_CONVERTERS: dict[str, Callable[[_Key, Any], Any]] = {
+    "string": _to_str, "float": _to_float, "integer": _to_int, "boolean": _to_bool,
+    "choice": _to_choice, "flux": _to_flux, "pairs": _to_pairs,
+}
+
+
+def _convert(key: _Key, value: Any) -> Any:
+    if value is None and key.optional:
+        return None
+    value = _CONVERTERS[key.kind](key, value)
+    if key.check is not None and not key.check(value):
+        raise ConfigError(f"{key.path}: got {_show(value)}; expected {key.expect}")
+    return value
+
+
+def _join(prefix: str, name: str) -> str:
+    return f"{prefix}.{name}" if prefix else name
+
+
+def _children(prefix: str) -> list[str]:
+    """Names of the keys and sections directly inside section ``prefix``."""
+    return [f.name for f in fields(_SECTIONS[prefix])
+            if _join(prefix, f.name) in _KEYS or _join(prefix, f.name) in _SECTIONS]
+
+
+def _unknown(path: str) -> ConfigError:
+    """Error for an unknown key, suggesting a sibling or a misplaced key."""
+    prefix, _, name = path.rpartition(".")
+    close = difflib.get_close_matches(name, _children(prefix), n=1)
+    if close:
+        return ConfigError(f"{path}: unknown key; did you mean {_join(prefix, close[0])!r}?")
+    everywhere = [p for p in [*_KEYS, *_SECTIONS] if p]
+    names = {p.rpartition(".")[2] for p in everywhere}
+    close = difflib.get_close_matches(name, names, n=1)
+    if close:
+        matches = " or ".join(repr(p) for p in everywhere if p.rpartition(".")[2] == close[0])
+        return ConfigError(f"{path}: unknown key; did you mean {matches}?")
+    where = f"the keys of [{prefix}]" if prefix else "the top-level keys"
+    valid = ", ".join(map(repr, _children(prefix)))
+    return ConfigError(f"{path}: unknown key; expected one of {where}: {valid}")
+
+
+def _collect(table: Any, prefix: str, out: dict[str, Any]) -> None:
+    """Validate the section ``prefix`` and store its converted keys in ``out``."""
+    if not isinstance(table, Mapping):
+        kind = _TOML_TYPES.get(type(table), type(table).__name__)
+        raise ConfigError(f"{prefix or 'scenario'}: got {_show(table)} ({kind}); expected a "
+                          f"table with keys {', '.join(map(repr, _children(prefix)))}")
+    for name, value in table.items():
+        path = _join(prefix, str(name))
+        if path in _SECTIONS:
+            _collect(value, path, out)
+        elif path in _KEYS:
+            out[path] = _convert(_KEYS[path], value)
+        else:
+            raise _unknown(path)
+
+
+def _build(prefix: str, values: Mapping[str, Any], **extra: Any) -> Any:
+    """Construct the dataclass of section ``prefix``; missing keys keep defaults."""
+    kwargs = dict(extra)
+    for f in fields(_SECTIONS[prefix]):
+        path = _join(prefix, f.name)
+        if path in _SECTIONS:
+            kwargs[f.name] = _build(path, values)
+        elif path in values:
+            kwargs[f.name] = values[path]
+    return _SECTIONS[prefix](**kwargs)
+
+
+def _check_combinations(s: Scenario) -> None:
+    """Constraints that involve more than one key."""
+    edge, width = s.ribbon.edge, s.ribbon.width
+    if edge.width > width / 2:
+        raise ConfigError(f"ribbon.edge.width: got {edge.width!r}, wider than half the ribbon "
+                          f"(ribbon.width = {width}); expected at most {width / 2:g}")
+    if edge.profile == "table" and not edge.table:
+        raise ConfigError("ribbon.edge.table: empty, but ribbon.edge.profile = 'table' needs it; "
+                          "expected at least one [distance, potential] row")
+    if edge.table and edge.profile != "table":
+        raise ConfigError(f"ribbon.edge.table: given with ribbon.edge.profile = "
+                          f"{edge.profile!r}; expected no table for that profile "
+                          "(set ribbon.edge.profile = 'table' to use it)")
+    if s.spin.zeeman != 0 and not s.spin.enabled:
+        raise ConfigError(f"spin.zeeman: got {s.spin.zeeman!r} with spin.enabled = false; "
+                          f"expected 0 without spin (spin.zeeman = {s.spin.zeeman!r} needs "
+                          "spin.enabled = true)")
+
+
+def parse_scenario(data: Mapping[str, Any], *, source: str | None = None) -> Scenario:
+    """Validate a nested mapping of TOML values into a `Scenario`.
+
+    Parameters
+    ----------
+    data : Mapping
+        Top-level ``title`` and the section tables; absent keys take their
+        defaults. Ints are accepted for float keys; bools, strings and floats
+        are never taken for numbers, integers or flux respectively.
+    source : str, optional
+        File the data came from, kept in `Scenario.source`.
+
+    Returns
+    -------
+    Scenario
+
+    Raises
+    ------
+    ConfigError
+        At the first unknown key, wrong type, out-of-range value or
+        inconsistent combination, naming the key path.
+    """
+    values: dict[str, Any] = {}
+    _collect(data, "", values)
+    scenario = _build("", values, source=source)
+    _check_combinations(scenario)
+    return scenario
+
+
+def _parse_value(text: str) -> Any:
+    """A TOML value, or the text itself when it is not one (``1/30``, ``linear``)."""
+    try:
+        parsed = tomllib.loads(f"v = {text}")
+    except tomllib.TOMLDecodeError:
+        return text
+    return parsed["v"] if parsed.keys() == {"v"} else text
+
+
+def _plain(value: Any) -> Any:
+    """Copy with mappings as dicts and sequences as lists; flux as "p/q"."""
+    if isinstance(value, Mapping):
+        return {k: _plain(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_plain(v) for v in value]
+    return _fraction(value) if isinstance(value, Fraction) else value
+
+
+def apply_overrides(data: Mapping[str, Any], overrides: Sequence[str]) -> dict[str, Any]:
+    """Return a copy of ``data`` with ``section.key=value`` overrides set.
+
+    Parameters
+    ----------
+    data : Mapping
+        Nested scenario tables, as read from TOML; not modified.
+    overrides : sequence of str
+        Items ``path=value`` with a dotted key path of any depth, e.g.
+        ``ribbon.edge.width=4``. The value is read as a TOML value, or kept
+        as a bare string if it is not one (``lattice.flux=1/30``).
+
+    Returns
+    -------
+    dict
+        The merged tables, to be validated by `parse_scenario` (which also
+        reports unknown key paths).
+
+    Raises
+    ------
+    ConfigError
+        For an item without ``=`` or with an empty key, or one whose path
+        descends into a value that is not a table.
+    """
+    if isinstance(overrides, str):
+        raise TypeError(f"overrides: got the string {_show(overrides)}; expected a sequence "
+                        "of 'section.key=value' strings (wrap it in a list)")
+    merged = _plain(data)
+    for item in overrides:
+        path, eq, text = item.partition("=")
+        names = [name.strip() for name in path.split(".")]
+        if not eq or not all(names):
+            raise ConfigError(f"--set {_show(item)}: expected section.key=value "
+                              "(for example --set ribbon.width=80)")
+        table = merged
+        for depth, name in enumerate(names[:-1]):
+            table = table.setdefault(name, {})
+            if not isinstance(table, dict):
+                inner = ".".join(names[:depth + 1])
+                raise ConfigError(f"--set {_show(item)}: {inner} holds a value, not a table; "
+                                  f"expected a key path ending at a key (e.g. {inner}=...)")
+        table[names[-1]] = _parse_value(text.strip())
+    return merged
+
+
+def load_scenario(path: str | os.PathLike[str] | None = None,
+                  overrides: Sequence[str] = ()) -> Scenario:
+    """Read a TOML scenario file, apply overrides and validate it.
+
+    Parameters
+    ----------
+    path : str or os.PathLike, optional
+        Scenario file; `DEFAULT_SCENARIO` when None.
+    overrides : sequence of str
+        ``section.key=value`` items, applied as by `apply_overrides`.
+
+    Returns
+    -------
+    Scenario
+        With ``source`` set to ``str(path)``.
+
+    Raises
+    ------
+    ConfigError
+        If the file is missing or unreadable, is not valid TOML, or the
+        scenario is invalid.
+    """
+    path = DEFAULT_SCENARIO if path is None else Path(path)
+    try:
+        with open(path, "rb") as file:
+            data = tomllib.load(file)
+    except FileNotFoundError:
+        raise ConfigError(f"scenario file {str(path)!r} not found; "
+                          "expected an existing TOML file (check the path)") from None
+    except OSError as err:
+        raise ConfigError(f"scenario file {str(path)!r}: cannot read it "
+                          f"({err.strerror})") from None
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as err:
+        raise ConfigError(f"scenario file {str(path)!r}: invalid TOML: {err}; "
+                          "expected a valid UTF-8 TOML document") from None
+    return parse_scenario(apply_overrides(data, overrides), source=str(path))
+
+
+def _fraction(value: Fraction) -> str:
+    return f"{value.numerator}/{value.denominator}"
+
+
+def _lookup(scenario: Scenario, path: str) -> Any:
+    value: Any = scenario
+    for name in path.split("."):
+        value = getattr(value, name)
+    return value
+
+
+def key_docs() -> list[tuple[str, str, str, str, str]]:
+    """Describe every scenario key, in schema order.
+
+    Returns
+    -------
+    list of (str, str, str, str, str)
+        ``(key path, type, unit, default, meaning)``; the default is written
+        as a TOML literal ("unset" for an optional key without default).
+    """
+    defaults = Scenario()
+    rows = []
+    for path, key in _KEYS.items():
+        kind = {"choice": "string: " + " | ".join(f'"{c}"' for c in key.choices),
+                "flux": 'string "p/q"', "pairs": "array of [float, float]"}.get(key.kind, key.kind)
+        default = _plain(_lookup(defaults, path))
+        rows.append((path, kind, key.unit, "unset" if default is None else json.dumps(default),
+                     key.doc))
+    return rows

@@ -1,0 +1,179 @@
+"""Numerical ribbon Hamiltonians extracted from finalized kwant systems.
+
+A ribbon (any system periodic in one direction) is fully described by its
+cell Hamiltonian ``h0`` and the hopping ``h1`` from one cell into the next one
+along the period vector. The Bloch Hamiltonian at crystal momentum ``k``
+(units of 1/period, Bloch waves ``exp(i k x)``) is::
+
+    H(k) = h0 + h1 exp(-i k) + h1^dagger exp(i k)
+
+which is the convention of :class:`kwant.physics.Bands`, so energies agree
+point by point. The velocity operator (Hellmann-Feynman) is
+``dH/dk = -i h1 exp(-i k) + i h1^dagger exp(i k)``.
+
+This module is the numerical-object stage: it knows nothing of scenarios or
+files and is used by the solvers in :mod:`topoedge.spectrum`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import kwant
+import numpy as np
+
+__all__ = ["RibbonHamiltonian"]
+
+
+@dataclass(frozen=True, eq=False)
+class RibbonHamiltonian:
+    """Bloch Hamiltonian of a ribbon in orbital space.
+
+    Attributes
+    ----------
+    h0 : (N, N) complex ndarray
+        Cell Hamiltonian (energy units of the model, ``t`` for the builders).
+    h1 : (N, N) complex ndarray
+        Hopping from a cell into the next one along the period.
+    position : (N,) float ndarray
+        Coordinate of each orbital across the ribbon (lattice constants).
+    sz : (N,) float ndarray or None
+        ``S_z`` of each orbital (+1/2 or -1/2) when the orbitals are spin
+        eigenstates, else None.
+    """
+
+    h0: np.ndarray
+    h1: np.ndarray
+    position: np.ndarray
+    sz: np.ndarray | None = None
+
+    def __post_init__(self):
+        n = self.h0.shape[0]
+        if self.h0.shape != (n, n) or self.h1.shape != (n, n):
+            raise ValueError(
+                f"h0 and h1 must be square and of equal size, got {self.h0.shape} and {self.h1.shape}"
+            )
+        scale = max(1.0, np.abs(self.h0).max(initial=0.0))
+        if not np.allclose(self.h0, self.h0.conj().T, atol=1e-12 * scale, rtol=0):
+            raise ValueError("the cell Hamiltonian h0 is not Hermitian")
+        if self.position.shape != (n,):
+            raise ValueError(f"position must have shape ({n},), got {self.position.shape}")
+        if self.sz is not None and self.sz.shape != (n,):
+            raise ValueError(f"sz must have shape ({n},), got {self.sz.shape}")
+
+    @property
+    def size(self) -> int:
+        """Number of orbitals in a cell."""
+        return self.h0.shape[0]
+
+    @classmethod
+    def from_kwant(cls, syst, *, params: dict | None = None, spin: bool | None = None):
+        """Extract the ribbon Hamiltonian of a kwant system with 1D symmetry.
+
+        Parameters
+        ----------
+        syst : kwant.Builder or kwant.system.InfiniteSystem
+            A builder with one translation symmetry (finalized here) or an
+            already finalized infinite system.
+        params : dict, optional
+            Passed to kwant's value functions.
+        spin : bool, optional
+            Whether every site has two orbitals ordered (up, down). The default
+            is True exactly when every site has two orbitals.
+
+        Returns
+        -------
+        RibbonHamiltonian
+
+        Raises
+        ------
+        TypeError
+            If ``syst`` is not periodic in exactly one direction.
+        ValueError
+            If the number of orbitals per site is not declared (``norbs``).
+        """
+        if isinstance(syst, kwant.Builder):
+            if len(syst.symmetry.periods) != 1:
+                raise TypeError(
+                    "a ribbon needs exactly one translation symmetry; "
+                    f"this builder has {len(syst.symmetry.periods)}"
+                )
+            syst = syst.finalized()
+        if not isinstance(syst, kwant.system.InfiniteSystem):
+            raise TypeError(
+                f"expected a kwant Builder or InfiniteSystem with 1D symmetry, got {type(syst).__name__}"
+            )
+        h0 = np.asarray(syst.cell_hamiltonian(params=params), dtype=complex)
+        hop = np.asarray(syst.inter_cell_hopping(params=params), dtype=complex)
+        h1 = np.zeros_like(h0)
+        h1[:, : hop.shape[1]] = hop
+
+        period = np.asarray(syst.symmetry.periods, dtype=float)[0]
+        if period.size == 1:
+            raise TypeError("a ribbon needs a 2D lattice; this system is one-dimensional")
+        along = period / np.linalg.norm(period)
+        across = np.array([-along[1], along[0]])
+        norbs = []
+        coords = []
+        for site in syst.sites[: syst.cell_size]:
+            n = site.family.norbs
+            if n is None:
+                raise ValueError("declare the number of orbitals per site (norbs) on the lattice")
+            norbs.append(n)
+            coords.append(float(np.dot(np.asarray(site.pos, dtype=float)[:2], across)))
+        norbs = np.asarray(norbs)
+        position = np.repeat(coords, norbs)
+        if spin is None:
+            spin = bool(np.all(norbs == 2))
+        sz = None
+        if spin:
+            if not np.all(norbs == 2):
+                raise ValueError("spin=True needs two orbitals (up, down) on every site")
+            sz = np.tile([0.5, -0.5], len(norbs))
+        return cls(h0=h0, h1=h1, position=position, sz=sz)
+
+    def bloch(self, k) -> np.ndarray:
+        """``H(k)`` for an array of momenta, shape ``k.shape + (N, N)``."""
+        phase = np.exp(-1j * np.asarray(k, dtype=float))[..., None, None]
+        hk = self.h1 * phase
+        return self.h0 + hk + np.swapaxes(hk, -1, -2).conj()
+
+    def velocity(self, k) -> np.ndarray:
+        """Velocity operator ``dH/dk`` for an array of momenta."""
+        phase = np.exp(-1j * np.asarray(k, dtype=float))[..., None, None]
+        hk = -1j * self.h1 * phase
+        return hk + np.swapaxes(hk, -1, -2).conj()
+
+    def spin_blocks(self, tol: float = 1e-14) -> list[np.ndarray] | None:
+        """Orbital indices of the spin-up and spin-down blocks, if S_z is conserved.
+
+        Returns None for a spinless system or when ``h0`` or ``h1`` couple the
+        two spins by more than ``tol`` times the largest matrix element.
+        """
+        if self.sz is None:
+            return None
+        up = self.sz > 0
+        scale = tol * max(np.abs(self.h0).max(initial=0.0), np.abs(self.h1).max(initial=0.0), 1e-300)
+        for m in (self.h0, self.h1):
+            if np.abs(m[np.ix_(up, ~up)]).max(initial=0.0) > scale:
+                return None
+            if np.abs(m[np.ix_(~up, up)]).max(initial=0.0) > scale:
+                return None
+        return [np.flatnonzero(up), np.flatnonzero(~up)]
+
+    def block(self, indices: np.ndarray) -> "RibbonHamiltonian":
+        """The Hamiltonian restricted to ``indices``, reordered by position."""
+        order = np.asarray(indices)[np.argsort(self.position[indices], kind="stable")]
+        ix = np.ix_(order, order)
+        return RibbonHamiltonian(
+            h0=self.h0[ix],
+            h1=self.h1[ix],
+            position=self.position[order],
+            sz=None if self.sz is None else self.sz[order],
+        )
+
+    def bandwidth(self, tol: float = 0.0) -> int:
+        """Half-bandwidth of ``H(k)`` in the current orbital order."""
+        nz = (np.abs(self.h0) > tol) | (np.abs(self.h1) > tol) | (np.abs(self.h1.T) > tol)
+        i, j = np.nonzero(nz)
+        return int(np.abs(i - j).max(initial=0))
