@@ -30,6 +30,8 @@ from fractions import Fraction
 from pathlib import Path
 from typing import Any
 
+from .profiles import EDGE_PROFILES as _PROFILE_REGISTRY
+
 __all__ = [
     "DEFAULT_SCENARIO", "EDGE_PROFILES", "SOLVERS", "ConfigError",
     "EdgeConfig", "FermiConfig", "LatticeConfig", "RibbonConfig", "Scenario",
@@ -38,7 +40,8 @@ __all__ = [
 ]
 
 DEFAULT_SCENARIO = Path(__file__).resolve().parent.parent / "configs" / "default.toml"
-EDGE_PROFILES = ("none", "linear", "tanh", "erf", "table")
+# The edge profiles are registered where they are defined (one list, no drift).
+EDGE_PROFILES = tuple(_PROFILE_REGISTRY)
 SOLVERS = ("auto", "banded", "dense")
 
 
