@@ -16,7 +16,7 @@ from topoedge.config import (
 
 FULL = {
     "title": "linear ramp, spin split",
-    "lattice": {"hopping": 1.0, "flux": "-1/30", "onsite": 0.25},
+    "lattice": {"flux": "-1/30", "onsite": 0.25},
     "spin": {"enabled": True, "zeeman": 0.1},
     "ribbon": {"width": 80, "edge": {"profile": "table", "width": 0.0, "height": 0.0,
                                      "table": [[0, 2.0], [1.5, 0.5], [4, 0]]}},
@@ -28,7 +28,6 @@ FULL_TOML = """\
 title = "linear ramp, spin split"
 
 [lattice]
-hopping = 1.0
 flux = "-1/30"
 onsite = 0.25
 
@@ -103,12 +102,13 @@ BAD = {
                       r"^spectrum\.k_points: got 2\.5 \(float\); expected an integer"),
     "whole float for int": (nested("spectrum.k_points", 300.0),
                             r"got 300\.0 \(float\).*write 300 without a decimal point"),
-    "bool for float": (nested("lattice.hopping", True),
-                       r"^lattice\.hopping: got true \(boolean\); expected a hopping > 0"),
+    "bool for float": (nested("lattice.onsite", True),
+                       r"^lattice\.onsite: got true \(boolean\); expected a finite energy"),
     "string for float": (nested("fermi.energy", "0.1"), r"^fermi\.energy: got '0\.1' \(string\)"),
     "number for bool": (nested("spin.enabled", 1), r"^spin\.enabled: got 1 \(integer\); "
                                                    r"expected true or false$"),
-    "hopping zero": (nested("lattice.hopping", 0), r"^lattice\.hopping: got 0\.0; expected"),
+    "hopping is not a key": (nested("lattice.hopping", 2.0),
+                             r"^lattice\.hopping: unknown key"),
     "ribbon too narrow": (nested("ribbon.width", 1), r"^ribbon\.width: got 1; expected .* >= 2$"),
     "too few k": (nested("spectrum.k_points", 1), r"^spectrum\.k_points: got 1; expected"),
     "q = 0": (nested("lattice.flux", "1/0"), r"^lattice\.flux: got '1/0'; expected q >= 1$"),
@@ -189,7 +189,7 @@ def test_defaults():
     s = parse_scenario({})
     assert s == Scenario()
     assert s.title == "" and s.source is None
-    assert s.lattice == LatticeConfig(hopping=1.0, flux=Fraction(1, 40), onsite=0.0)
+    assert s.lattice == LatticeConfig(flux=Fraction(1, 40), onsite=0.0)
     assert s.spin == SpinConfig(enabled=True, zeeman=0.0)
     assert s.ribbon == RibbonConfig(width=120, edge=EdgeConfig("none", 0.0, 0.0, ()))
     assert s.spectrum == SpectrumConfig(k_points=301, window=None, solver="auto")
@@ -200,7 +200,7 @@ def test_full_scenario():
     s = parse_scenario(FULL, source="full.toml")
     assert s.title == "linear ramp, spin split"
     assert s.source == "full.toml"
-    assert s.lattice == LatticeConfig(1.0, Fraction(-1, 30), 0.25)
+    assert s.lattice == LatticeConfig(Fraction(-1, 30), 0.25)
     assert s.spin == SpinConfig(True, 0.1)
     assert s.ribbon.width == 80
     assert s.ribbon.edge == EdgeConfig("table", 0.0, 0.0, ((0.0, 2.0), (1.5, 0.5), (4.0, 0.0)))
@@ -209,9 +209,9 @@ def test_full_scenario():
 
 
 def test_exact_types():
-    s = parse_scenario({"lattice": {"hopping": 2, "onsite": -1},
+    s = parse_scenario({"lattice": {"onsite": -1},
                         "ribbon": {"edge": {"profile": "linear", "width": 3, "height": 2}}})
-    assert type(s.lattice.hopping) is float and type(s.lattice.onsite) is float
+    assert type(s.lattice.onsite) is float
     assert type(s.ribbon.edge.width) is float and type(s.ribbon.edge.height) is float
     assert type(s.ribbon.width) is int and type(s.lattice.flux) is Fraction
     table = parse_scenario(FULL).ribbon.edge.table

@@ -6,8 +6,8 @@ References used here:
   E_n = -4t + 4 pi t phi (n + 1/2): textbook (m* = hbar^2 / (2 t a^2)), e.g.
   D. R. Hofstadter, Phys. Rev. B 14, 2239 (1976); the phi^2 lattice correction
   -(pi^2 t phi^2 / 2)(2n^2 + 2n + 1) is first-order perturbation theory in the
-  quartic term of -2t(cos kx + cos ky) (derived for this project; value from
-  shared/REFERENCES.md section 4, recomputed).
+  quartic term of -2t(cos kx + cos ky) (derived for this project and
+  recomputed numerically; no published source).
 - Time reversal: H(-phi) = H(phi)^* in this real-space gauge, so
   E_n(k; -phi) = E_n(-k; phi) (common practice, no source needed).
 - Zeeman term: H_Z = -Delta/2 sigma_z shifts spin up by -Delta/2 and spin down
@@ -32,7 +32,7 @@ from topoedge.profiles import edge_potential
 from topoedge.spectrum import k_grid, ribbon_spectrum
 
 # Double precision eigenvalues of matrices with entries O(t) and size <= 200
-# agree to ~1e-13; the contract is 1e-10 t.
+# agree to ~1e-13; the contract of the ribbon solvers is 1e-10 t.
 TOL = 1e-10
 
 
@@ -160,7 +160,7 @@ def test_continuum_landau_levels_at_small_flux():
     # n = 0 within 1 % of hbar*omega_c at leading order.
     assert abs(levels[0] - leading[0]) < 0.01 * hw
     # The lattice correction -(pi^2 t phi^2 / 2)(2n^2 + 2n + 1) (quartic term of
-    # the cosine band, first order; shared/REFERENCES.md section 4) brings
+    # the cosine band, first order, derived for this project) brings
     # n = 0..3 within 1 % of hbar*omega_c; at leading order alone n = 1..3 are
     # off by 3 %, 8 % and 16 % of hbar*omega_c at this flux.
     second = leading - (math.pi**2 * phi**2 / 2) * (2 * n**2 + 2 * n + 1)
@@ -217,9 +217,9 @@ def test_banded_path_for_a_spin_mixing_user_builder():
 
 def test_bulk_builder_has_the_magnetic_unit_cell():
     # q sites per cell for flux p/q; periods (1, 0) and (0, q). Reference: the
-    # Bloch Hamiltonian built by kwant.wraparound has eigenvalues with
-    # (1/N) Tr H^2 = 4 t^2 (every site has 4 neighbours; shared/REFERENCES.md
-    # section 12, recomputed).
+    # Bloch Hamiltonian built by kwant.wraparound has (1/N) Tr H^2 = 4 t^2 at
+    # every k and flux (every site has 4 neighbours of modulus t; common
+    # practice).
     from fractions import Fraction
 
     phi = Fraction(2, 7)
@@ -253,3 +253,22 @@ def test_from_kwant_rejects_non_ribbons():
     plane[lat(0, 0)] = 0
     with pytest.raises(TypeError, match="exactly one translation symmetry"):
         RibbonHamiltonian.from_kwant(plane)
+
+
+def test_spin_blocks_that_differ_beyond_a_shift_are_solved_separately():
+    # S_z conserved but a spin-dependent potential: the two blocks are not
+    # copies of each other. Reference: kwant.physics.Bands.
+    lat = square_lattice(spin=True)
+    builder = kwant.Builder(kwant.TranslationalSymmetry((1, 0)))
+    builder[(lat(0, y) for y in range(20))] = lambda site: np.diag([0.05 * site.pos[1], -0.2])
+    builder[lat.neighbors()] = lambda a, b, phi: -np.exp(-2j * np.pi * phi * b.pos[1] * (a.pos[0] - b.pos[0])) * np.eye(2)
+    params = dict(phi=0.1)
+    ham = RibbonHamiltonian.from_kwant(builder, params=params)
+    k = k_grid(15)
+    spec = ribbon_spectrum(ham, k, window=(-3.5, -1.0))
+    assert "shifted" not in spec.solver
+    ref = _kwant_bands(builder, params, k)
+    inside = (ref >= -3.5) & (ref <= -1.0)
+    np.testing.assert_array_equal(spec.count, inside.sum(axis=1))
+    for i in range(len(k)):
+        np.testing.assert_allclose(spec.energy[i, : spec.count[i]], ref[i][inside[i]], rtol=0, atol=TOL)

@@ -57,7 +57,7 @@ def bench_ribbon(scenario: Scenario, *, width: int = 400, k_points: int = 200, w
     scenario = replace(scenario, ribbon=replace(scenario.ribbon, width=width, edge=edge))
     potential = scenario_potential(scenario)
     lat = scenario.lattice
-    params = model_params(t=lat.hopping, phi=lat.flux, zeeman=scenario.spin.zeeman, onsite=lat.onsite)
+    params = model_params(phi=lat.flux, zeeman=scenario.spin.zeeman, onsite=lat.onsite)
     fsyst = ribbon_builder(width, spin=scenario.spin.enabled, potential=potential).finalized()
     k = k_grid(k_points)
     ef = scenario.fermi.energy

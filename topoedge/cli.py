@@ -37,8 +37,9 @@ def _parser() -> argparse.ArgumentParser:
         "--set", dest="overrides", action="append", default=[], metavar="SECTION.KEY=VALUE",
         help="override one configuration key (repeatable), e.g. --set ribbon.edge.width=6",
     )
-    common.add_argument("--json", action="store_true", help="print the summary as JSON on stdout")
-    common.add_argument("--quiet", action="store_true", help="print nothing but errors (and --json output)")
+    common.add_argument("--json", action="store_true",
+                        help="print the summary as JSON on stdout, and nothing else")
+    common.add_argument("--quiet", action="store_true", help="print nothing but errors")
 
     run = sub.add_parser("run", parents=[common], help="compute a scenario and write a results folder")
     run.add_argument("config", nargs="?", default=None, help=f"scenario TOML file (default: {DEFAULT_SCENARIO.name})")
@@ -56,7 +57,8 @@ def _parser() -> argparse.ArgumentParser:
 
 
 def _say(args, text: str) -> None:
-    if not args.quiet:
+    """Human-readable output; --json keeps stdout for the JSON document alone."""
+    if not (args.quiet or args.json):
         print(text, flush=True)
 
 
@@ -71,12 +73,12 @@ def _default_out(config_path: str | None) -> Path:
 
 
 def _cmd_run(args) -> int:
-    from .pipeline import run_scenario
     from .results import check_destination, format_summary, write_run
 
     scenario = load_scenario(args.config, args.overrides)
     out = args.out if args.out is not None else _default_out(args.config)
     check_destination(out, force=args.force)
+    from .pipeline import run_scenario  # imports kwant: only once the input is valid
     progress = sys.stdout.isatty() and not args.quiet
     result = run_scenario(scenario, progress=progress)
 
@@ -89,14 +91,17 @@ def _cmd_run(args) -> int:
         from .plotting import plot_ribbon_spectrum
 
         fig, ax = plt.subplots(figsize=(7.0, 5.0), layout="constrained")
-        artists = plot_ribbon_spectrum(
-            result.spectrum, ax=ax, width=scenario.ribbon.width, fermi_energy=scenario.fermi.energy
-        )
-        sm = plt.cm.ScalarMappable(norm=artists["norm"], cmap="coolwarm")
-        fig.colorbar(sm, ax=ax, label=r"$\langle y \rangle$ across the ribbon (sites; 0 = bottom edge)")
-        ax.set_title(f"{scenario.title or 'ribbon spectrum'}: flux {scenario.lattice.flux} per plaquette", fontsize=10)
-        fig.savefig(path, dpi=150)
-        plt.close(fig)
+        try:
+            artists = plot_ribbon_spectrum(
+                result.spectrum, ax=ax, width=scenario.ribbon.width, fermi_energy=scenario.fermi.energy
+            )
+            sm = plt.cm.ScalarMappable(norm=artists["norm"], cmap="coolwarm")
+            fig.colorbar(sm, ax=ax, label=r"$\langle y \rangle$ across the ribbon (sites; 0 = bottom edge)")
+            ax.set_title(f"{scenario.title or 'ribbon spectrum'}: flux {scenario.lattice.flux} per plaquette",
+                         fontsize=10)
+            fig.savefig(path, dpi=150)
+        finally:
+            plt.close(fig)
 
     write_run(out, result, {"ribbon_spectrum.png": ribbon_figure}, force=args.force)
     if args.json:
@@ -120,7 +125,7 @@ def _cmd_bench(args) -> int:
     report = bench_ribbon(scenario, width=args.width, k_points=args.k_points, window=args.window)
     if args.json:
         print(json.dumps(report, indent=2))
-    if not args.quiet:
+    if not (args.quiet or args.json):
         s, r = report["seconds"], report["ratios"]
         print(f"  solver: {report['solver']}; {report['orbitals']} orbitals; "
               f"window {report['window_t'][0]:.4f} .. {report['window_t'][1]:.4f} t "
@@ -148,6 +153,11 @@ def main(argv: list[str] | None = None) -> int:
         return {"run": _cmd_run, "bench": _cmd_bench}[args.command](args)
     except (ConfigError, ResultsExistError) as err:
         print(f"topoedge: error: {err}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except OSError as err:  # e.g. an --out whose parent is a file or read-only
+        where = f" '{err.filename}'" if err.filename else ""
+        print(f"topoedge: error: cannot write results{where}: {err.strerror or err}; "
+              "expected a writable --out folder", file=sys.stderr)
         return EXIT_BAD_INPUT
     except KeyboardInterrupt:
         print("topoedge: interrupted; nothing was written", file=sys.stderr)

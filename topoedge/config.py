@@ -6,8 +6,7 @@ Every key is one row of the schema table ``_KEYS`` (path, type, unit, meaning,
 expectation, constraint); its default is the default of the matching
 dataclass field. A new key is one row plus one dataclass field.
 
-Units: all energies share the unit of ``lattice.hopping``, written ``t``
-(with the default hopping 1.0 they are in units of the hopping itself);
+Units: every energy is in units of the nearest-neighbour hopping ``t``;
 lengths are in lattice constants ``a``; flux is in flux quanta ``phi0`` per
 plaquette.
 
@@ -58,8 +57,6 @@ class LatticeConfig:
 
     Attributes
     ----------
-    hopping : float
-        Nearest-neighbour hopping t > 0, in the energy unit t.
     flux : fractions.Fraction
         Flux p/q per plaquette, in flux quanta phi0; a negative p reverses
         the field.
@@ -67,7 +64,6 @@ class LatticeConfig:
         Uniform on-site energy, in t.
     """
 
-    hopping: float = 1.0
     flux: Fraction = Fraction(1, 40)
     onsite: float = 0.0
 
@@ -222,8 +218,6 @@ def _positive(x):
 
 _KEYS: dict[str, _Key] = {key.path: key for key in (
     _Key("title", "string", "-", "Free-text title of the scenario.", "a string"),
-    _Key("lattice.hopping", "float", "t", "Nearest-neighbour hopping t; the energy unit.",
-         "a hopping > 0 in t", _positive),
     _Key("lattice.flux", "flux", "phi0 per plaquette",
          "Flux per plaquette as a fraction p/q; negative p reverses the field.",
          "a string 'p/q' such as '1/40'"),

@@ -21,7 +21,7 @@ from .hamiltonian import RibbonHamiltonian
 from .profiles import edge_potential
 from .spectrum import RibbonSpectrum, k_grid, ribbon_spectrum
 
-__all__ = ["RunResult", "build_ribbon", "run_scenario", "summarize"]
+__all__ = ["RunResult", "build_ribbon", "run_scenario", "scenario_potential", "summarize"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -48,7 +48,7 @@ def build_ribbon(scenario: Scenario) -> tuple[RibbonHamiltonian, np.ndarray]:
     potential = scenario_potential(scenario)
     builder = ribbon_builder(scenario.ribbon.width, spin=scenario.spin.enabled, potential=potential)
     lat = scenario.lattice
-    params = model_params(t=lat.hopping, phi=lat.flux, zeeman=scenario.spin.zeeman, onsite=lat.onsite)
+    params = model_params(phi=lat.flux, zeeman=scenario.spin.zeeman, onsite=lat.onsite)
     return RibbonHamiltonian.from_kwant(builder, params=params, spin=scenario.spin.enabled), potential
 
 
@@ -74,13 +74,12 @@ def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
 def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *, seconds: float) -> dict:
     """JSON-able summary of a ribbon run.
 
-    Derived lattice scales use the effective-mass limit of the square lattice
+    Energies are in units of the hopping ``t``. Derived lattice scales use the effective-mass limit of the square lattice
     (``m* = hbar^2 / (2 t a^2)``): magnetic length ``l_B = a / sqrt(2 pi |phi|)``
     and cyclotron energy ``hbar omega_c = 4 pi t |phi|``.
     """
     lat = scenario.lattice
     phi = abs(float(lat.flux))
-    t = lat.hopping
     valid = np.isfinite(spec.energy)
     energies = spec.energy[valid]
     ef = scenario.fermi.energy
@@ -92,11 +91,10 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
         "model": {
             "lattice": "square",
             "flux": f"{lat.flux.numerator}/{lat.flux.denominator}",
-            "hopping_t": t,
             "spin": scenario.spin.enabled,
             "zeeman_t": scenario.spin.zeeman,
             "magnetic_length_a": (1.0 / math.sqrt(2 * math.pi * phi)) if phi else None,
-            "cyclotron_energy_t": 4 * math.pi * t * phi,
+            "cyclotron_energy_t": 4 * math.pi * phi,
             "ribbon_width_sites": scenario.ribbon.width,
             "edge_profile": scenario.ribbon.edge.profile,
             "edge_potential_max_t": float(np.max(potential)),

@@ -31,8 +31,12 @@ from pathlib import Path
 import h5py
 import numpy as np
 
+from typing import TYPE_CHECKING
+
 from . import __version__
-from .pipeline import RunResult
+
+if TYPE_CHECKING:  # the writers only read a RunResult; importing it would load kwant
+    from .pipeline import RunResult
 
 __all__ = ["ResultsExistError", "check_destination", "write_run", "format_summary"]
 
@@ -111,6 +115,10 @@ def write_run(
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
     try:
+        # mkdtemp creates the folder 0700; give it the permissions of a plain mkdir.
+        umask = os.umask(0)
+        os.umask(umask)
+        tmp.chmod(0o777 & ~umask)
         (tmp / "summary.json").write_text(json.dumps(result.summary, indent=2, sort_keys=False) + "\n")
         write_spectrum_h5(tmp / "spectrum.h5", result)
         for name, draw in figures.items():
@@ -118,7 +126,12 @@ def write_run(
         if out.exists():
             old = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
             os.replace(out, old / out.name)
-            os.replace(tmp, out)
+            try:
+                os.replace(tmp, out)
+            except BaseException:
+                os.replace(old / out.name, out)  # put the earlier results back
+                old.rmdir()
+                raise
             shutil.rmtree(old, ignore_errors=True)
         else:
             os.replace(tmp, out)
@@ -134,7 +147,7 @@ def format_summary(summary: dict) -> str:
     lines = [
         f"topoedge {summary['topoedge_version']}: {summary.get('title') or 'scenario'}"
         + (f" ({summary['source']})" if summary.get("source") else ""),
-        f"  lattice      square, flux {m['flux']} flux quanta per plaquette, t = {m['hopping_t']:g}",
+        f"  lattice      square, flux {m['flux']} flux quanta per plaquette (energies in units of t)",
     ]
     if m["magnetic_length_a"] is not None:
         lines.append(
