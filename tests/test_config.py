@@ -22,6 +22,8 @@ FULL = {
                                      "table": [[0, 2.0], [1.5, 0.5], [4, 0]]}},
     "spectrum": {"k_points": 101, "window": 0.5, "solver": "banded"},
     "fermi": {"energy": -0.3},
+    "chern": {"grid": [16, 20], "gap_min": 1e-4, "refine": False},
+    "edges": {"k_points": 200},
 }
 
 FULL_TOML = """\
@@ -51,6 +53,14 @@ solver = "banded"
 
 [fermi]
 energy = -0.3
+
+[chern]
+grid = [16, 20]
+gap_min = 1e-4
+refine = false
+
+[edges]
+k_points = 200
 """
 
 
@@ -91,7 +101,7 @@ BAD = {
     "misplaced section": ({"edge": {}}, r"^edge: unknown key; did you mean 'ribbon\.edge'\?$"),
     "unknown section": ({"xyzzy": {}},
                         r"^xyzzy: unknown key; expected one of the top-level keys: "
-                        r"'title', 'lattice', 'spin', 'ribbon', 'spectrum', 'fermi'$"),
+                        r"'title', 'lattice', 'spin', 'ribbon', 'spectrum', 'fermi', 'chern', 'edges'$"),
     "unknown key, nothing close": (nested("ribbon.edge.colour", 1),
                                    r"keys of \[ribbon\.edge\]: 'profile', 'width', "),
     "section not a table": ({"lattice": 3}, r"^lattice: got 3 \(integer\); expected a table"),
@@ -193,7 +203,7 @@ def test_defaults():
     assert s.spin == SpinConfig(enabled=True, zeeman=0.0)
     assert s.ribbon == RibbonConfig(width=120, edge=EdgeConfig("none", 0.0, 0.0, ()))
     assert s.spectrum == SpectrumConfig(k_points=301, window=None, solver="auto")
-    assert s.fermi == FermiConfig(energy=0.0)
+    assert s.fermi == FermiConfig(energy=None, gap=None)  # E_F = 0 unless set
 
 
 def test_full_scenario():
@@ -237,7 +247,7 @@ def test_to_dict_values():
     assert d["lattice"]["flux"] == "-1/30"
     assert d["ribbon"]["edge"]["table"] == [[0.0, 2.0], [1.5, 0.5], [4.0, 0.0]]
     assert "window" not in parse_scenario({}).to_dict()["spectrum"]
-    assert set(flat_paths(d)) == set(leaf_paths(Scenario))
+    assert set(flat_paths(d)) == set(leaf_paths(Scenario)) - {"fermi.gap"}  # unset: left out
 
 
 def test_source_not_compared():
@@ -282,7 +292,8 @@ def test_key_docs_cover_every_key():
     rows = key_docs()
     paths = [row[0] for row in rows]
     assert len(paths) == len(set(paths))
-    assert set(paths) == set(leaf_paths(Scenario)) == set(flat_paths(FULL))
+    # FULL sets fermi.energy, which excludes fermi.gap.
+    assert set(paths) == set(leaf_paths(Scenario)) == set(flat_paths(FULL)) | {"fermi.gap"}
     assert all(len(row) == 5 and all(isinstance(x, str) and x for x in row) for row in rows)
     docs = {row[0]: row for row in rows}
     assert docs["lattice.flux"][3] == '"1/40"'

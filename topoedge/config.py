@@ -1,7 +1,8 @@
 """TOML scenarios validated once into frozen dataclasses.
 
 A scenario file has a top-level ``title`` and the sections ``[lattice]``,
-``[spin]``, ``[ribbon]``, ``[ribbon.edge]``, ``[spectrum]`` and ``[fermi]``.
+``[spin]``, ``[ribbon]``, ``[ribbon.edge]``, ``[spectrum]``, ``[fermi]``,
+``[chern]`` and ``[edges]``.
 Every key is one row of the schema table ``_KEYS`` (path, type, unit, meaning,
 expectation, constraint); its default is the default of the matching
 dataclass field. A new key is one row plus one dataclass field.
@@ -151,11 +152,49 @@ class FermiConfig:
 
     Attributes
     ----------
-    energy : float
+    energy : float or None
         Fermi energy E_F, in t.
+    gap : int or None
+        Place E_F in the middle of the bulk gap above the ``gap`` lowest bulk
+        bands (spin bands included), instead of giving ``energy``. With
+        neither key E_F = 0.
     """
 
-    energy: float = 0.0
+    energy: float | None = None
+    gap: int | None = None
+
+
+@dataclass(frozen=True)
+class ChernConfig:
+    """Bulk Chern numbers by the link-variable method.
+
+    Attributes
+    ----------
+    grid : (int, int) or None
+        Momentum grid over the magnetic Brillouin zone; None chooses
+        2 points per band in each direction (at least 12).
+    gap_min : float
+        Direct gaps below this (t) count as closed.
+    refine : bool
+        Repeat the count on a grid 1.5 times finer and report both.
+    """
+
+    grid: tuple[int, int] | None = None
+    gap_min: float = 1e-5
+    refine: bool = True
+
+
+@dataclass(frozen=True)
+class EdgesConfig:
+    """Edge-mode count at the Fermi energy.
+
+    Attributes
+    ----------
+    k_points : int
+        Momenta of the scan for crossings of E_F (each is then refined).
+    """
+
+    k_points: int = 400
 
 
 @dataclass(frozen=True)
@@ -172,6 +211,8 @@ class Scenario:
     ribbon: RibbonConfig = RibbonConfig()
     spectrum: SpectrumConfig = SpectrumConfig()
     fermi: FermiConfig = FermiConfig()
+    chern: ChernConfig = ChernConfig()
+    edges: EdgesConfig = EdgesConfig()
     source: str | None = field(default=None, compare=False)
 
     def to_dict(self) -> dict[str, Any]:
@@ -197,6 +238,7 @@ _SECTIONS: dict[str, type] = {
     "": Scenario, "lattice": LatticeConfig, "spin": SpinConfig,
     "ribbon": RibbonConfig, "ribbon.edge": EdgeConfig,
     "spectrum": SpectrumConfig, "fermi": FermiConfig,
+    "chern": ChernConfig, "edges": EdgesConfig,
 }
 
 
@@ -245,7 +287,20 @@ _KEYS: dict[str, _Key] = {key.path: key for key in (
          optional=True),
     _Key("spectrum.solver", "choice", "-", "Eigenvalue solver of the ribbon spectrum.",
          "one of " + ", ".join(map(repr, SOLVERS)), choices=SOLVERS),
-    _Key("fermi.energy", "float", "t", "Fermi energy E_F.", "a finite energy in t"),
+    _Key("fermi.energy", "float", "t", "Fermi energy E_F (unset with fermi.gap; 0 when both are unset).",
+         "a finite energy in t", optional=True),
+    _Key("fermi.gap", "integer", "-",
+         "Put E_F mid-gap above the r lowest bulk bands (spin bands included).",
+         "an integer number of bands >= 1", lambda r: r >= 1, optional=True),
+    _Key("chern.grid", "grid", "-",
+         "Momentum grid [n1, n2] of the link-variable method; unset: 2 points per band, at least 12.",
+         "an array of two integers >= 3", optional=True),
+    _Key("chern.gap_min", "float", "t", "Direct gaps below this count as closed.",
+         "a gap > 0 in t", _positive),
+    _Key("chern.refine", "boolean", "-", "Repeat the Chern count on a 1.5 times finer grid.",
+         "true or false"),
+    _Key("edges.k_points", "integer", "-", "Momenta of the scan for crossings of E_F.",
+         "an integer number of k points >= 8", lambda n: n >= 8),
 )}
 
 _TOML_TYPES = {bool: "boolean", int: "integer", float: "float", str: "string",
@@ -350,9 +405,18 @@ def _to_pairs(key: _Key, value: Any) -> tuple[tuple[float, float], ...]:
     return tuple(rows)
 
 
+def _to_grid(key: _Key, value: Any) -> tuple[int, int]:
+    if not (isinstance(value, (list, tuple)) and len(value) == 2
+            and all(isinstance(n, numbers.Integral) and not isinstance(n, bool) for n in value)):
+        raise _type_error(key, value)
+    if min(value) < 3:
+        raise ConfigError(f"{key.path}: got {_show(list(value))}; expected {key.expect}")
+    return int(value[0]), int(value[1])
+
+
 _CONVERTERS: dict[str, Callable[[_Key, Any], Any]] = {
     "string": _to_str, "float": _to_float, "integer": _to_int, "boolean": _to_bool,
-    "choice": _to_choice, "flux": _to_flux, "pairs": _to_pairs,
+    "choice": _to_choice, "flux": _to_flux, "pairs": _to_pairs, "grid": _to_grid,
 }
 
 
@@ -378,10 +442,13 @@ def _children(prefix: str) -> list[str]:
 def _unknown(path: str) -> ConfigError:
     """Error for an unknown key, suggesting a sibling or a misplaced key."""
     prefix, _, name = path.rpartition(".")
+    everywhere = [p for p in [*_KEYS, *_SECTIONS] if p]
+    misplaced = [p for p in everywhere if p.rpartition(".")[2] == name]
+    if misplaced:  # the right name in the wrong section beats a near sibling
+        return ConfigError(f"{path}: unknown key; did you mean {' or '.join(map(repr, misplaced))}?")
     close = difflib.get_close_matches(name, _children(prefix), n=1)
     if close:
         return ConfigError(f"{path}: unknown key; did you mean {_join(prefix, close[0])!r}?")
-    everywhere = [p for p in [*_KEYS, *_SECTIONS] if p]
     names = {p.rpartition(".")[2] for p in everywhere}
     close = difflib.get_close_matches(name, names, n=1)
     if close:
@@ -433,6 +500,9 @@ def _check_combinations(s: Scenario) -> None:
         raise ConfigError(f"ribbon.edge.table: given with ribbon.edge.profile = "
                           f"{edge.profile!r}; expected no table for that profile "
                           "(set ribbon.edge.profile = 'table' to use it)")
+    if s.fermi.energy is not None and s.fermi.gap is not None:
+        raise ConfigError(f"fermi.gap: got {s.fermi.gap} together with fermi.energy = "
+                          f"{s.fermi.energy!r}; expected only one of them")
     if s.spin.zeeman != 0 and not s.spin.enabled:
         raise ConfigError(f"spin.zeeman: got {s.spin.zeeman!r} with spin.enabled = false; "
                           f"expected 0 without spin (spin.zeeman = {s.spin.zeeman!r} needs "

@@ -1,0 +1,376 @@
+"""Chern numbers of bulk bands by the link-variable method (solver stage).
+
+On a periodic ``N1 x N2`` grid of reduced momenta the eigenvectors of a group
+of bands ``Psi(k)`` (columns) define the link variables::
+
+    U_mu(k) = det[Psi(k)^dagger Psi(k + mu)] / |det[...]|,   mu = 1, 2
+
+and the lattice field strength of every plaquette::
+
+    F_12(k) = Arg[U_1(k) U_2(k + 1) U_1(k + 2)^* U_2(k)^*],   -pi < F <= pi
+
+The Chern number of the group is ``c = (1/2 pi) sum_k F_12(k)``, an integer on
+any grid that equals the continuum value once ``|F_12| < pi`` on every
+plaquette. The determinant (multi-band) form handles bands that touch inside a
+group. The result does not depend on the phases or the unitary mixing of the
+eigenvectors at any k.
+
+Bands are grouped per spin sector (when ``S_z`` is conserved the two spin
+blocks are diagonalised separately): neighbouring bands of a sector whose
+smallest direct gap on the grid is below ``gap_min`` form one group. The Chern
+sum below a spectral gap is the sum of the Chern numbers of the groups below
+it. Where the smallest direct gap on the grid might close between grid points
+(it changes by more than its own size from one grid point to the next) it is
+refined by a local minimisation.
+
+Sign convention: momenta and the loop orientation follow
+:mod:`topoedge.bloch` (``H(k) = sum_R H_R exp(i k.R)``, loop
+``k -> k + 1 -> k + 1 + 2 -> k + 2``, direction 1 along ``x`` and 2 along
+``y``). With the builders' convention (counter-clockwise plaquette phase
+``+2 pi phi``, electrons) the gap above the lowest Landau level at small
+``phi > 0`` has Chern number ``+1``, and the Chern numbers solve
+``r = q s_r + p t_r`` with Chern sum ``t_r`` below gap ``r``.
+
+References
+----------
+.. [1] T. Fukui, Y. Hatsugai, H. Suzuki, "Chern numbers in discretized
+   Brillouin zone: efficient method of computing (spin) Hall conductances",
+   J. Phys. Soc. Jpn. 74, 1674 (2005).
+.. [2] D. J. Thouless, M. Kohmoto, M. P. Nightingale, M. den Nijs, "Quantized
+   Hall conductance in a two-dimensional periodic potential", Phys. Rev. Lett.
+   49, 405 (1982).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.optimize import minimize
+
+from .bloch import BlochHamiltonian
+
+__all__ = [
+    "Band", "BandGroup", "Gap", "ChernResult", "GapClosedError",
+    "chern_numbers", "default_grid", "link_chern", "path_bands",
+]
+
+
+class GapClosedError(ValueError):
+    """A requested gap is closed, or an energy lies inside a bulk band."""
+
+
+@dataclass(frozen=True)
+class Band:
+    """One bulk band, bottom to top over all sectors (``index`` from 0)."""
+
+    index: int
+    spin: str | None
+    sector_index: int
+    chern: int | None          # None when the band touches a neighbour (see its group)
+    energy_min: float
+    energy_max: float
+    group: int
+
+    def to_dict(self) -> dict:
+        return {"index": self.index, "spin": self.spin, "chern": self.chern,
+                "energy_min": self.energy_min, "energy_max": self.energy_max, "group": self.group}
+
+
+@dataclass(frozen=True)
+class BandGroup:
+    """Bands of one sector separated from the rest of the sector by gaps."""
+
+    spin: str | None
+    bands: tuple[int, ...]     # sector band indices
+    chern: int
+    chern_raw: float           # sum of F / 2 pi before rounding
+    energy_min: float
+    energy_max: float
+    gap_above: float | None    # smallest direct gap to the next band of the sector, t
+    link_min: float            # smallest |det| of the link overlaps (1 = smooth)
+
+
+@dataclass(frozen=True)
+class Gap:
+    """A spectral gap of the bulk with ``below`` bands under it."""
+
+    below: int
+    energy_min: float
+    energy_max: float
+    chern: int
+    spin_chern: dict | None    # {"up": int, "down": int} when S_z is conserved
+    direct_gap: float          # smallest direct gap between the bands adjacent to it, per sector
+
+    @property
+    def middle(self) -> float:
+        return 0.5 * (self.energy_min + self.energy_max)
+
+    def to_dict(self) -> dict:
+        return {"below": self.below, "energy_min": self.energy_min, "energy_max": self.energy_max,
+                "chern": self.chern, "spin_chern": self.spin_chern, "direct_gap": self.direct_gap}
+
+
+@dataclass(frozen=True, eq=False)
+class ChernResult:
+    """Bands, groups and gaps of a bulk Hamiltonian on one grid."""
+
+    grid: tuple[int, int]
+    gap_min: float
+    bands: tuple[Band, ...]
+    groups: tuple[BandGroup, ...]
+    gaps: tuple[Gap, ...]
+    sectors: tuple = field(default=(None,))
+
+    def gap_at(self, energy: float) -> Gap:
+        """The spectral gap containing ``energy``.
+
+        Raises
+        ------
+        GapClosedError
+            If ``energy`` lies inside a bulk band (naming it) or outside the spectrum.
+        """
+        for band in self.bands:
+            if band.energy_min - self.gap_min <= energy <= band.energy_max + self.gap_min:
+                spin = f", spin {band.spin}" if band.spin else ""
+                raise GapClosedError(
+                    f"E_F = {energy:.6g} t lies inside bulk band {band.index}{spin} "
+                    f"({band.energy_min:.6g} .. {band.energy_max:.6g} t); E_F must be in a gap "
+                    f"(open gaps: {self._gap_list()})"
+                )
+        for gap in self.gaps:
+            if gap.energy_min < energy < gap.energy_max:
+                return gap
+        if energy < self.bands[0].energy_min:
+            return Gap(0, -np.inf, self.bands[0].energy_min, 0, self._zero_spin(), np.inf)
+        if energy > self.bands[-1].energy_max:
+            return Gap(len(self.bands), self.bands[-1].energy_max, np.inf, 0, self._zero_spin(), np.inf)
+        raise GapClosedError(f"E_F = {energy:.6g} t is in no open gap (open gaps: {self._gap_list()})")
+
+    def gap_above(self, r: int) -> Gap:
+        """The gap above the ``r`` lowest bands (spin bands included), 1 <= r < N.
+
+        Raises
+        ------
+        GapClosedError
+            If that gap is closed, naming the overlapping bands or the direct gap.
+        """
+        n = len(self.bands)
+        if not 1 <= r < n:
+            raise GapClosedError(f"fermi.gap = {r}: expected 1 <= gap < {n} (the number of bulk bands)")
+        for gap in self.gaps:
+            if gap.below == r:
+                return gap
+        lower, upper = self.bands[:r], self.bands[r:]
+        top = max(b.energy_max for b in lower)
+        bottom = min(b.energy_min for b in upper)
+        raise GapClosedError(
+            f"fermi.gap = {r}: the gap above band {r - 1} is closed (bands below reach {top:.6g} t, "
+            f"bands above start at {bottom:.6g} t, minimum gap {self.gap_min:g} t); "
+            f"open gaps: {self._gap_list()}"
+        )
+
+    def _zero_spin(self):
+        return None if self.sectors == (None,) else {s: 0 for s in self.sectors}
+
+    def _gap_list(self) -> str:
+        return ", ".join(f"{g.below} ({g.energy_min:.4g} .. {g.energy_max:.4g} t)" for g in self.gaps) or "none"
+
+    def to_dict(self) -> dict:
+        return {"grid": list(self.grid), "gap_min": self.gap_min,
+                "bands": [b.to_dict() for b in self.bands], "gaps": [g.to_dict() for g in self.gaps]}
+
+
+def default_grid(bloch: BlochHamiltonian) -> tuple[int, int]:
+    """Grid of reduced momenta: 2 points per band along each direction, at least 12."""
+    n = bloch.size // (2 if bloch.spin_blocks() is not None else 1)
+    size = max(12, 2 * n)
+    return size, size
+
+
+def link_chern(vectors: np.ndarray) -> tuple[float, float]:
+    """Chern number of the subspace spanned by ``vectors`` on a periodic grid.
+
+    Parameters
+    ----------
+    vectors : (N1, N2, N, g) complex ndarray
+        Orthonormal columns spanning the subspace at every grid point.
+
+    Returns
+    -------
+    chern_raw : float
+        ``(1/2 pi) sum F_12``: an integer up to rounding.
+    link_min : float
+        Smallest ``|det|`` of the overlap matrices (near 0: grid too coarse).
+    """
+    conj = vectors.conj()
+    if vectors.shape[-1] == 1:
+        o1 = np.sum(conj[..., 0] * np.roll(vectors[..., 0], -1, axis=0), axis=-1)
+        o2 = np.sum(conj[..., 0] * np.roll(vectors[..., 0], -1, axis=1), axis=-1)
+    else:
+        o1 = np.linalg.det(np.swapaxes(conj, -1, -2) @ np.roll(vectors, -1, axis=0))
+        o2 = np.linalg.det(np.swapaxes(conj, -1, -2) @ np.roll(vectors, -1, axis=1))
+    link_min = float(min(np.abs(o1).min(), np.abs(o2).min()))
+    u1 = o1 / np.abs(o1)
+    u2 = o2 / np.abs(o2)
+    plaquette = u1 * np.roll(u2, -1, axis=0) * np.roll(u1, -1, axis=1).conj() * u2.conj()
+    return float(np.angle(plaquette).sum() / (2 * np.pi)), link_min
+
+
+def _uniform_shift(a: BlochHamiltonian, b: BlochHamiltonian) -> float | None:
+    """``c`` if ``b`` equals ``a`` plus ``c`` times the identity (to rounding), else None."""
+    if a.size != b.size or not np.array_equal(a.shifts, b.shifts):
+        return None
+    diff = b.blocks - a.blocks
+    onsite = np.flatnonzero(np.all(a.shifts == 0, axis=1))
+    if onsite.size != 1:
+        return None
+    c = float(np.real(diff[onsite[0], 0, 0]))
+    expected = np.zeros_like(diff)
+    expected[onsite[0]] = c * np.eye(a.size)
+    tol = 1e-14 * max(np.abs(a.blocks).max(initial=0.0), 1.0)
+    return c if np.abs(diff - expected).max(initial=0.0) <= tol else None
+
+
+def _refined_gap(bloch, j, k1, k2, gaps):
+    """Smallest direct gap between bands j, j+1 near the grid minimum."""
+    i1, i2 = np.unravel_index(np.argmin(gaps), gaps.shape)
+    g0 = gaps[i1, i2]
+    neighbours = [gaps[(i1 + d1) % gaps.shape[0], (i2 + d2) % gaps.shape[1]]
+                  for d1, d2 in ((1, 0), (-1, 0), (0, 1), (0, -1))]
+    if g0 >= max(neighbours) - g0:  # the gap cannot close within a grid step
+        return float(g0)
+    d1, d2 = 2 * np.pi / gaps.shape[0], 2 * np.pi / gaps.shape[1]
+
+    def gap(x):
+        e = np.linalg.eigvalsh(bloch.at(x[0], x[1]))
+        return e[j + 1] - e[j]
+
+    best = float(g0)
+    for s1 in (-0.5, 0.5):
+        for s2 in (-0.5, 0.5):
+            start = np.array([k1[i1] + s1 * d1, k2[i2] + s2 * d2])
+            res = minimize(gap, start, method="Nelder-Mead",
+                           options=dict(xatol=1e-10, fatol=1e-14, maxiter=400, initial_simplex=[
+                               start, start + [d1, 0], start + [0, d2]]))
+            best = min(best, float(res.fun))
+    return best
+
+
+def chern_numbers(
+    bloch: BlochHamiltonian, *, grid: tuple[int, int] | None = None, gap_min: float = 1e-5
+) -> ChernResult:
+    """Chern numbers of every band group and gap of a bulk Hamiltonian.
+
+    Parameters
+    ----------
+    bloch : BlochHamiltonian
+    grid : (int, int), optional
+        Number of reduced momenta along each direction; :func:`default_grid`
+        if omitted.
+    gap_min : float
+        Direct gaps (on the grid, refined) below this value (units of ``t``)
+        count as closed: such bands form one group, and spectral gaps narrower
+        than it are not reported.
+
+    Returns
+    -------
+    ChernResult
+
+    Raises
+    ------
+    ValueError
+        For a grid with fewer than 3 points in a direction or ``gap_min <= 0``.
+    """
+    n1, n2 = grid if grid is not None else default_grid(bloch)
+    if n1 < 3 or n2 < 3:
+        raise ValueError(f"the momentum grid needs at least 3 x 3 points, got {n1} x {n2}")
+    if not gap_min > 0:
+        raise ValueError(f"gap_min must be > 0, got {gap_min}")
+    blocks = bloch.spin_blocks()
+    sectors = [("up", blocks[0]), ("down", blocks[1])] if blocks is not None else [(None, None)]
+
+    groups, sector_bands = [], []
+    previous = None
+    for spin, idx in sectors:
+        part = bloch if idx is None else bloch.block(idx)
+        shift = _uniform_shift(previous[0], part) if previous is not None else None
+        if shift is None:
+            k1, k2, hk = part.grid(n1, n2)
+            energies, vectors = np.linalg.eigh(hk)
+            direct = np.diff(energies, axis=-1)            # (n1, n2, n - 1)
+            gap_sizes = [_refined_gap(part, j, k1, k2, direct[..., j]) for j in range(part.size - 1)]
+        else:
+            # This sector is the previous one plus a constant (a uniform Zeeman
+            # term): same eigenvectors and gaps, shifted energies.
+            energies, vectors, gap_sizes = previous[1] + shift, previous[2], previous[3]
+        previous = (part, energies, vectors, gap_sizes)
+        start = 0
+        for j in range(part.size):
+            last = j == part.size - 1
+            if last or gap_sizes[j] >= gap_min:
+                members = tuple(range(start, j + 1))
+                raw, link_min = link_chern(vectors[..., start : j + 1])
+                e = energies[..., start : j + 1]
+                groups.append(BandGroup(
+                    spin=spin, bands=members, chern=int(round(raw)), chern_raw=raw,
+                    energy_min=float(e.min()), energy_max=float(e.max()),
+                    gap_above=None if last else float(gap_sizes[j]), link_min=link_min,
+                ))
+                for n in members:
+                    sector_bands.append((spin, n, len(groups) - 1, len(members),
+                                         float(energies[..., n].min()), float(energies[..., n].max())))
+                start = j + 1
+
+    order = sorted(range(len(sector_bands)), key=lambda i: (sector_bands[i][4], sector_bands[i][5]))
+    bands = tuple(
+        Band(index=pos, spin=sector_bands[i][0], sector_index=sector_bands[i][1],
+             chern=groups[sector_bands[i][2]].chern if sector_bands[i][3] == 1 else None,
+             energy_min=sector_bands[i][4], energy_max=sector_bands[i][5], group=sector_bands[i][2])
+        for pos, i in enumerate(order)
+    )
+    gaps = []
+    spins = [s for s, _ in sectors]
+    for r in range(1, len(bands)):
+        top = max(b.energy_max for b in bands[:r])
+        bottom = min(b.energy_min for b in bands[r:])
+        if bottom - top < gap_min:
+            continue
+        below_groups = {b.group for b in bands[:r]}
+        if below_groups & {b.group for b in bands[r:]}:
+            continue  # a group straddles the window: not a gap of every sector
+        chern = sum(groups[g].chern for g in below_groups)
+        spin_chern = None
+        if spins != [None]:
+            spin_chern = {s: sum(groups[g].chern for g in below_groups if groups[g].spin == s) for s in spins}
+        direct = min(
+            (groups[g].gap_above for g in below_groups
+             if groups[g].gap_above is not None
+             and not any(groups[h].spin == groups[g].spin and groups[h].bands[0] == groups[g].bands[-1] + 1
+                         for h in below_groups)),
+            default=np.inf,
+        )
+        gaps.append(Gap(below=r, energy_min=top, energy_max=bottom, chern=chern,
+                        spin_chern=spin_chern, direct_gap=float(direct)))
+    return ChernResult(grid=(n1, n2), gap_min=gap_min, bands=bands, groups=tuple(groups),
+                       gaps=tuple(gaps), sectors=tuple(spins))
+
+
+def path_bands(bloch: BlochHamiltonian, points: int = 200) -> dict:
+    """Bulk bands along the path Gamma - X - M - Gamma of the reduced zone.
+
+    Returns
+    -------
+    dict
+        ``distance`` (P,), ``ticks`` [(position, label)], and per sector
+        ``energies[spin]`` (P, n) with ``spin`` in ("up", "down") or (None,).
+    """
+    corners = np.array([[0.0, 0.0], [np.pi, 0.0], [np.pi, np.pi], [0.0, 0.0]])
+    seg = np.linalg.norm(np.diff(corners, axis=0), axis=1)
+    s = np.linspace(0.0, seg.sum(), points)
+    cum = np.concatenate([[0.0], np.cumsum(seg)])
+    k = np.stack([np.interp(s, cum, corners[:, i]) for i in (0, 1)], axis=-1)
+    blocks = bloch.spin_blocks()
+    parts = {"up": bloch.block(blocks[0]), "down": bloch.block(blocks[1])} if blocks else {None: bloch}
+    energies = {spin: np.linalg.eigvalsh(part.at(k[:, 0], k[:, 1])) for spin, part in parts.items()}
+    return {"distance": s, "ticks": list(zip(cum, ["Γ", "X", "M", "Γ"])), "energies": energies}
