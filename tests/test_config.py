@@ -396,3 +396,15 @@ def test_unreadable_encoding(tmp_path):
     path.write_bytes('title = "caf\u00e9"\n'.encode("latin-1"))
     with pytest.raises(ConfigError, match=r"latin1\.toml': invalid TOML"):
         load_scenario(path)
+
+
+def test_fermi_gap_override_replaces_the_energy_and_back():
+    data = {"fermi": {"energy": -3.5}}
+    s = parse_scenario(apply_overrides(data, ["fermi.gap=2"]))
+    assert (s.fermi.energy, s.fermi.gap) == (None, 2)
+    s = parse_scenario(apply_overrides({"fermi": {"gap": 3}}, ["fermi.energy=-1.5"]))
+    assert (s.fermi.energy, s.fermi.gap) == (-1.5, None)
+    with pytest.raises(ConfigError, match=r"^fermi\.gap: got 2 together with fermi\.energy"):
+        parse_scenario({"fermi": {"energy": -3.5, "gap": 2}})
+    with pytest.raises(ConfigError, match=r"^fermi\.gap: got 0; expected an integer number of bands >= 1"):
+        parse_scenario({"fermi": {"gap": 0}})

@@ -82,32 +82,28 @@ def _cmd_run(args) -> int:
     progress = sys.stdout.isatty() and not args.quiet
     result = run_scenario(scenario, progress=progress)
 
-    def ribbon_figure(path: Path) -> None:
-        import matplotlib
+    import matplotlib
 
-        matplotlib.use("Agg")
-        import matplotlib.pyplot as plt
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
 
-        from .plotting import plot_ribbon_spectrum
+    from .plotting import RUN_FIGURES
 
-        fig, ax = plt.subplots(figsize=(7.0, 5.0), layout="constrained")
-        try:
-            artists = plot_ribbon_spectrum(
-                result.spectrum, ax=ax, width=scenario.ribbon.width, fermi_energy=scenario.fermi.energy
-            )
-            sm = plt.cm.ScalarMappable(norm=artists["norm"], cmap="coolwarm")
-            fig.colorbar(sm, ax=ax, label=r"$\langle y \rangle$ across the ribbon (sites; 0 = bottom edge)")
-            ax.set_title(f"{scenario.title or 'ribbon spectrum'}: flux {scenario.lattice.flux} per plaquette",
-                         fontsize=10)
-            fig.savefig(path, dpi=150)
-        finally:
-            plt.close(fig)
+    def saver(make):
+        def save(path: Path) -> None:
+            fig = make(result)
+            try:
+                fig.savefig(path, dpi=150)
+            finally:
+                plt.close(fig)
 
-    write_run(out, result, {"ribbon_spectrum.png": ribbon_figure}, force=args.force)
+        return save
+
+    write_run(out, result, {name: saver(make) for name, make in RUN_FIGURES.items()}, force=args.force)
     if args.json:
         print(json.dumps(result.summary, indent=2))
     _say(args, format_summary(result.summary))
-    _say(args, f"  results      {out}/ (summary.json, spectrum.h5, ribbon_spectrum.png)")
+    _say(args, f"  results      {out}/ (summary.json, spectrum.h5, {', '.join(RUN_FIGURES)})")
     return 0
 
 
@@ -147,11 +143,12 @@ def main(argv: list[str] | None = None) -> int:
     # kwant warns at import that its sparse solver falls back to SciPy; the
     # ribbon and bulk calculations do not use that solver.
     warnings.filterwarnings("ignore", message="MUMPS is not available")
+    from .chern import GapClosedError
     from .results import ResultsExistError
 
     try:
         return {"run": _cmd_run, "bench": _cmd_bench}[args.command](args)
-    except (ConfigError, ResultsExistError) as err:
+    except (ConfigError, ResultsExistError, GapClosedError) as err:
         print(f"topoedge: error: {err}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except OSError as err:  # e.g. an --out whose parent is a file or read-only

@@ -566,7 +566,8 @@ def apply_overrides(data: Mapping[str, Any], overrides: Sequence[str]) -> dict[s
     overrides : sequence of str
         Items ``path=value`` with a dotted key path of any depth, e.g.
         ``ribbon.edge.width=4``. The value is read as a TOML value, or kept
-        as a bare string if it is not one (``lattice.flux=1/30``).
+        as a bare string if it is not one (``lattice.flux=1/30``). Setting
+        ``fermi.gap`` removes ``fermi.energy`` and the other way round.
 
     Returns
     -------
@@ -598,7 +599,15 @@ def apply_overrides(data: Mapping[str, Any], overrides: Sequence[str]) -> dict[s
                 raise ConfigError(f"--set {_show(item)}: {inner} holds a value, not a table; "
                                   f"expected a key path ending at a key (e.g. {inner}=...)")
         table[names[-1]] = _parse_value(text.strip())
+        for group in _ALTERNATIVES:  # setting one alternative replaces the others
+            if ".".join(names) in group and table is merged.get(names[0]):
+                for other in group - {".".join(names)}:
+                    table.pop(other.rpartition(".")[2], None)
     return merged
+
+
+#: Keys that exclude each other; an override of one removes the others.
+_ALTERNATIVES = ({"fermi.energy", "fermi.gap"},)
 
 
 def load_scenario(path: str | os.PathLike[str] | None = None,

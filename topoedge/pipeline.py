@@ -1,9 +1,25 @@
 """From a validated scenario to computed results (no files, no printing).
 
-``run_scenario`` chains the stages: builders -> ribbon Hamiltonian ->
-spectrum, and condenses the outcome into a JSON-able summary. The file and
-figure writers in :mod:`topoedge.results` and :mod:`topoedge.plotting` and the
-command line sit on top of it.
+``run_scenario`` chains the stages for one scenario:
+
+1. bulk: magnetic unit cell -> Bloch Hamiltonian -> Chern numbers of every
+   band and gap (optionally repeated on a finer grid);
+2. Fermi energy: given, or the middle of the gap above the ``r`` lowest bands;
+   refused when it lies in a bulk band or the gap is closed;
+3. ribbon: builder -> ribbon Hamiltonian -> spectrum, and the edge modes at
+   E_F (crossings, velocities, positions, spins);
+4. the bulk-edge check and the Hall response, condensed into a JSON-able
+   summary.
+
+The file and figure writers in :mod:`topoedge.results` and
+:mod:`topoedge.plotting` and the command line sit on top of it.
+
+Bulk-edge convention: with the builders' conventions (counter-clockwise
+plaquette phase ``+2 pi phi``, Bloch waves ``exp(i k x)``) and the Chern
+convention of :mod:`topoedge.chern`, the net number of modes on the bottom
+edge, counted with the sign of ``dE/dk``, equals the Chern sum ``C`` of the
+bulk bands below E_F, and the top edge carries ``-C``. The Hall conductance is
+``sigma_xy = C e^2/h`` and ``R_xy = h / (C e^2)``.
 """
 
 from __future__ import annotations
@@ -13,15 +29,25 @@ import time
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.constants as const
 
 from . import __version__
-from .builders import model_params, ribbon_builder
+from .bloch import BlochHamiltonian
+from .builders import bulk_builder, model_params, ribbon_builder
+from .chern import ChernResult, Gap, chern_numbers, default_grid, path_bands
 from .config import Scenario
+from .edges import EdgeCount, count_edge_modes
 from .hamiltonian import RibbonHamiltonian
 from .profiles import edge_potential
 from .spectrum import RibbonSpectrum, k_grid, ribbon_spectrum
 
-__all__ = ["RunResult", "build_ribbon", "run_scenario", "scenario_potential", "summarize"]
+__all__ = [
+    "RunResult", "VON_KLITZING", "build_bulk", "build_ribbon", "bulk_chern", "bulk_edge_check",
+    "fermi_level", "run_scenario", "scenario_potential", "summarize",
+]
+
+#: Von Klitzing constant h/e^2 in ohm (exact in the SI since 2019; CODATA).
+VON_KLITZING = const.h / const.e**2
 
 
 @dataclass(frozen=True, eq=False)
@@ -32,7 +58,18 @@ class RunResult:
     potential: np.ndarray
     hamiltonian: RibbonHamiltonian
     spectrum: RibbonSpectrum
+    chern: ChernResult
+    chern_refined: ChernResult | None
+    fermi_energy: float
+    gap: Gap
+    edges: EdgeCount
+    bulk_path: dict
     summary: dict
+
+
+def _params(scenario: Scenario) -> dict:
+    lat = scenario.lattice
+    return model_params(phi=lat.flux, zeeman=scenario.spin.zeeman, onsite=lat.onsite)
 
 
 def scenario_potential(scenario: Scenario) -> np.ndarray:
@@ -47,18 +84,67 @@ def build_ribbon(scenario: Scenario) -> tuple[RibbonHamiltonian, np.ndarray]:
     """The kwant ribbon of a scenario, finalized and reduced to its Bloch form."""
     potential = scenario_potential(scenario)
     builder = ribbon_builder(scenario.ribbon.width, spin=scenario.spin.enabled, potential=potential)
-    lat = scenario.lattice
-    params = model_params(phi=lat.flux, zeeman=scenario.spin.zeeman, onsite=lat.onsite)
-    return RibbonHamiltonian.from_kwant(builder, params=params, spin=scenario.spin.enabled), potential
+    ham = RibbonHamiltonian.from_kwant(builder, params=_params(scenario), spin=scenario.spin.enabled)
+    return ham, potential
+
+
+def build_bulk(scenario: Scenario) -> BlochHamiltonian:
+    """The bulk of a scenario: magnetic unit cell, no edge potential."""
+    builder = bulk_builder(scenario.lattice.flux, spin=scenario.spin.enabled)
+    return BlochHamiltonian.from_kwant(builder, params=_params(scenario), spin=scenario.spin.enabled)
+
+
+def bulk_chern(scenario: Scenario) -> tuple[ChernResult, ChernResult | None, dict]:
+    """Chern numbers of the bulk on the configured grid and, optionally, a finer one.
+
+    Returns
+    -------
+    result : ChernResult
+    refined : ChernResult or None
+        The same on a grid 1.5 times finer in each direction (``chern.refine``).
+    path : dict
+        Bulk bands along Gamma-X-M-Gamma, for the figure.
+    """
+    cfg = scenario.chern
+    bloch = build_bulk(scenario)
+    grid = cfg.grid or default_grid(bloch)
+    result = chern_numbers(bloch, grid=grid, gap_min=cfg.gap_min)
+    refined = None
+    if cfg.refine:
+        finer = tuple(int(math.ceil(1.5 * n)) for n in grid)
+        refined = chern_numbers(bloch, grid=finer, gap_min=cfg.gap_min)
+    return result, refined, path_bands(bloch)
+
+
+def fermi_level(scenario: Scenario, chern: ChernResult) -> tuple[float, Gap]:
+    """E_F of the scenario and the bulk gap containing it.
+
+    Raises
+    ------
+    topoedge.chern.GapClosedError
+        When E_F lies in a bulk band, or ``fermi.gap`` names a closed gap.
+    """
+    if scenario.fermi.gap is not None:
+        gap = chern.gap_above(scenario.fermi.gap)
+        return gap.middle, gap
+    ef = scenario.fermi.energy if scenario.fermi.energy is not None else 0.0
+    return ef, chern.gap_at(ef)
 
 
 def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
-    """Compute the ribbon spectrum of a scenario and summarise it."""
+    """Bulk Chern numbers, ribbon spectrum and edge modes of a scenario.
+
+    Raises
+    ------
+    topoedge.chern.GapClosedError
+        Before the ribbon is computed, when E_F is not in an open bulk gap.
+    """
     start = time.perf_counter()
+    chern, refined, path = bulk_chern(scenario)
+    ef, gap = fermi_level(scenario, chern)
     ham, potential = build_ribbon(scenario)
     window = None
     if scenario.spectrum.window is not None:
-        ef = scenario.fermi.energy
         window = (ef - scenario.spectrum.window, ef + scenario.spectrum.window)
     spec = ribbon_spectrum(
         ham,
@@ -67,22 +153,53 @@ def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
         solver=scenario.spectrum.solver,
         progress=progress,
     )
-    summary = summarize(scenario, spec, potential, seconds=time.perf_counter() - start)
-    return RunResult(scenario, potential, ham, spec, summary)
+    edges = count_edge_modes(ham, ef, k_points=scenario.edges.k_points)
+    summary = summarize(scenario, spec, potential, chern=chern, refined=refined, ef=ef, gap=gap,
+                        edges=edges, seconds=time.perf_counter() - start)
+    return RunResult(scenario, potential, ham, spec, chern, refined, ef, gap, edges, path, summary)
 
 
-def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *, seconds: float) -> dict:
-    """JSON-able summary of a ribbon run.
+def bulk_edge_check(gap: Gap, edges: EdgeCount) -> dict:
+    """Compare the Chern sum below E_F with the net chirality of each edge.
 
-    Energies are in units of the hopping ``t``. Derived lattice scales use the effective-mass limit of the square lattice
-    (``m* = hbar^2 / (2 t a^2)``): magnetic length ``l_B = a / sqrt(2 pi |phi|)``
-    and cyclotron energy ``hbar omega_c = 4 pi t |phi|``.
+    The bottom edge must carry ``+C`` and the top edge ``-C`` (see the module
+    notes), in total and, when S_z is conserved, per spin.
+    """
+    agree = edges.in_gap and edges.bottom.net == gap.chern and edges.top.net == -gap.chern
+    spin = None
+    if gap.spin_chern is not None and edges.bottom.by_spin:
+        spin = edges.in_gap and all(
+            edges.bottom.by_spin[s]["net"] == c and edges.top.by_spin[s]["net"] == -c
+            for s, c in gap.spin_chern.items()
+        )
+    return {
+        "bulk_edge_agree": bool(agree),
+        "spin_resolved_agree": spin,
+        "convention": "bottom-edge net chirality = +C and top edge = -C, C = Chern sum below E_F",
+    }
+
+
+def _finite(x: float) -> float | None:
+    return float(x) if np.isfinite(x) else None
+
+
+def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *, chern: ChernResult,
+              refined: ChernResult | None, ef: float, gap: Gap, edges: EdgeCount, seconds: float) -> dict:
+    """JSON-able summary of a run.
+
+    Energies are in units of the hopping ``t``. Derived lattice scales use
+    the effective-mass limit of the square lattice (``m* = hbar^2 / (2 t a^2)``):
+    magnetic length ``l_B = a / sqrt(2 pi |phi|)`` and cyclotron energy
+    ``hbar omega_c = 4 pi t |phi|``.
     """
     lat = scenario.lattice
     phi = abs(float(lat.flux))
     valid = np.isfinite(spec.energy)
     energies = spec.energy[valid]
-    ef = scenario.fermi.energy
+    converged = None
+    if refined is not None:
+        converged = [(g.below, g.chern) for g in chern.gaps] == [(g.below, g.chern) for g in refined.gaps]
+    c = gap.chern
     return {
         "topoedge_version": __version__,
         "title": scenario.title,
@@ -107,6 +224,37 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
             "energy_min": float(energies.min()) if energies.size else None,
             "energy_max": float(energies.max()) if energies.size else None,
         },
-        "fermi": {"energy": ef},
+        "bulk": {
+            "grid": list(chern.grid),
+            "gap_min": chern.gap_min,
+            "bands": [b.to_dict() for b in chern.bands],
+            "gaps": [g.to_dict() for g in chern.gaps],
+            "chern_below_fermi": c,
+            "spin_chern_below_fermi": gap.spin_chern,
+            "refined_grid": list(refined.grid) if refined is not None else None,
+            "refined_gaps": [g.to_dict() for g in refined.gaps] if refined is not None else None,
+            "converged": converged,
+        },
+        "fermi": {
+            "energy": ef,
+            "gap_below": gap.below,
+            "gap_window": [_finite(gap.energy_min), _finite(gap.energy_max)],
+            "from_gap": scenario.fermi.gap,
+        },
+        "edges": {
+            "bottom": edges.bottom.to_dict(),
+            "top": edges.top.to_dict(),
+            "bulk": [m.to_dict() for m in edges.bulk],
+            "touching": [dict(t) for t in edges.touching],
+            "in_gap": edges.in_gap,
+            "message": edges.message,
+        },
+        "hall": {
+            "sigma_xy": c,
+            "sigma_xy_siemens": c / VON_KLITZING,
+            "r_xy_ohm": VON_KLITZING / c if c else None,
+            "units": "sigma_xy in e^2/h; r_xy_ohm = h/(C e^2), null for C = 0",
+        },
+        "check": bulk_edge_check(gap, edges),
         "seconds": round(seconds, 3),
     }

@@ -1,7 +1,9 @@
 """Figures of computed results.
 
-Every function draws on a given matplotlib ``Axes`` and returns the artists;
-none of them shows a window or writes a file (see :mod:`topoedge.results`).
+The ``plot_*`` functions draw on a given matplotlib ``Axes`` and return the
+artists; the ``*_figure`` functions compose them into the figures of a
+results folder. None of them shows a window or writes a file (see
+:mod:`topoedge.results`).
 """
 
 from __future__ import annotations
@@ -12,7 +14,10 @@ from matplotlib.lines import Line2D
 
 from .spectrum import RibbonSpectrum
 
-__all__ = ["plot_ribbon_spectrum", "default_energy_range"]
+__all__ = [
+    "plot_ribbon_spectrum", "plot_edge_modes", "edge_mode_legend", "plot_bulk_bands",
+    "default_energy_range", "ribbon_figure", "bulk_figure", "RUN_FIGURES",
+]
 
 _SPIN_MARKERS = {"up": "^", "down": "v", "none": "o"}
 
@@ -94,3 +99,166 @@ def plot_ribbon_spectrum(
     ax.set_xlabel("$k$ along the ribbon ($1/a$)")
     ax.set_ylabel("$E$ ($t$)")
     return artists
+
+
+_EDGE_COLOURS = {"bottom": "#08306b", "top": "#67000d", "bulk": "k"}
+
+
+def plot_edge_modes(edges, *, ax):
+    """Mark the crossings of E_F: colour by edge, triangle by direction, fill by spin.
+
+    Parameters
+    ----------
+    edges : topoedge.edges.EdgeCount
+    ax : matplotlib.axes.Axes
+
+    Returns
+    -------
+    list of PathCollection
+        One per drawn crossing group; legend handles are added to ``ax``'s
+        legend by :func:`edge_mode_legend`.
+    """
+    artists = []
+    groups = [("bottom", edges.bottom.modes), ("top", edges.top.modes), ("bulk", edges.bulk)]
+    for edge, modes in groups:
+        for mode in modes:
+            marker = ">" if mode.velocity > 0 else "<"
+            filled = mode.spin != "down"
+            colour = _EDGE_COLOURS[edge]
+            artists.append(ax.scatter(
+                [mode.k], [mode.energy], s=70, marker=marker, zorder=5, linewidths=1.4,
+                facecolors=colour if filled else "white", edgecolors=colour,
+            ))
+    return artists
+
+
+def edge_mode_legend(ax, *, spinful: bool):
+    """Legend entries explaining :func:`plot_edge_modes` markers."""
+    handles = [
+        Line2D([], [], ls="", marker="s", ms=7, color=_EDGE_COLOURS["bottom"], label="bottom edge"),
+        Line2D([], [], ls="", marker="s", ms=7, color=_EDGE_COLOURS["top"], label="top edge"),
+        Line2D([], [], ls="", marker=">", ms=8, color="0.3", label="moving along +x"),
+        Line2D([], [], ls="", marker="<", ms=8, color="0.3", label="moving along -x"),
+    ]
+    if spinful:
+        handles += [
+            Line2D([], [], ls="", marker="o", ms=7, color="0.3", label="filled: spin up"),
+            Line2D([], [], ls="", marker="o", ms=7, mfc="white", mec="0.3", label="open: spin down"),
+        ]
+    return ax.legend(handles=handles, loc="lower right", fontsize=7, title="modes at $E_F$",
+                     title_fontsize=7)
+
+
+def plot_bulk_bands(path: dict, chern, *, ax, fermi_energy: float | None = None,
+                    energy_range: tuple[float, float] | None = None):
+    """Bulk bands along Gamma-X-M-Gamma with each band's Chern number beside it.
+
+    Parameters
+    ----------
+    path : dict
+        From :func:`topoedge.chern.path_bands`.
+    chern : topoedge.chern.ChernResult
+        Chern numbers of the bands (a band that touches a neighbour shows the
+        Chern number of its group, marked with a bracket).
+    ax : matplotlib.axes.Axes
+    fermi_energy : float, optional
+    energy_range : (float, float), optional
+        Vertical limits (units of t); all bands by default.
+
+    Returns
+    -------
+    dict
+        ``{"lines": [...], "labels": [...]}``.
+    """
+    s = path["distance"]
+    styles = {"up": dict(color="C0", ls="-"), "down": dict(color="C3", ls="--"), None: dict(color="k", ls="-")}
+    lines, labels = [], []
+    for spin, energies in path["energies"].items():
+        for n in range(energies.shape[1]):
+            lines += ax.plot(s, energies[:, n], lw=1.0, **styles[spin])
+    lo, hi = energy_range or (min(b.energy_min for b in chern.bands), max(b.energy_max for b in chern.bands))
+    pad = 0.04 * (hi - lo)
+    ax.set_ylim(lo - pad, hi + pad)
+    shown_groups = set()
+    for band in chern.bands:
+        centre = 0.5 * (band.energy_min + band.energy_max)
+        if not lo - pad <= centre <= hi + pad:
+            continue
+        group = chern.groups[band.group]
+        if band.chern is None:
+            if band.group in shown_groups:
+                continue
+            shown_groups.add(band.group)
+            centre = 0.5 * (group.energy_min + group.energy_max)
+            text = f"C={group.chern} ({len(group.bands)} bands)"
+        else:
+            text = f"C={band.chern}"
+        colour = styles[band.spin]["color"]
+        labels.append(ax.annotate(text, (1.0, centre), xycoords=("axes fraction", "data"),
+                                  xytext=(4, 0),
+                                  textcoords="offset points", va="center", fontsize=7, color=colour,
+                                  annotation_clip=False))
+    for gap in chern.gaps:  # Chern sum of everything below each gap in view
+        if gap.energy_min >= lo - pad and gap.energy_max <= hi + pad:
+            ax.axhspan(gap.energy_min, gap.energy_max, color="0.93", zorder=0)
+            labels.append(ax.annotate(
+                f"gap {gap.below}: sum C = {gap.chern}", (0.02, gap.middle),
+                xycoords=("axes fraction", "data"), ha="left", va="bottom", fontsize=7, color="0.35"))
+    if fermi_energy is not None:
+        ax.axhline(fermi_energy, color="k", ls=":", lw=0.8)
+    for pos, name in path["ticks"]:
+        ax.axvline(pos, color="0.85", lw=0.6, zorder=0)
+    ax.set_xticks([p for p, _ in path["ticks"]], [n for _, n in path["ticks"]])
+    ax.set_xlim(s[0], s[-1])
+    ax.set_ylabel("$E$ ($t$)")
+    ax.set_xlabel("reduced momentum $(k_1, k_2)$ of the magnetic unit cell")
+    return {"lines": lines, "labels": labels}
+
+
+def _title(result) -> str:
+    sc = result.scenario
+    return f"{sc.title or 'scenario'}: flux {sc.lattice.flux} per plaquette"
+
+
+def ribbon_figure(result):
+    """Figure of the ribbon spectrum with the modes at E_F marked."""
+    import matplotlib.pyplot as plt
+
+    fig, ax = plt.subplots(figsize=(7.5, 5.2), layout="constrained")
+    artists = plot_ribbon_spectrum(result.spectrum, ax=ax, width=result.scenario.ribbon.width,
+                                   fermi_energy=result.fermi_energy)
+    plot_edge_modes(result.edges, ax=ax)
+    edge_mode_legend(ax, spinful=result.scenario.spin.enabled)
+    if "legend" in artists:
+        ax.add_artist(artists["legend"])
+    sm = plt.cm.ScalarMappable(norm=artists["norm"], cmap="coolwarm")
+    fig.colorbar(sm, ax=ax, label=r"$\langle y \rangle$ across the ribbon (sites; 0 = bottom edge)")
+    s = result.summary
+    ax.set_title(f"{_title(result)}\nC = {s['bulk']['chern_below_fermi']}, edge net "
+                 f"{s['edges']['bottom']['net']:+d} (bottom) / {s['edges']['top']['net']:+d} (top)",
+                 fontsize=9)
+    return fig
+
+
+def bulk_figure(result):
+    """Figure of the bulk bands with their Chern numbers."""
+    import matplotlib.pyplot as plt
+
+    fig, ax = plt.subplots(figsize=(6.5, 5.2), layout="constrained")
+    e_min = min(b.energy_min for b in result.chern.bands)
+    e_max = max(b.energy_max for b in result.chern.bands)
+    ef = result.fermi_energy
+    top = min(e_max, ef + 1.5 * (ef - e_min)) if e_min < ef < e_max else e_max
+    plot_bulk_bands(result.bulk_path, result.chern, ax=ax, fermi_energy=ef, energy_range=(e_min, top))
+    handles = [Line2D([], [], color="k", ls=":", label="$E_F$")]
+    if result.scenario.spin.enabled:
+        handles = [Line2D([], [], color="C0", label="spin up"),
+                   Line2D([], [], color="C3", ls="--", label="spin down")] + handles
+    ax.legend(handles=handles, loc="upper left", fontsize=8)
+    ax.set_title(f"{_title(result)}\nbulk bands, Chern numbers on a "
+                 f"{result.chern.grid[0]}x{result.chern.grid[1]} grid", fontsize=9)
+    return fig
+
+
+#: Figure files of a ``run`` results folder and the functions drawing them.
+RUN_FIGURES = {"ribbon_spectrum.png": ribbon_figure, "bulk_bands.png": bulk_figure}

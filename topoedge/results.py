@@ -14,9 +14,15 @@ replaced only when asked to (``force=True``).
 ``/sz``                 (Nk, M) <S_z>, NaN for spinless models
 ``/count``              (Nk,) valid states per momentum
 ``/potential``          (W,) edge potential of every row
+``/bulk``               bulk bands (energy ranges, Chern numbers, spin +1/-1/0),
+                        gaps (bands below, energy range, Chern sum) and the
+                        bands along Gamma-X-M-Gamma (``path_*``)
+``/edge_modes``         one entry per crossing of E_F: k, energy, velocity,
+                        y, spread, sz and edge (0 bottom, 1 top, 2 bulk)
 ``/config``             group: one attribute per key path of the resolved scenario
 root attributes         ``topoedge_version``, ``scenario_json`` (the resolved
-                        scenario), ``solver``, ``window`` (absent for all states)
+                        scenario), ``solver``, ``fermi_energy``, ``window``
+                        (absent for all states)
 """
 
 from __future__ import annotations
@@ -76,6 +82,30 @@ def write_spectrum_h5(path: Path, result: RunResult) -> None:
             if value is not None:
                 f.create_dataset(name, data=value, compression="gzip", compression_opts=4)
         f.create_dataset("potential", data=result.potential)
+        bulk = f.create_group("bulk")
+        bands = result.chern.bands
+        bulk.create_dataset("band_energy_range", data=np.array([[b.energy_min, b.energy_max] for b in bands]))
+        bulk.create_dataset("band_chern", data=np.array([b.chern if b.chern is not None else np.nan
+                                                         for b in bands], dtype=float))
+        bulk.create_dataset("band_spin", data=np.array([{"up": 1, "down": -1}.get(b.spin, 0) for b in bands]))
+        gaps = result.chern.gaps
+        bulk.create_dataset("gap_below", data=np.array([g.below for g in gaps], dtype=int))
+        bulk.create_dataset("gap_energy_range", data=np.array([[g.energy_min, g.energy_max] for g in gaps]).reshape(-1, 2))
+        bulk.create_dataset("gap_chern", data=np.array([g.chern for g in gaps], dtype=int))
+        bulk.attrs["grid"] = np.asarray(result.chern.grid)
+        path = result.bulk_path
+        bulk.create_dataset("path_distance", data=path["distance"])
+        for spin, energies in path["energies"].items():
+            bulk.create_dataset(f"path_energy_{spin or 'all'}", data=energies)
+        modes = f.create_group("edge_modes")
+        rows = [(m, side) for side in ("bottom", "top") for m in getattr(result.edges, side).modes]
+        rows += [(m, "bulk") for m in result.edges.bulk]
+        for name in ("k", "energy", "velocity", "y", "spread"):
+            modes.create_dataset(name, data=np.array([getattr(m, name) for m, _ in rows], dtype=float))
+        modes.create_dataset("sz", data=np.array([np.nan if m.sz is None else m.sz for m, _ in rows]))
+        modes.create_dataset("edge", data=np.array([{"bottom": 0, "top": 1, "bulk": 2}[s] for _, s in rows], dtype=int))
+        modes.attrs["edge_codes"] = "0 = bottom, 1 = top, 2 = bulk"
+        f.attrs["fermi_energy"] = result.fermi_energy
         f.attrs["topoedge_version"] = __version__
         f.attrs["scenario_json"] = json.dumps(config, sort_keys=True)
         f.attrs["solver"] = spec.solver
@@ -166,6 +196,52 @@ def format_summary(summary: dict) -> str:
     )
     if s["energy_min"] is not None:
         lines.append(f"               energies {s['energy_min']:.5f} .. {s['energy_max']:.5f} t")
-    lines.append(f"  Fermi energy {summary['fermi']['energy']:.5f} t")
+    lines += _topology_lines(summary)
     lines.append(f"  time         {summary['seconds']:.2f} s")
     return "\n".join(lines)
+
+
+def _signed(n: int) -> str:
+    return f"{n:+d}" if n else "0"
+
+
+def _edge_line(name: str, edge: dict) -> str:
+    modes = ", ".join(
+        (f"{m['spin']} " if m["spin"] else "") + ("+x" if m["velocity"] > 0 else "-x")
+        + f" (y={m['y']:.1f})"
+        for m in edge["modes"]
+    ) or "none"
+    spins = "  ".join(f"{s} {_signed(v['net'])}/{v['counter_pairs']}" for s, v in edge["by_spin"].items())
+    return f"  {name:7s}{_signed(edge['net']):>5s} {edge['counter_pairs']:>6d}   {spins:22s} {modes}"
+
+
+def _topology_lines(summary: dict) -> list[str]:
+    """Bulk gap, Chern sum, edge modes, Hall response and the check."""
+    b, f, e, h, c = (summary[key] for key in ("bulk", "fermi", "edges", "hall", "check"))
+    lo, hi = f["gap_window"]
+    window = f"{'-inf' if lo is None else f'{lo:.5f}'} .. {'inf' if hi is None else f'{hi:.5f}'} t"
+    spin = ""
+    if b["spin_chern_below_fermi"]:
+        spin = " (" + ", ".join(f"spin {s} {v}" for s, v in b["spin_chern_below_fermi"].items()) + ")"
+    conv = ""
+    if b["refined_grid"]:
+        conv = (f"; {b['refined_grid'][0]}x{b['refined_grid'][1]}: "
+                + ("same Chern numbers" if b["converged"] else "DIFFERENT Chern numbers, refine the grid"))
+    lines = [
+        f"  bulk         {len(b['bands'])} bands, {len(b['gaps'])} open gaps on a "
+        f"{b['grid'][0]}x{b['grid'][1]} grid{conv}",
+        f"  Fermi energy {f['energy']:.5f} t in the gap above {f['gap_below']} bands ({window})",
+        f"  Chern sum    C = {b['chern_below_fermi']}{spin}",
+        "  edge      net  pairs   net/pairs by spin      modes from the boundary inwards",
+        _edge_line("bottom", e["bottom"]),
+        _edge_line("top", e["top"]),
+    ]
+    if e["message"]:
+        lines.append(f"  warning      {e['message']}")
+    r_xy = "infinite (C = 0)" if h["r_xy_ohm"] is None else f"{h['r_xy_ohm']:.3f} ohm"
+    lines.append(f"  Hall         sigma_xy = {h['sigma_xy']} e^2/h, R_xy = {r_xy}")
+    agree = "yes" if c["bulk_edge_agree"] else "NO"
+    if c["spin_resolved_agree"] is not None:
+        agree += f" (per spin: {'yes' if c['spin_resolved_agree'] else 'NO'})"
+    lines.append(f"  bulk-edge    agree: {agree}; {c['convention']}")
+    return lines

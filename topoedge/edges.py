@@ -1,0 +1,801 @@
+"""Edge modes of a ribbon at a Fermi energy (solver stage).
+
+At a Fermi energy ``E_F`` every state of the ribbon spectrum with
+``E_n(k) = E_F`` is a mode at the Fermi level. This module finds all of them,
+refines each root, measures the state there (velocity, position and spread
+across the ribbon, spin) and counts the modes per edge, direction and spin.
+The net number of modes on one edge, counted with the sign of their velocity,
+is the quantity the bulk-edge correspondence relates to the bulk Chern
+numbers [1]_ [2]_.
+
+Algorithm
+---------
+The ribbon is split into spin sectors when ``S_z`` is conserved
+(:meth:`RibbonHamiltonian.spin_blocks`); modes of different sectors cross
+each other exactly and are never compared. Inside a sector the ``n``-th
+smallest eigenvalue ``E_n(k)`` (the *sorted* band index) is a continuous,
+periodic function of ``k``, and by Weyl's inequality [3]_ it is Lipschitz::
+
+    |E_n(k) - E_n(k')| <= V |k - k'|,   V = 2 ||h1||_2 >= max ||dH/dk||
+
+1. *Scan.* On a uniform periodic grid of spacing ``h`` only the states with
+   ``|E_n - E_F| <= V h`` can reach ``E_F`` inside an adjacent interval; they
+   are computed with their band index (a Sturm-sequence count [4]_ of the
+   states below the window and LAPACK's index-selected tridiagonal solver, or
+   a banded/dense solver for other sectors) and their velocity.
+2. *Brackets.* A sign change of ``E_n - E_F`` between neighbouring grid
+   points brackets a crossing (the last interval wraps around to
+   ``k_0 + 2 pi``). Values with ``|E_n - E_F| <= tol`` count as zero: a run of
+   such values is a band touching ``E_F`` (or a genuine crossing when the run
+   is a single grid point between opposite signs).
+3. *Hidden pairs.* Two modes of one sector crossing ``E_F`` in opposite
+   directions inside one interval (e.g. a bottom-edge and a top-edge mode)
+   leave no sign change in any sorted band: ``E_n`` rises through ``E_F`` and
+   comes back. Every interval in which a band ends within
+   ``h (2 max|v| + |v_b - v_a|) + tol`` of ``E_F``, or changes sign with
+   velocities inconsistent with a single crossing, is halved recursively
+   (``_MAX_DEPTH`` levels); at the finest level the extremum of the band
+   towards ``E_F`` is located with a bounded Brent minimisation [5]_: beyond
+   ``E_F`` it splits the interval into two brackets, within ``tol`` of it the
+   band touches ``E_F``.
+4. *Roots.* Each bracket is refined with Brent's root finder [5]_ on
+   ``E_n(k) - E_F`` (``xtol = 1e-12``); the eigenvector there gives the
+   velocity ``<psi|dH/dk|psi>`` (Hellmann-Feynman [6]_), ``<y>``, the spread
+   and ``<S_z>``.
+
+Edge assignment
+---------------
+A crossing state whose spread ``sqrt(<y^2> - <y>^2)`` is below
+``bulk_spread`` (default: a quarter of the ribbon width, ``(max(y) -
+min(y)) / 4``) is an edge mode, on the ``"bottom"`` edge when ``<y>`` lies in
+the lower half of the ribbon and on the ``"top"`` edge otherwise. A state
+with a larger spread is delocalised across the ribbon (``"bulk"``): the Fermi
+energy then lies in a bulk band and the edge count is not meaningful.
+
+Sign convention
+---------------
+Velocities are ``dE/dk`` in units of ``t a`` (``hbar = 1``) for Bloch waves
+``exp(i k x)`` along ``+x``. For the builders of :mod:`topoedge.builders`
+with ``phi > 0`` the bottom-edge modes move along ``+x`` in the gaps below the
+band centre and the net number of bottom-edge modes in the ``r``-th bulk gap
+is ``t_r`` of the Diophantine equation ``r = q s_r + p t_r`` [1]_ [2]_; the
+top edge carries ``-t_r``.
+
+References
+----------
+.. [1] D. J. Thouless, M. Kohmoto, M. P. Nightingale and M. den Nijs,
+   "Quantized Hall conductance in a two-dimensional periodic potential",
+   Phys. Rev. Lett. 49, 405 (1982).
+.. [2] Y. Hatsugai, "Chern number and edge states in the integer quantum Hall
+   effect", Phys. Rev. Lett. 71, 3697 (1993).
+.. [3] H. Weyl, "Das asymptotische Verteilungsgesetz der Eigenwerte linearer
+   partieller Differentialgleichungen", Math. Ann. 71, 441 (1912).
+.. [4] W. Barth, R. S. Martin and J. H. Wilkinson, "Calculation of the
+   eigenvalues of a symmetric tridiagonal matrix by the method of bisection",
+   Numer. Math. 9, 386 (1967).
+.. [5] R. P. Brent, *Algorithms for Minimization without Derivatives*
+   (Prentice-Hall, 1973), chapters 4 and 5.
+.. [6] R. P. Feynman, "Forces in molecules", Phys. Rev. 56, 340 (1939).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.linalg as sla
+from scipy.optimize import brentq, minimize_scalar
+
+from .hamiltonian import RibbonHamiltonian
+from .spectrum import k_grid
+
+__all__ = ["EdgeMode", "EdgeSummary", "EdgeCount", "find_crossings", "count_edge_modes"]
+
+# Levels of interval halving before a suspicious interval is settled by
+# locating the band's extremum (the grid spacing shrinks by 2**_MAX_DEPTH).
+_MAX_DEPTH = 5
+# Relative safety factor on the Lipschitz window of the scan.
+_WINDOW_MARGIN = 1.05
+# Brent root tolerance in k (units of 1/a).
+_XTOL = 1e-12
+_TWO_PI = 2 * math.pi
+# Largest weight an edge state may have in the far half of the ribbon.
+_FAR_WEIGHT = 0.1
+
+
+# ------------------------------------------------------------------ results
+
+
+@dataclass(frozen=True)
+class EdgeMode:
+    """One state at the Fermi energy.
+
+    Attributes
+    ----------
+    k : float
+        Momentum along the ribbon at the crossing, units of 1/a, in
+        ``[-pi, pi)``.
+    energy : float
+        Energy of the state at ``k`` (equal to ``E_F`` to the root
+        tolerance), units of t.
+    velocity : float
+        ``dE/dk`` at the crossing (Hellmann-Feynman), units of t a.
+    y : float
+        ``<y>`` across the ribbon in lattice constants, measured from the
+        bottom row.
+    spread : float
+        ``sqrt(<y^2> - <y>^2)`` in lattice constants.
+    sz : float or None
+        ``<S_z>`` (+-0.5 for spin eigenstates); None for a spinless ribbon.
+    edge : {"bottom", "top", "bulk"}
+        Where the state lives (see the module notes for the rule).
+    spin : {"up", "down"} or None
+        ``"up"`` for ``sz > 0.25``, ``"down"`` for ``sz < -0.25``, else None.
+    """
+
+    k: float
+    energy: float
+    velocity: float
+    y: float
+    spread: float
+    sz: float | None
+    edge: str
+    spin: str | None
+
+    def to_dict(self) -> dict:
+        """JSON-able dictionary of the mode (plain floats and strings)."""
+        return {
+            "k": float(self.k),
+            "velocity": float(self.velocity),
+            "y": float(self.y),
+            "spread": float(self.spread),
+            "sz": None if self.sz is None else float(self.sz),
+            "spin": self.spin,
+            "edge": self.edge,
+            "energy": float(self.energy),
+        }
+
+
+@dataclass(frozen=True)
+class EdgeSummary:
+    """The modes of one edge at the Fermi energy.
+
+    Attributes
+    ----------
+    net : int
+        Sum of ``sign(velocity)`` over the modes of the edge (net chirality).
+    counter_pairs : int
+        ``(number of modes - |net|) // 2``: pairs of counter-propagating modes.
+    by_spin : dict
+        ``{"up": {"net": int, "counter_pairs": int}, "down": {...}}`` for a
+        spinful ribbon, an empty dict for a spinless one.
+    modes : tuple of EdgeMode
+        Ordered from the outer boundary inwards (bottom edge: increasing
+        ``y``; top edge: decreasing ``y``).
+    """
+
+    net: int
+    counter_pairs: int
+    by_spin: dict
+    modes: tuple[EdgeMode, ...]
+
+    def to_dict(self) -> dict:
+        """JSON-able dictionary ``{"net", "counter_pairs", "modes", "by_spin"}``."""
+        return {
+            "net": int(self.net),
+            "counter_pairs": int(self.counter_pairs),
+            "modes": [m.to_dict() for m in self.modes],
+            "by_spin": {s: dict(v) for s, v in self.by_spin.items()},
+        }
+
+
+@dataclass(frozen=True)
+class EdgeCount:
+    """Edge modes of a ribbon at one Fermi energy.
+
+    Attributes
+    ----------
+    fermi_energy : float
+        ``E_F`` in units of t.
+    bottom, top : EdgeSummary
+        The modes of the bottom (small ``y``) and top edge.
+    bulk : tuple of EdgeMode
+        Crossings by delocalised states (``E_F`` lies in a bulk band), ordered
+        by ``k``.
+    touching : tuple of dict
+        Bands that reach ``E_F`` within ``tol`` without crossing it (extrema,
+        flat bands), each ``{"k", "energy", "y", "spin"}``.
+    in_gap : bool
+        True when there are no bulk crossings and no touching bands, i.e. the
+        edge counts are well defined.
+    message : str or None
+        A plain sentence explaining why ``in_gap`` is False, else None.
+    """
+
+    fermi_energy: float
+    bottom: EdgeSummary
+    top: EdgeSummary
+    bulk: tuple[EdgeMode, ...]
+    touching: tuple[dict, ...]
+    in_gap: bool
+    message: str | None
+
+    def to_dict(self) -> dict:
+        """JSON-able dictionary of the count."""
+        return {
+            "fermi_energy": float(self.fermi_energy),
+            "bottom": self.bottom.to_dict(),
+            "top": self.top.to_dict(),
+            "bulk": [m.to_dict() for m in self.bulk],
+            "touching": [dict(t) for t in self.touching],
+            "in_gap": bool(self.in_gap),
+            "message": self.message,
+        }
+
+
+# ----------------------------------------------------------- spin sectors
+
+
+def _norm2_bound(m: np.ndarray) -> float:
+    """Upper bound of the spectral norm: ``sqrt(||m||_1 ||m||_inf)``."""
+    if m.size == 0:
+        return 0.0
+    a = np.abs(m)
+    return float(math.sqrt(a.sum(axis=0).max() * a.sum(axis=1).max()))
+
+
+def _sturm_count(d: np.ndarray, e2: np.ndarray, x: float) -> np.ndarray:
+    """Number of eigenvalues below ``x`` of real symmetric tridiagonal matrices.
+
+    ``d`` has shape (Nk, N) (diagonals), ``e2`` shape (Nk, N-1) (squared
+    off-diagonals); the LDL^T pivots are counted for all momenta at once.
+    """
+    pivmin = np.finfo(float).tiny * max(1.0, float(e2.max(initial=0.0)))
+    q = d[:, 0] - x
+    count = (q < 0).astype(int)
+    for i in range(1, d.shape[1]):
+        q = np.where(np.abs(q) < pivmin, -pivmin, q)
+        q = d[:, i] - x - e2[:, i - 1] / q
+        count += q < 0
+    return count
+
+
+class _Sector:
+    """Sorted bands of one spin sector (or of the whole ribbon)."""
+
+    def __init__(self, ham: RibbonHamiltonian):
+        self.ham = ham
+        self.size = ham.size
+        # Lipschitz constant of every sorted band: ||dH/dk|| <= 2 ||h1||.
+        self.lipschitz = 2.0 * _norm2_bound(ham.h1)
+
+    def scan(self, k, e_low, e_high):
+        """Index range and (energies, velocities) of the states in a window.
+
+        Returns ``lo``, ``hi`` (int arrays of shape (Nk,), inclusive band
+        indices; ``hi < lo`` for an empty window) and lists of energies and
+        velocities per momentum.
+        """
+        raise NotImplementedError
+
+    def energy(self, n: int, k: float) -> float:
+        """``E_n(k)``."""
+        raise NotImplementedError
+
+    def state(self, n: int, k: float):
+        """``(E_n(k), |psi|^2, dE_n/dk)`` of band ``n`` at ``k``."""
+        raise NotImplementedError
+
+
+class _TridiagonalSector(_Sector):
+    """A sector whose ``H(k)`` is tridiagonal in position order.
+
+    The Hermitian tridiagonal matrix is made real and symmetric by a diagonal
+    phase transformation; its eigenvalues are those of ``H(k)`` and the
+    velocity follows from the transformed ``dH/dk``.
+    """
+
+    def __init__(self, ham):
+        super().__init__(ham)
+        n = ham.size
+        lower = np.arange(1, n), np.arange(n - 1)
+        upper = lower[::-1]
+        self._d0 = np.real(np.diag(ham.h0))
+        self._d1 = np.diag(ham.h1)
+        self._e0 = ham.h0[lower]
+        self._e1 = ham.h1[lower]
+        self._e1u = np.conj(ham.h1[upper])
+
+    def coefficients(self, k):
+        """Real diagonals ``d``, ``|e|`` and their k-derivatives, shape (Nk, .)."""
+        phase = np.exp(-1j * np.atleast_1d(np.asarray(k, dtype=float)))[:, None]
+        d = self._d0 + 2 * np.real(self._d1 * phase)
+        e = self._e0 + self._e1 * phase + self._e1u / phase
+        dd = 2 * np.imag(self._d1 * phase)
+        de = np.real((-1j * self._e1 * phase + 1j * self._e1u / phase) * np.exp(-1j * np.angle(e)))
+        return d, np.abs(e), dd, de
+
+    @staticmethod
+    def _velocity(v, dd, de):
+        return dd @ (v * v) + 2 * (de @ (v[:-1] * v[1:]))
+
+    def scan(self, k, e_low, e_high):
+        d, e, dd, de = self.coefficients(k)
+        e2 = e * e
+        lo = _sturm_count(d, e2, e_low)
+        hi = _sturm_count(d, e2, e_high) - 1
+        energies, velocities = [], []
+        for i in range(len(k)):  # one LAPACK call per momentum
+            if hi[i] < lo[i]:
+                energies.append(np.empty(0))
+                velocities.append(np.empty(0))
+                continue
+            w, v = sla.eigh_tridiagonal(d[i], e[i], select="i", select_range=(lo[i], hi[i]))
+            energies.append(w)
+            velocities.append(self._velocity(v, dd[i], de[i]))
+        return lo, hi, energies, velocities
+
+    def energy(self, n, k):
+        d, e, _, _ = self.coefficients(k)
+        w = sla.eigh_tridiagonal(d[0], e[0], eigvals_only=True, select="i", select_range=(n, n))
+        return float(w[0])
+
+    def state(self, n, k):
+        d, e, dd, de = self.coefficients(k)
+        w, v = sla.eigh_tridiagonal(d[0], e[0], select="i", select_range=(n, n))
+        return float(w[0]), v[:, 0] ** 2, float(self._velocity(v, dd[0], de[0])[0])
+
+
+class _BandedSector(_Sector):
+    """A sector with a narrow band of ``H(k)`` (LAPACK Hermitian band solvers)."""
+
+    def __init__(self, ham):
+        super().__init__(ham)
+        self.bandwidth = ham.bandwidth()
+
+    def _storage(self, k):
+        hk = self.ham.bloch(k)
+        n, b = self.size, self.bandwidth
+        ab = np.zeros((b + 1, n), dtype=complex)
+        for o in range(b + 1):
+            ab[o, : n - o] = np.diagonal(hk, offset=-o)
+        return ab
+
+    def scan(self, k, e_low, e_high):
+        lo = np.empty(len(k), dtype=int)
+        hi = np.empty(len(k), dtype=int)
+        energies, velocities = [], []
+        for i in range(len(k)):  # one LAPACK call per momentum
+            ab = self._storage(k[i])
+            w_all = sla.eig_banded(ab, lower=True, eigvals_only=True)
+            lo[i] = np.searchsorted(w_all, e_low, side="left")
+            hi[i] = np.searchsorted(w_all, e_high, side="right") - 1
+            if hi[i] < lo[i]:
+                energies.append(np.empty(0))
+                velocities.append(np.empty(0))
+                continue
+            w, v = sla.eig_banded(ab, lower=True, select="i", select_range=(lo[i], hi[i]))
+            vel = np.real(np.einsum("im,im->m", v.conj(), self.ham.velocity(k[i]) @ v))
+            energies.append(w)
+            velocities.append(vel)
+        return lo, hi, energies, velocities
+
+    def energy(self, n, k):
+        w = sla.eig_banded(self._storage(k), lower=True, eigvals_only=True, select="i", select_range=(n, n))
+        return float(w[0])
+
+    def state(self, n, k):
+        w, v = sla.eig_banded(self._storage(k), lower=True, select="i", select_range=(n, n))
+        psi = v[:, 0]
+        vel = float(np.real(psi.conj() @ self.ham.velocity(k) @ psi))
+        return float(w[0]), np.abs(psi) ** 2, vel
+
+
+class _DenseSector(_Sector):
+    """Any sector: dense Hermitian eigensolvers."""
+
+    def scan(self, k, e_low, e_high):
+        w, v = np.linalg.eigh(self.ham.bloch(k))
+        vel = np.real(np.einsum("kim,kim->km", v.conj(), self.ham.velocity(k) @ v))
+        lo = np.sum(w < e_low, axis=1)
+        hi = np.sum(w <= e_high, axis=1) - 1
+        energies = [w[i, lo[i] : hi[i] + 1] for i in range(len(k))]
+        velocities = [vel[i, lo[i] : hi[i] + 1] for i in range(len(k))]
+        return lo, hi, energies, velocities
+
+    def energy(self, n, k):
+        return float(sla.eigh(self.ham.bloch(k), eigvals_only=True, subset_by_index=(n, n))[0])
+
+    def state(self, n, k):
+        w, v = sla.eigh(self.ham.bloch(k), subset_by_index=(n, n))
+        psi = v[:, 0]
+        vel = float(np.real(psi.conj() @ self.ham.velocity(k) @ psi))
+        return float(w[0]), np.abs(psi) ** 2, vel
+
+
+def _sectors(ham: RibbonHamiltonian) -> list[_Sector]:
+    blocks = ham.spin_blocks() or [np.arange(ham.size)]
+    out = []
+    for idx in blocks:
+        block = ham.block(idx)
+        b = block.bandwidth()
+        if block.size >= 2 and b <= 1:
+            out.append(_TridiagonalSector(block))
+        elif block.size >= 8 and b <= block.size // 4:
+            out.append(_BandedSector(block))
+        else:
+            out.append(_DenseSector(block))
+    return out
+
+
+# ----------------------------------------------------- brackets and roots
+
+
+def _sign(f: float, tol: float) -> int:
+    return 0 if abs(f) <= tol else (1 if f > 0 else -1)
+
+
+class _Search:
+    """Brackets and touching points of one sector at one Fermi energy."""
+
+    def __init__(self, sector: _Sector, ef: float, tol: float, h: float):
+        self.sector = sector
+        self.ef = ef
+        self.tol = tol
+        self.h = h
+        self.brackets: list[tuple[int, float, float]] = []
+        self.touch: list[tuple[int, float]] = []
+
+    def f(self, n, k):
+        return self.sector.energy(n, k) - self.ef
+
+    def fv(self, n, k):
+        e, _, v = self.sector.state(n, k)
+        return e - self.ef, v
+
+    def suspicious(self, fa, va, fb, vb, width):
+        """Could a same-sign band reach E_F between the two ends?"""
+        reach = width * (2 * max(abs(va), abs(vb)) + abs(vb - va)) + self.tol
+        return min(abs(fa), abs(fb)) <= reach
+
+    def resolve(self, n, a, fa, va, b, fb, vb, depth):
+        """Brackets of band ``n`` in ``[a, b]`` (ends nonzero beyond tol)."""
+        sa, sb = _sign(fa, self.tol), _sign(fb, self.tol)
+        if sa != sb:
+            consistent = (np.sign(va) == np.sign(sb - sa)) and (np.sign(vb) == np.sign(sb - sa))
+            if consistent or depth == 0:
+                self.brackets.append((n, a, b))
+                return
+        else:
+            if not self.suspicious(fa, va, fb, vb, b - a):
+                return
+            if depth == 0:
+                self.extremum(n, a, b, sa)
+                return
+        m = 0.5 * (a + b)
+        fm, vm = self.fv(n, m)
+        if abs(fm) <= self.tol:
+            if sa != sb:
+                self.brackets.append((n, a, b))
+            else:
+                self.extremum(n, a, b, sa)
+            return
+        self.resolve(n, a, fa, va, m, fm, vm, depth - 1)
+        self.resolve(n, m, fm, vm, b, fb, vb, depth - 1)
+
+    def extremum(self, n, a, b, side):
+        """Settle ``[a, b]`` (same sign ``side`` at both ends) at the band's extremum."""
+        res = minimize_scalar(
+            lambda x: side * self.f(n, x), bounds=(a, b), method="bounded", options={"xatol": _XTOL}
+        )
+        g, km = float(res.fun), float(res.x)
+        if g < -self.tol:
+            self.brackets.append((n, a, km))
+            self.brackets.append((n, km, b))
+        elif g <= self.tol:
+            self.touch.append((n, km))
+
+
+def _wrap(k: float) -> float:
+    """Momentum in ``[-pi, pi)``."""
+    w = (k + math.pi) % _TWO_PI - math.pi
+    return -math.pi if w >= math.pi else w
+
+
+def _spin_label(sz):
+    if sz is None:
+        return None
+    if sz > 0.25:
+        return "up"
+    if sz < -0.25:
+        return "down"
+    return None
+
+
+def _search_sector(sector: _Sector, ef: float, k: np.ndarray, tol: float) -> _Search:
+    """Scan a sector on the grid ``k`` and collect brackets and touching points."""
+    nk = len(k)
+    h = _TWO_PI / nk
+    search = _Search(sector, ef, tol, h)
+    half = _WINDOW_MARGIN * sector.lipschitz * h + 10 * tol
+    lo, hi, energies, velocities = sector.scan(k, ef - half, ef + half)
+    if np.all(hi < lo):
+        return search
+    n0, n1 = int(lo.min()), int(hi.max())
+    nb = n1 - n0 + 1
+    bands = np.arange(n0, n1 + 1)[:, None]
+    # F[b, i] = E_{n0+b}(k_i) - E_F inside the window, -inf below, +inf above.
+    F = np.where(bands < lo[None, :], -np.inf, np.inf)
+    V = np.full((nb, nk), np.nan)
+    for i in range(nk):
+        if hi[i] >= lo[i]:
+            F[lo[i] - n0 : hi[i] - n0 + 1, i] = energies[i] - ef
+            V[lo[i] - n0 : hi[i] - n0 + 1, i] = velocities[i]
+    S = np.where(np.abs(F) <= tol, 0, np.sign(F)).astype(int)
+    kb_all = np.append(k[1:], k[0] + _TWO_PI)  # right ends of the intervals
+
+    # Ordinary intervals: both ends beyond tol of E_F.
+    Fb, Vb, Sb = (np.roll(x, -1, axis=1) for x in (F, V, S))
+    nonzero = (S != 0) & (Sb != 0)
+    change = nonzero & (S != Sb)
+    direction = np.sign(Sb - S)
+    consistent = (np.sign(V) == direction) & (np.sign(Vb) == direction)
+    with np.errstate(invalid="ignore"):
+        reach = h * (2 * np.fmax(np.abs(V), np.abs(Vb)) + np.abs(Vb - V)) + tol
+        near = np.minimum(np.abs(F), np.abs(Fb)) <= reach
+    finite = np.isfinite(F) & np.isfinite(Fb)
+    same = nonzero & (S == Sb) & finite & near
+    for b, i in zip(*np.nonzero(change & consistent)):
+        search.brackets.append((n0 + b, k[i], kb_all[i]))
+    for b, i in zip(*np.nonzero((change & ~consistent) | same)):
+        n = n0 + b
+        fa, va, fb, vb = F[b, i], V[b, i], Fb[b, i], Vb[b, i]
+        if not np.isfinite(fa):
+            fa, va = search.fv(n, k[i])
+        if not np.isfinite(fb):
+            fb, vb = search.fv(n, kb_all[i])
+        search.resolve(n, k[i], fa, va, kb_all[i], fb, vb, _MAX_DEPTH)
+
+    # Runs of grid points within tol of E_F.
+    for b in np.nonzero(np.any(S == 0, axis=1))[0]:
+        n = n0 + b
+        row = S[b]
+        if np.all(row == 0):
+            i = int(np.argmin(np.abs(F[b])))
+            search.touch.append((n, k[i]))
+            continue
+        nzi = np.nonzero(row)[0]
+        for j, start in enumerate(nzi):
+            stop = nzi[(j + 1) % len(nzi)]
+            gap = (stop - start) % nk or nk
+            if gap == 1:
+                continue
+            zeros = (start + np.arange(1, gap)) % nk
+            ka = k[start]
+            kb = k[start] + gap * h
+            if gap == 2 and row[start] != row[stop]:
+                search.brackets.append((n, ka, kb))
+            elif gap == 2:
+                search.extremum(n, ka, kb, row[start])
+            else:
+                i = zeros[np.argmin(np.abs(F[b, zeros]))]
+                search.touch.append((n, k[i]))
+    return search
+
+
+# ------------------------------------------------------------- public API
+
+
+def find_crossings(
+    ham: RibbonHamiltonian,
+    fermi_energy: float,
+    *,
+    k_points: int = 400,
+    tol: float = 1e-9,
+    bulk_spread: float | None = None,
+) -> tuple[list[EdgeMode], list[dict]]:
+    """Every state of a ribbon at the Fermi energy, refined and measured.
+
+    Parameters
+    ----------
+    ham : RibbonHamiltonian
+        The ribbon (see :meth:`RibbonHamiltonian.from_kwant`).
+    fermi_energy : float
+        ``E_F`` in the energy unit of the Hamiltonian (t).
+    k_points : int
+        Points of the uniform periodic scan grid over the Brillouin zone
+        (``k_grid(k_points)``, units of 1/a). Crossings hidden between grid
+        points are found by interval halving (see the module notes), so a
+        coarse grid still gives the right count, only more slowly.
+    tol : float
+        Energy tolerance in t: values with ``|E_n - E_F| <= tol`` count as
+        touching ``E_F``.
+    bulk_spread : float, optional
+        Spread (lattice constants) above which a state counts as delocalised
+        (``edge = "bulk"``); default a quarter of the ribbon width.
+
+    Returns
+    -------
+    crossings : list of EdgeMode
+        Ordered by spin sector and momentum.
+    touching : list of dict
+        Bands touching ``E_F`` within ``tol`` without crossing it,
+        ``{"k", "energy", "y", "spin"}``.
+
+    Raises
+    ------
+    TypeError
+        If ``ham`` is not a :class:`RibbonHamiltonian`.
+    ValueError
+        For a non-finite ``fermi_energy``, ``k_points < 2``, a non-positive
+        ``tol`` or ``bulk_spread``.
+
+    Notes
+    -----
+    The root ``k`` is accurate to ``1e-12 / a`` and ``|E(k) - E_F|`` to about
+    ``|velocity| * 1e-12`` t, far below ``tol``.
+    """
+    if not isinstance(ham, RibbonHamiltonian):
+        raise TypeError(
+            f"expected a RibbonHamiltonian, got {type(ham).__name__}; "
+            "build one with RibbonHamiltonian.from_kwant(builder, params=...)"
+        )
+    fermi_energy = float(fermi_energy)
+    if not math.isfinite(fermi_energy):
+        raise ValueError(f"fermi_energy must be finite, got {fermi_energy}")
+    if int(k_points) != k_points or k_points < 2:
+        raise ValueError(f"k_points must be an integer >= 2, got {k_points!r}")
+    if not (tol > 0 and math.isfinite(tol)):
+        raise ValueError(f"tol must be a positive energy in units of t, got {tol!r}")
+    y0 = float(ham.position.min(initial=0.0))
+    width = float(ham.position.max(initial=0.0)) - y0
+    if bulk_spread is None:
+        bulk_spread = width / 4
+    elif not bulk_spread > 0:
+        raise ValueError(f"bulk_spread must be a positive length in lattice constants, got {bulk_spread!r}")
+
+    k = k_grid(int(k_points))
+    crossings: list[EdgeMode] = []
+    touching: list[dict] = []
+    for sector in _sectors(ham):
+        search = _search_sector(sector, fermi_energy, k, tol)
+        found = []
+        for n, a, b in sorted(set(search.brackets), key=lambda x: x[1]):
+            root = brentq(lambda x: sector.energy(n, x) - fermi_energy, a, b, xtol=_XTOL)
+            found.append(_measure(sector, n, root, y0, width, bulk_spread))
+        crossings += sorted(found, key=lambda m: m.k)
+        seen = set()
+        for n, kt in search.touch:
+            key = (n, round(_wrap(kt), 6))
+            if key in seen:
+                continue
+            seen.add(key)
+            mode = _measure(sector, n, kt, y0, width, bulk_spread)
+            touching.append({"k": mode.k, "energy": mode.energy, "y": mode.y, "spin": mode.spin})
+    return crossings, touching
+
+
+def _measure(sector: _Sector, n: int, k: float, y0: float, width: float, bulk_spread: float) -> EdgeMode:
+    energy, prob, velocity = sector.state(n, k)
+    prob = prob / prob.sum()
+    pos = sector.ham.position - y0
+    y = float(pos @ prob)
+    spread = float(math.sqrt(max(float((pos * pos) @ prob) - y * y, 0.0)))
+    sz = None if sector.ham.sz is None else float(sector.ham.sz @ prob)
+    edge = "bottom" if y < width / 2 else "top"
+    far = float(prob[pos > width / 2].sum() if edge == "bottom" else prob[pos < width / 2].sum())
+    if spread >= bulk_spread or far > _FAR_WEIGHT:
+        edge = "bulk"
+    return EdgeMode(
+        k=_wrap(k), energy=energy, velocity=velocity, y=y, spread=spread,
+        sz=sz, edge=edge, spin=_spin_label(sz),
+    )
+
+
+def _net(modes) -> tuple[int, int]:
+    net = int(sum(np.sign(m.velocity) for m in modes))
+    return net, (len(modes) - abs(net)) // 2
+
+
+def _summary(modes: list[EdgeMode], spinful: bool, inward) -> EdgeSummary:
+    modes = sorted(modes, key=inward)
+    net, pairs = _net(modes)
+    by_spin = {}
+    if spinful:
+        for label in ("up", "down"):
+            n, p = _net([m for m in modes if m.spin == label])
+            by_spin[label] = {"net": n, "counter_pairs": p}
+    return EdgeSummary(net=net, counter_pairs=pairs, by_spin=by_spin, modes=tuple(modes))
+
+
+def count_edge_modes(
+    ham: RibbonHamiltonian,
+    fermi_energy: float,
+    *,
+    k_points: int = 400,
+    tol: float = 1e-9,
+    bulk_spread: float | None = None,
+) -> EdgeCount:
+    """Count the modes per edge, direction and spin at a Fermi energy.
+
+    Parameters
+    ----------
+    ham : RibbonHamiltonian
+        The ribbon.
+    fermi_energy : float
+        ``E_F`` in units of t.
+    k_points : int
+        Points of the scan grid (see :func:`find_crossings`).
+    tol : float
+        Energy tolerance in t for a band touching ``E_F``.
+    bulk_spread : float, optional
+        Spread in lattice constants from which a state counts as bulk;
+        default a quarter of the ribbon width ``(max(y) - min(y)) / 4``.
+
+    Returns
+    -------
+    EdgeCount
+        ``bottom.net`` and ``top.net`` are the net chiralities (sum of
+        ``sign(dE/dk)``) of the two edges. They are meaningful when
+        ``in_gap`` is True; otherwise ``message`` says why not (a bulk band
+        or a touching band at ``E_F``), and the counts are not to be trusted.
+
+    Raises
+    ------
+    TypeError, ValueError
+        As :func:`find_crossings`.
+
+    Notes
+    -----
+    In the ``r``-th gap of the bulk Hofstadter spectrum at flux ``p/q`` the
+    net chirality of an edge equals the sum of the Chern numbers of the
+    filled bulk bands, ``t_r`` of ``r = q s_r + p t_r`` [1]_ [2]_; edge
+    potentials can add counter-propagating pairs but do not change ``net``.
+
+    References
+    ----------
+    .. [1] D. J. Thouless, M. Kohmoto, M. P. Nightingale and M. den Nijs,
+       Phys. Rev. Lett. 49, 405 (1982).
+    .. [2] Y. Hatsugai, Phys. Rev. Lett. 71, 3697 (1993).
+
+    Examples
+    --------
+    >>> from topoedge.builders import ribbon_builder, model_params
+    >>> ham = RibbonHamiltonian.from_kwant(ribbon_builder(41, spin=False),
+    ...                                    params=model_params(phi=1/3))
+    >>> count = count_edge_modes(ham, -2.1)   # lowest gap of phi = 1/3
+    >>> count.in_gap, count.bottom.net, count.top.net
+    (True, 1, -1)
+    """
+    crossings, touching = find_crossings(
+        ham, fermi_energy, k_points=k_points, tol=tol, bulk_spread=bulk_spread
+    )
+    spinful = ham.sz is not None
+    bottom = _summary([m for m in crossings if m.edge == "bottom"], spinful, lambda m: m.y)
+    top = _summary([m for m in crossings if m.edge == "top"], spinful, lambda m: -m.y)
+    bulk = tuple(sorted((m for m in crossings if m.edge == "bulk"), key=lambda m: m.k))
+    in_gap = not bulk and not touching
+    message = None
+    if not in_gap:
+        parts = []
+        if bulk:
+            parts.append(
+                f"E_F = {fermi_energy:.6g} t lies in a bulk band: {len(bulk)} delocalised "
+                f"state{'s' if len(bulk) != 1 else ''} cross{'' if len(bulk) != 1 else 'es'} it"
+            )
+        if touching:
+            parts.append(
+                f"E_F = {fermi_energy:.6g} t touches {len(touching)} band extremum or flat band "
+                f"point{'s' if len(touching) != 1 else ''} within tol = {tol:g} t"
+            )
+        message = "; ".join(parts) + "; move E_F into a gap for a meaningful edge count."
+    return EdgeCount(
+        fermi_energy=fermi_energy,
+        bottom=bottom,
+        top=top,
+        bulk=bulk,
+        touching=tuple(touching),
+        in_gap=in_gap,
+        message=message,
+    )
