@@ -1,8 +1,15 @@
-"""Side-by-side benchmark of the ribbon spectrum against kwant's ``Bands``.
+"""Side-by-side benchmarks (ratios measured in one run; no absolute goals).
 
-Both sides diagonalise the same finalized kwant ribbon at the same momenta in
-one process, one after the other; the ratios are what matters, since the
-machines are shared and absolute times are noisy.
+``bench_ribbon``: the ribbon spectrum against ``kwant.physics.Bands`` on the
+same finalized ribbon and momenta.
+
+``bench_chern``: the whole Chern computation (Bloch Hamiltonian on the grid,
+diagonalisation, gap search, link variables) against the bare batched
+diagonalisation of the same grid.
+
+Both sides of each comparison run in one process, one after the other; the
+ratios are what matters, since the machines are shared and absolute times are
+noisy.
 """
 
 from __future__ import annotations
@@ -19,7 +26,7 @@ from .pipeline import scenario_potential
 from .builders import model_params, ribbon_builder
 from .spectrum import k_grid, ribbon_spectrum
 
-__all__ = ["bench_ribbon"]
+__all__ = ["bench_ribbon", "bench_chern"]
 
 
 def _timed(func):
@@ -120,4 +127,51 @@ def bench_ribbon(scenario: Scenario, *, width: int = 400, k_points: int = 200, w
             "all": float(np.abs(spec_e.energy - ref).max()),
             "window": float(window_diff),
         },
+    }
+
+
+def bench_chern(q: int = 50, *, repeats: int = 2) -> dict:
+    """Time the Chern computation at flux 1/q against its bare diagonalisation.
+
+    Parameters
+    ----------
+    q : int
+        Flux 1/q per plaquette, spinless: q bands.
+    repeats : int
+        Each side is timed this many times; the fastest run counts.
+
+    Returns
+    -------
+    dict
+        Grid, times (bare diagonalisation, whole Chern computation, and the
+        convergence check on the 1.5 times finer grid), their ratio and
+        whether the gap Chern numbers solve the TKNN equation (t_r = r below
+        the centre, r - q above, for flux 1/q).
+    """
+    from fractions import Fraction
+
+    from .bloch import BlochHamiltonian
+    from .builders import bulk_builder
+    from .chern import _batched_eigh, chern_numbers, default_grid
+
+    phi = Fraction(1, q)
+    bloch = BlochHamiltonian.from_kwant(bulk_builder(phi, spin=False), params=model_params(phi=phi))
+    grid = default_grid(bloch)
+    _, _, hk = bloch.grid(*grid)
+    bare = min(_timed(lambda: _batched_eigh(hk))[0] for _ in range(repeats))
+    del hk
+    runs = [_timed(lambda: chern_numbers(bloch, grid=grid)) for _ in range(repeats)]
+    whole, result = min(runs, key=lambda r: r[0])
+    finer = tuple(int(np.ceil(1.5 * n)) for n in grid)
+    t_refined, refined = _timed(lambda: chern_numbers(bloch, grid=finer))
+    tknn = all(g.chern == (g.below if 2 * g.below < q else g.below - q) for g in result.gaps)
+    return {
+        "flux": f"1/{q}",
+        "bands": bloch.size,
+        "grid": list(grid),
+        "open_gaps": len(result.gaps),
+        "seconds": {"bare_diagonalisation": bare, "chern_whole": whole, "chern_refined_grid": t_refined},
+        "ratio_whole_over_bare": whole / bare,
+        "tknn_agree": bool(tknn),
+        "refined_agree": [g.chern for g in result.gaps] == [g.chern for g in refined.gaps],
     }

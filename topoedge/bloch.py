@@ -22,6 +22,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ._threads import one_blas_thread
+
 __all__ = ["BlochHamiltonian"]
 
 
@@ -122,7 +124,10 @@ class BlochHamiltonian:
         """``H(k)`` for broadcastable arrays of reduced momenta; shape ``(..., N, N)``."""
         k1, k2 = np.broadcast_arrays(np.asarray(k1, dtype=float), np.asarray(k2, dtype=float))
         phase = np.exp(1j * (k1[..., None] * self.shifts[:, 0] + k2[..., None] * self.shifts[:, 1]))
-        return np.tensordot(phase, self.blocks, axes=(-1, 0))
+        # The contraction is short (a few cell offsets): threaded BLAS only
+        # adds synchronisation, so it runs on one thread.
+        with one_blas_thread():
+            return np.tensordot(phase, self.blocks, axes=(-1, 0))
 
     def grid(self, n1: int, n2: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """``H`` on the periodic grid ``k_j = 2 pi j / n``: returns ``(k1, k2, H)``.

@@ -47,8 +47,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.optimize import minimize
-from threadpoolctl import threadpool_limits
 
+from ._threads import one_blas_thread
 from .bloch import BlochHamiltonian
 
 __all__ = [
@@ -227,7 +227,7 @@ def _batched_eigh(hk: np.ndarray):
     """
     if hk.shape[-1] > 200:
         return np.linalg.eigh(hk)
-    with threadpool_limits(limits=1, user_api="blas"):
+    with one_blas_thread():
         return np.linalg.eigh(hk)
 
 
@@ -246,6 +246,26 @@ def _uniform_shift(a: BlochHamiltonian, b: BlochHamiltonian) -> float | None:
     return c if np.abs(diff - expected).max(initial=0.0) <= tol else None
 
 
+def _single_band_chern(vectors: np.ndarray) -> list[tuple[float, float]]:
+    """:func:`link_chern` of every band on its own, in one pass over the grid."""
+    n1, n2 = vectors.shape[:2]
+    o1 = np.empty((n1, n2, vectors.shape[-1]), dtype=complex)
+    o2 = np.empty_like(o1)
+    chunk = max(1, n1 // 8)  # conjugate a few rows at a time: no full copies
+    for s in range(0, n1, chunk):
+        rows = slice(s, min(s + chunk, n1))
+        conj = vectors[rows].conj()
+        nxt = np.arange(rows.start, rows.stop) + 1
+        o1[rows] = np.einsum("xyib,xyib->xyb", conj, vectors[nxt % n1])
+        o2[rows, :-1] = np.einsum("xyib,xyib->xyb", conj[:, :-1], vectors[rows, 1:])
+        o2[rows, -1] = np.einsum("xib,xib->xb", conj[:, -1], vectors[rows, 0])
+    link_min = np.minimum(np.abs(o1).min(axis=(0, 1)), np.abs(o2).min(axis=(0, 1)))
+    u1, u2 = o1 / np.abs(o1), o2 / np.abs(o2)
+    plaquette = u1 * np.roll(u2, -1, axis=0) * np.roll(u1, -1, axis=1).conj() * u2.conj()
+    raw = np.angle(plaquette).sum(axis=(0, 1)) / (2 * np.pi)
+    return [(float(c), float(m)) for c, m in zip(raw, link_min)]
+
+
 def _refined_gap(bloch, j, k1, k2, gaps):
     """Smallest direct gap between bands j, j+1 near the grid minimum."""
     i1, i2 = np.unravel_index(np.argmin(gaps), gaps.shape)
@@ -260,15 +280,12 @@ def _refined_gap(bloch, j, k1, k2, gaps):
         e = np.linalg.eigvalsh(bloch.at(x[0], x[1]))
         return e[j + 1] - e[j]
 
-    best = float(g0)
-    for s1 in (-0.5, 0.5):
-        for s2 in (-0.5, 0.5):
-            start = np.array([k1[i1] + s1 * d1, k2[i2] + s2 * d2])
-            res = minimize(gap, start, method="Nelder-Mead",
-                           options=dict(xatol=1e-10, fatol=1e-14, maxiter=400, initial_simplex=[
-                               start, start + [d1, 0], start + [0, d2]]))
-            best = min(best, float(res.fun))
-    return best
+    start = np.array([k1[i1], k2[i2]])
+    simplex = [start - [d1 / 2, d2 / 2], start + [d1, -d2 / 2], start + [-d1 / 2, d2]]
+    with one_blas_thread():
+        res = minimize(gap, start, method="Nelder-Mead",
+                       options=dict(xatol=1e-10, fatol=1e-14, maxiter=300, initial_simplex=simplex))
+    return min(float(g0), float(res.fun))
 
 
 def chern_numbers(
@@ -319,12 +336,16 @@ def chern_numbers(
             # term): same eigenvectors and gaps, shifted energies.
             energies, vectors, gap_sizes = previous[1] + shift, previous[2], previous[3]
         previous = (part, energies, vectors, gap_sizes)
+        single = _single_band_chern(vectors)
         start = 0
         for j in range(part.size):
             last = j == part.size - 1
             if last or gap_sizes[j] >= gap_min:
                 members = tuple(range(start, j + 1))
-                raw, link_min = link_chern(vectors[..., start : j + 1])
+                if len(members) == 1:
+                    raw, link_min = single[j]
+                else:
+                    raw, link_min = link_chern(vectors[..., start : j + 1])
                 e = energies[..., start : j + 1]
                 groups.append(BandGroup(
                     spin=spin, bands=members, chern=int(round(raw)), chern_raw=raw,

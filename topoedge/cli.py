@@ -53,6 +53,10 @@ def _parser() -> argparse.ArgumentParser:
     bench.add_argument("--k-points", type=int, default=200, help="number of momenta (default 200)")
     bench.add_argument("--window", type=float, default=0.5,
                        help="half-width of the energy window around E_F, units of t (default 0.5)")
+    bench.add_argument("--chern-q", type=int, default=50,
+                       help="Chern benchmark at flux 1/q, spinless (default 50)")
+    bench.add_argument("--parts", default="ribbon,chern",
+                       help="comma-separated benchmarks to run: ribbon, chern (default both)")
     return parser
 
 
@@ -108,32 +112,47 @@ def _cmd_run(args) -> int:
 
 
 def _cmd_bench(args) -> int:
-    from .bench import bench_ribbon
+    from .bench import bench_chern, bench_ribbon
 
-    if args.width < 2 or args.k_points < 2 or not args.window > 0:
+    parts = [p.strip() for p in args.parts.split(",") if p.strip()]
+    unknown = sorted(set(parts) - {"ribbon", "chern"})
+    if unknown or not parts:
+        raise ConfigError(f"bench --parts: got {args.parts!r}; expected a comma-separated subset of ribbon, chern")
+    if args.width < 2 or args.k_points < 2 or not args.window > 0 or args.chern_q < 2:
         raise ConfigError(
-            f"bench: got --width {args.width}, --k-points {args.k_points}, --window {args.window}; "
-            "expected width >= 2, k-points >= 2 and window > 0"
+            f"bench: got --width {args.width}, --k-points {args.k_points}, --window {args.window}, "
+            f"--chern-q {args.chern_q}; expected width >= 2, k-points >= 2, window > 0 and chern-q >= 2"
         )
     scenario = load_scenario(args.config, args.overrides)
-    _say(args, f"benchmark: W = {args.width} sites per spin, {args.k_points} k points "
-               f"(kwant.physics.Bands and topoedge on the same finalized ribbon) ...")
-    report = bench_ribbon(scenario, width=args.width, k_points=args.k_points, window=args.window)
+    report = {}
+    if "ribbon" in parts:
+        _say(args, f"ribbon benchmark: W = {args.width} sites per spin, {args.k_points} k points "
+                   f"(kwant.physics.Bands and topoedge on the same finalized ribbon) ...")
+        report["ribbon"] = bench_ribbon(scenario, width=args.width, k_points=args.k_points, window=args.window)
+        r = report["ribbon"]
+        _say(args, f"  solver: {r['solver']}; {r['orbitals']} orbitals; "
+                   f"window {r['window_t'][0]:.4f} .. {r['window_t'][1]:.4f} t "
+                   f"({r['states_in_window']} states over all k)")
+        _say(args, f"  {'variant':44s} {'seconds':>9s}")
+        for key, value in r["seconds"].items():
+            _say(args, f"  {key:44s} {value:9.3f}")
+        _say(args, f"  {'ratio (kwant / topoedge)':44s} {'x':>9s}")
+        for key, value in r["ratios"].items():
+            _say(args, f"  {key:44s} {value:9.1f}")
+        d = r["max_energy_difference_t"]
+        _say(args, f"  largest |E_topoedge - E_kwant|: all {d['all']:.2e} t, window {d['window']:.2e} t")
+    if "chern" in parts:
+        _say(args, f"Chern benchmark: flux 1/{args.chern_q}, spinless, whole computation against the "
+                   "bare batched diagonalisation of the same grid ...")
+        report["chern"] = c = bench_chern(args.chern_q)
+        s = c["seconds"]
+        _say(args, f"  {c['bands']} bands, {c['grid'][0]}x{c['grid'][1]} grid, {c['open_gaps']} open gaps; "
+                   f"TKNN agree: {c['tknn_agree']}; finer grid agrees: {c['refined_agree']}")
+        _say(args, f"  bare diagonalisation {s['bare_diagonalisation']:.3f} s, whole Chern computation "
+                   f"{s['chern_whole']:.3f} s: ratio {c['ratio_whole_over_bare']:.2f}")
+        _say(args, f"  (convergence check on the 1.5x finer grid: {s['chern_refined_grid']:.3f} s)")
     if args.json:
         print(json.dumps(report, indent=2))
-    if not (args.quiet or args.json):
-        s, r = report["seconds"], report["ratios"]
-        print(f"  solver: {report['solver']}; {report['orbitals']} orbitals; "
-              f"window {report['window_t'][0]:.4f} .. {report['window_t'][1]:.4f} t "
-              f"({report['states_in_window']} states over all k)")
-        print(f"  {'variant':44s} {'seconds':>9s}")
-        for key, value in s.items():
-            print(f"  {key:44s} {value:9.3f}")
-        print(f"  {'ratio (kwant / topoedge)':44s} {'x':>9s}")
-        for key, value in r.items():
-            print(f"  {key:44s} {value:9.1f}")
-        d = report["max_energy_difference_t"]
-        print(f"  largest |E_topoedge - E_kwant|: all {d['all']:.2e} t, window {d['window']:.2e} t")
     return 0
 
 
