@@ -1,14 +1,17 @@
-"""README.md against the code: configuration keys, edge profiles, quick start.
+"""README.md against the code: configuration keys, edge profiles, quick start,
+the Python example, the guaranteed ``summary.json`` keys and ``spectrum.h5``.
 
 The reference here is the code itself (``topoedge.config.key_docs``,
-``topoedge.profiles.EDGE_PROFILES``) and the CI script ``.ci/run``; the README
-must follow them.
+``topoedge.profiles.EDGE_PROFILES``, a run of a tiny scenario) and the CI
+script ``.ci/run``; the README must follow them.
 """
 
 from __future__ import annotations
 
 import contextlib
+import functools
 import io
+import json
 import re
 import tomllib
 import warnings
@@ -107,7 +110,11 @@ def test_documented_defaults_are_what_an_empty_scenario_gets():
             table = table.setdefault(part, {})
         table[name] = tomllib.loads(f"v = {default}")["v"]
     assert config.parse_scenario(data) == config.parse_scenario({})
-    assert config.parse_scenario({}).spectrum.window is None  # the one "unset" key
+    # Every key documented as "unset" is None in an empty scenario.
+    empty = config.parse_scenario({})
+    for path, (_, _, default, _) in config_table().items():
+        if unquote(default) == "unset":
+            assert functools.reduce(getattr, path.split("."), empty) is None, path
 
 
 # --------------------------------------------------------------- quick start
@@ -172,3 +179,130 @@ def test_python_example_runs():
     up_b, down_b = ([y for y, s, _ in states if y < 60 and s == sz] for sz in (0.5, -0.5))
     up_t, down_t = ([y for y, s, _ in states if y >= 60 and s == sz] for sz in (0.5, -0.5))
     assert max(up_b) < min(down_b) and min(up_t) > max(down_t)
+    # The README quotes the edge count at E_F and the flux-2/5 Chern numbers
+    # (band Chern numbers -2, 3, -2, 3, -2 and gap sums t_r of r = 5 s + 2 t;
+    # TKNN, PRL 49, 405 (1982)).
+    text = out.getvalue()
+    for quoted in ("edge net: bottom +2, top -2",
+                   "band C: [-2, 3, -2, 3, -2] gap C: [-2, 1, -1, 2]"):
+        assert quoted in text, text
+        assert f"`{quoted}`" in " ".join(README.split()), f"README does not quote {quoted!r}"
+
+
+# ------------------------------------------------- summary.json, spectrum.h5
+
+# A scenario that runs in a fraction of a second and has edge modes of both
+# spins on both edges: flux 1/5 (one band per Landau level and spin), Zeeman
+# 0.2 t (well below the 1.35 t gap above the lowest level), E_F in the gap
+# above both spin bands of the lowest level.
+TINY = {
+    "lattice": {"flux": "1/5"},
+    "spin": {"enabled": True, "zeeman": 0.2},
+    "ribbon": {"width": 24},
+    "spectrum": {"k_points": 31},
+    "fermi": {"gap": 2},
+    "edges": {"k_points": 64},
+}
+
+# The keys the README promises (and scripts may rely on); the README's table
+# of guaranteed keys must list at least these.
+GUARANTEED = {
+    "bulk.bands[].index", "bulk.bands[].spin", "bulk.bands[].chern",
+    "bulk.bands[].energy_min", "bulk.bands[].energy_max", "bulk.chern_below_fermi",
+    "fermi.energy", "hall.sigma_xy", "hall.r_xy_ohm", "check.bulk_edge_agree",
+    *(f"edges.{edge}.{key}" for edge in ("bottom", "top") for key in (
+        "net", "counter_pairs", "modes[].k", "modes[].velocity", "modes[].y", "modes[].spin",
+        "by_spin.up", "by_spin.down")),
+}
+
+
+@pytest.fixture(scope="module")
+def tiny_run(tmp_path_factory):
+    """The tiny scenario, computed and written (without figures)."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        from topoedge.pipeline import run_scenario
+        from topoedge.results import write_run
+    result = run_scenario(config.parse_scenario(TINY))
+    out = write_run(tmp_path_factory.mktemp("docs") / "run", result, {})
+    return result, out
+
+
+def documented_paths(title: str) -> list[str]:
+    """Backticked names in the first column of the first summary.json table after ``title``."""
+    body = section(README, "summary.json and `--json`", level=3)
+    body = body[body.index(title):]
+    table = body[: body.index("\n\n", body.index("|"))]
+    return [name for cells in table_rows(table) for name in re.findall(r"`([^`]+)`", cells[0])]
+
+
+def lookup(data, path: str) -> list:
+    """Values at a dotted path; ``name[]`` steps into every element of a non-empty list."""
+    values = [data]
+    for part in path.split("."):
+        step = []
+        for value in values:
+            assert isinstance(value, dict) and part.rstrip("[]") in value, f"{path}: no {part!r}"
+            item = value[part.rstrip("[]")]
+            if part.endswith("[]"):
+                assert isinstance(item, list) and item, f"{path}: {part} is not a non-empty list"
+                step += item
+            else:
+                step.append(item)
+        values = step
+    return values
+
+
+def test_readme_lists_the_guaranteed_summary_keys():
+    listed = documented_paths("**Guaranteed keys.**")
+    assert GUARANTEED <= set(listed), sorted(GUARANTEED - set(listed))
+
+
+def test_guaranteed_summary_keys_are_in_a_run(tiny_run):
+    result, out = tiny_run
+    summary = json.loads((out / "summary.json").read_text())
+    assert summary == json.loads(json.dumps(result.summary))  # the file is the --json document
+    for path in documented_paths("**Guaranteed keys.**"):
+        lookup(summary, path)
+    # The tiny run is what the README says such a run gives: C = 2 (one per
+    # spin), +C on the bottom edge, -C on the top edge, R_xy = h / (C e^2).
+    assert summary["bulk"]["chern_below_fermi"] == 2
+    assert (summary["edges"]["bottom"]["net"], summary["edges"]["top"]["net"]) == (2, -2)
+    assert summary["check"]["bulk_edge_agree"] is True
+    assert summary["hall"]["r_xy_ohm"] == pytest.approx(25812.807 / 2, rel=1e-7)
+
+
+def test_every_top_level_summary_key_is_documented(tiny_run):
+    result, _ = tiny_run
+    body = section(README, "summary.json and `--json`", level=3)
+    documented = {name.split(".")[0] for cells in table_rows(body)
+                  for name in re.findall(r"`([^`]+)`", cells[0])}
+    assert set(result.summary) <= documented, sorted(set(result.summary) - documented)
+
+
+def test_spectrum_h5_table_matches_the_file(tiny_run):
+    import h5py
+
+    _, out = tiny_run
+    body = section(README, "spectrum.h5", level=3)
+    rows = table_rows(body)
+    documented = {name for cells in rows for name in re.findall(r"`([^`]+)`", " ".join(cells))}
+    with h5py.File(out / "spectrum.h5", "r") as f:
+        objects = []
+        f.visit(objects.append)
+        # Every dataset and group of the file (but the per-key /config
+        # attributes) is in the table ...
+        missing = [f"/{name}" for name in objects
+                   if not name.startswith("config/") and f"/{name}" not in documented]
+        assert not missing, missing
+        for where in ("/", "/bulk", "/edge_modes"):
+            attrs = set(f[where].attrs) - documented
+            assert not attrs, f"undocumented attributes of {where}: {sorted(attrs)}"
+        # ... and every path in its first column exists in the file.
+        for cells in rows:
+            names = re.findall(r"`([^`]+)`", cells[0])
+            for name in names:
+                if name.startswith("/"):
+                    assert name in f, f"README lists {name}, not in spectrum.h5"
+            if "attribute" in cells[0] and names:
+                assert names[-1] in f[names[0]].attrs, cells[0]

@@ -37,3 +37,11 @@ def test_unknown_profile_names_the_choices():
     with pytest.raises(ValueError, match="expected one of"):
         edge_potential(10, "cosine")
     assert set(EDGE_PROFILES) == {"none", "linear", "tanh", "erf", "table"}
+
+
+def test_negative_height_is_an_attractive_edge():
+    # Each row takes the profile at its distance from the nearer edge, so a
+    # negative V0 is kept (regression: combining the edges with max() dropped it).
+    v = edge_potential(20, "linear", ramp=4, height=-2.0)
+    np.testing.assert_allclose(v[:5], [-2.0, -1.5, -1.0, -0.5, 0.0], rtol=0, atol=1e-15)
+    np.testing.assert_array_equal(v, v[::-1])

@@ -21,3 +21,21 @@ def _controller() -> ThreadpoolController:
 def one_blas_thread():
     """Context manager limiting BLAS to one thread inside its block."""
     return _controller().limit(limits=1, user_api="blas")
+
+
+#: Matrices up to this size are diagonalised in stacks on one BLAS thread.
+SMALL_MATRIX = 200
+
+
+def eigh_stack(h, *, vectors: bool = True):
+    """``numpy.linalg.eigh`` (or ``eigvalsh``) over a stack ``(..., n, n)``.
+
+    Small matrices (n <= ``SMALL_MATRIX``) run on one BLAS thread.
+    """
+    import numpy as np
+
+    solve = np.linalg.eigh if vectors else np.linalg.eigvalsh
+    if h.shape[-1] > SMALL_MATRIX:
+        return solve(h)
+    with one_blas_thread():
+        return solve(h)

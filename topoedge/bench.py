@@ -22,7 +22,8 @@ import numpy as np
 
 from .config import Scenario
 from .hamiltonian import RibbonHamiltonian
-from .pipeline import scenario_potential
+from .chern import chern_numbers
+from .pipeline import build_bulk, fermi_level, scenario_potential
 from .builders import model_params, ribbon_builder
 from .spectrum import k_grid, ribbon_spectrum
 
@@ -67,7 +68,10 @@ def bench_ribbon(scenario: Scenario, *, width: int = 400, k_points: int = 200, w
     params = model_params(phi=lat.flux, zeeman=scenario.spin.zeeman, onsite=lat.onsite)
     fsyst = ribbon_builder(width, spin=scenario.spin.enabled, potential=potential).finalized()
     k = k_grid(k_points)
-    ef = scenario.fermi.energy
+    if scenario.fermi.gap is None:
+        ef = scenario.fermi.energy if scenario.fermi.energy is not None else 0.0
+    else:  # E_F from the bulk gap, as `run` places it
+        ef = fermi_level(scenario, chern_numbers(build_bulk(scenario)))[0]
     win = (ef - window, ef + window)
 
     def kwant_energies():

@@ -48,7 +48,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import minimize
 
-from ._threads import one_blas_thread
+from ._threads import eigh_stack, one_blas_thread
 from .bloch import BlochHamiltonian
 
 __all__ = [
@@ -166,8 +166,8 @@ class ChernResult:
         top = max(b.energy_max for b in lower)
         bottom = min(b.energy_min for b in upper)
         raise GapClosedError(
-            f"fermi.gap = {r}: the gap above band {r - 1} is closed (bands below reach {top:.6g} t, "
-            f"bands above start at {bottom:.6g} t, minimum gap {self.gap_min:g} t); "
+            f"fermi.gap = {r}: the gap above band {r - 1} is closed (bands below reach {top:.6f} t, "
+            f"bands above start at {bottom:.6f} t, minimum gap {self.gap_min:g} t); "
             f"open gaps: {self._gap_list()}"
         )
 
@@ -204,6 +204,11 @@ def link_chern(vectors: np.ndarray) -> tuple[float, float]:
     link_min : float
         Smallest ``|det|`` of the overlap matrices (near 0: grid too coarse).
     """
+    with one_blas_thread():
+        return _link_chern(vectors)
+
+
+def _link_chern(vectors: np.ndarray) -> tuple[float, float]:
     conj = vectors.conj()
     if vectors.shape[-1] == 1:
         o1 = np.sum(conj[..., 0] * np.roll(vectors[..., 0], -1, axis=0), axis=-1)
@@ -219,16 +224,13 @@ def link_chern(vectors: np.ndarray) -> tuple[float, float]:
 
 
 def _batched_eigh(hk: np.ndarray):
-    """``numpy.linalg.eigh`` over a stack of small matrices, on one BLAS thread.
+    """``numpy.linalg.eigh`` over the grid; small matrices on one BLAS thread.
 
-    For matrices of a few dozen rows, threaded BLAS only adds synchronisation
+    For matrices of a few dozen rows threaded BLAS only adds synchronisation
     (three times slower on two cores here, far worse when the cores are
-    shared), so the stack is diagonalised single-threaded.
+    shared).
     """
-    if hk.shape[-1] > 200:
-        return np.linalg.eigh(hk)
-    with one_blas_thread():
-        return np.linalg.eigh(hk)
+    return eigh_stack(hk)
 
 
 def _uniform_shift(a: BlochHamiltonian, b: BlochHamiltonian) -> float | None:

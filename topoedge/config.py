@@ -282,7 +282,7 @@ _KEYS: dict[str, _Key] = {key.path: key for key in (
     _Key("spectrum.k_points", "integer", "-", "Number of momenta k in [-pi, pi) (k in 1/a).",
          "an integer number of k points >= 2", lambda n: n >= 2),
     _Key("spectrum.window", "float", "t",
-         "Half-width of the energy window around fermi.energy; unset keeps all states.",
+         "Half-width of the energy window around E_F; unset keeps all states.",
          "a half-width > 0 in t (leave the key out to keep all states)", _positive,
          optional=True),
     _Key("spectrum.solver", "choice", "-", "Eigenvalue solver of the ribbon spectrum.",
@@ -672,7 +672,8 @@ def key_docs() -> list[tuple[str, str, str, str, str]]:
     rows = []
     for path, key in _KEYS.items():
         kind = {"choice": "string: " + " | ".join(f'"{c}"' for c in key.choices),
-                "flux": 'string "p/q"', "pairs": "array of [float, float]"}.get(key.kind, key.kind)
+                "flux": 'string "p/q"', "pairs": "array of [float, float]",
+                "grid": "array of two integers"}.get(key.kind, key.kind)
         default = _plain(_lookup(defaults, path))
         rows.append((path, kind, key.unit, "unset" if default is None else json.dumps(default),
                      key.doc))

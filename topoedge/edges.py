@@ -18,48 +18,63 @@ periodic function of ``k``, and by Weyl's inequality [3]_ it is Lipschitz::
 
     |E_n(k) - E_n(k')| <= V |k - k'|,   V = 2 ||h1||_2 >= max ||dH/dk||
 
-1. *Scan.* On a uniform periodic grid of spacing ``h`` only the states with
-   ``|E_n - E_F| <= V h`` can reach ``E_F`` inside an adjacent interval; they
-   are computed with their band index (a Sturm-sequence count [4]_ of the
-   states below the window and LAPACK's index-selected tridiagonal solver, or
-   a banded/dense solver for other sectors) and their velocity.
-2. *Brackets.* A sign change of ``E_n - E_F`` between neighbouring grid
-   points brackets a crossing (the last interval wraps around to
-   ``k_0 + 2 pi``). Values with ``|E_n - E_F| <= tol`` count as zero: a run of
-   such values is a band touching ``E_F`` (or a genuine crossing when the run
-   is a single grid point between opposite signs).
-3. *Hidden pairs.* Two modes of one sector crossing ``E_F`` in opposite
-   directions inside one interval (e.g. a bottom-edge and a top-edge mode)
-   leave no sign change in any sorted band: ``E_n`` rises through ``E_F`` and
-   comes back. Every interval in which a band ends within
-   ``h (2 max|v| + |v_b - v_a|) + tol`` of ``E_F``, or changes sign with
-   velocities inconsistent with a single crossing, is halved recursively
-   (``_MAX_DEPTH`` levels); at the finest level the extremum of the band
-   towards ``E_F`` is located with a bounded Brent minimisation [5]_: beyond
-   ``E_F`` it splits the interval into two brackets, within ``tol`` of it the
-   band touches ``E_F``.
-4. *Roots.* Each bracket is refined with Brent's root finder [5]_ on
+1. *Scan.* On the uniform periodic grid ``k_grid(k_points)`` of spacing
+   ``h`` only the states with ``|E_n - E_F| <= V h`` can reach ``E_F`` inside
+   an adjacent interval. They are computed with their band index (a
+   Sturm-sequence count [4]_ of the states below this window and LAPACK's
+   index-selected tridiagonal solver; band or dense solvers for sectors that
+   are not tridiagonal) and their velocities.
+2. *Decisions.* For band ``n`` on an interval of width ``w`` with end values
+   ``f = E_n - E_F`` (the last interval wraps around to ``k_0 + 2 pi``):
+   opposite signs with ``|f_a| + |f_b| >= V w`` hold exactly one root (three
+   would need a larger variation); equal signs with
+   ``|f_a| + |f_b| - 2 tol > V w`` hold none. Both statements are rigorous.
+3. *Refinement.* Undecided intervals are halved, with all states of the
+   window computed at the new momenta, until they are no wider than
+   ``2 pi / 1024``. There the end velocities are trusted: opposite signs
+   with both velocities pointing from one sign to the other make a bracket;
+   equal signs need a turning point towards ``E_F`` (``s v_a < 0 < s v_b``,
+   ``s`` the sign) that could reach it. Such intervals are halved twice more
+   for that band alone and then settled at the band's extremum, located by
+   bounded Brent minimisation [5]_: beyond ``E_F`` it splits the interval
+   into two brackets, within ``tol`` the band touches ``E_F``. This finds
+   the *hidden pairs* of a coarse grid: two modes of one sector crossing
+   ``E_F`` in opposite directions inside one interval (e.g. a bottom-edge and
+   a top-edge mode) change the sign of no sorted band at the grid points,
+   because ``E_n`` rises through ``E_F`` and comes back.
+4. *Touching.* Values with ``|E_n - E_F| <= tol`` count as zero. A run of
+   such points is a band touching ``E_F`` (a flat band or an extremum), a
+   single one between opposite signs is an ordinary crossing.
+5. *Roots.* Each bracket is refined with Brent's root finder [5]_ on
    ``E_n(k) - E_F`` (``xtol = 1e-12``); the eigenvector there gives the
    velocity ``<psi|dH/dk|psi>`` (Hellmann-Feynman [6]_), ``<y>``, the spread
    and ``<S_z>``.
 
+The cost is one windowed eigensolve per grid point plus the refinement,
+which is only needed where bands come within ``V h`` of ``E_F``; flat bands
+just inside the window (Landau levels at small flux) double the work.
+
 Edge assignment
 ---------------
-A crossing state whose spread ``sqrt(<y^2> - <y>^2)`` is below
-``bulk_spread`` (default: a quarter of the ribbon width, ``(max(y) -
-min(y)) / 4``) is an edge mode, on the ``"bottom"`` edge when ``<y>`` lies in
-the lower half of the ribbon and on the ``"top"`` edge otherwise. A state
-with a larger spread is delocalised across the ribbon (``"bulk"``): the Fermi
-energy then lies in a bulk band and the edge count is not meaningful.
+A state at ``E_F`` is an edge mode when it is localised on one side of the
+ribbon: its spread ``sqrt(<y^2> - <y>^2)`` is below ``bulk_spread`` (default
+a quarter of the ribbon width, ``(max(y) - min(y)) / 4``) *and* at most 10 %
+of its weight lies in the far half of the ribbon. It belongs to the
+``"bottom"`` edge when ``<y>`` lies in the lower half and to the ``"top"``
+edge otherwise. Any other state is ``"bulk"``: the Fermi energy then lies in
+a bulk band and the edge count is not meaningful. The weight condition
+catches the lowest standing waves of a bulk band across the ribbon, whose
+spread (about 0.18 of the width for ``sin^2``) is below a quarter width.
 
 Sign convention
 ---------------
 Velocities are ``dE/dk`` in units of ``t a`` (``hbar = 1``) for Bloch waves
 ``exp(i k x)`` along ``+x``. For the builders of :mod:`topoedge.builders`
-with ``phi > 0`` the bottom-edge modes move along ``+x`` in the gaps below the
-band centre and the net number of bottom-edge modes in the ``r``-th bulk gap
-is ``t_r`` of the Diophantine equation ``r = q s_r + p t_r`` [1]_ [2]_; the
-top edge carries ``-t_r``.
+with ``phi = p/q > 0`` the net number of bottom-edge modes in the ``r``-th
+bulk gap is ``+t_r`` of the Diophantine equation ``r = q s_r + p t_r``,
+``|t_r| <= q/2`` [1]_ [2]_, and the top edge carries ``-t_r``; reversing the
+field flips both. In the Landau-level gaps at small ``phi`` (``t_r = r``)
+the bottom-edge modes therefore move along ``+x`` (``dE/dk > 0``).
 
 References
 ----------
@@ -92,9 +107,12 @@ from .spectrum import k_grid
 
 __all__ = ["EdgeMode", "EdgeSummary", "EdgeCount", "find_crossings", "count_edge_modes"]
 
-# Levels of interval halving before a suspicious interval is settled by
-# locating the band's extremum (the grid spacing shrinks by 2**_MAX_DEPTH).
-_MAX_DEPTH = 5
+# Interval width (1/a) below which the end velocities of a band are trusted
+# to rule out hidden roots; wider intervals are halved on the Lipschitz bound.
+_FINE = 2 * math.pi / 1024
+# Further halvings of a fine interval with a turning point before the band's
+# extremum is located.
+_LOCAL_DEPTH = 2
 # Relative safety factor on the Lipschitz window of the scan.
 _WINDOW_MARGIN = 1.05
 # Brent root tolerance in k (units of 1/a).
@@ -169,7 +187,9 @@ class EdgeSummary:
         ``(number of modes - |net|) // 2``: pairs of counter-propagating modes.
     by_spin : dict
         ``{"up": {"net": int, "counter_pairs": int}, "down": {...}}`` for a
-        spinful ribbon, an empty dict for a spinless one.
+        spinful ribbon, an empty dict for a spinless one. Modes whose spin is
+        neither up nor down (``|<S_z>| <= 0.25``, possible only when ``S_z``
+        is not conserved) count in ``net`` but in neither spin.
     modes : tuple of EdgeMode
         Ordered from the outer boundary inwards (bottom edge: increasing
         ``y``; top edge: decreasing ``y``).
@@ -396,12 +416,21 @@ class _DenseSector(_Sector):
     """Any sector: dense Hermitian eigensolvers."""
 
     def scan(self, k, e_low, e_high):
-        w, v = np.linalg.eigh(self.ham.bloch(k))
-        vel = np.real(np.einsum("kim,kim->km", v.conj(), self.ham.velocity(k) @ v))
-        lo = np.sum(w < e_low, axis=1)
-        hi = np.sum(w <= e_high, axis=1) - 1
-        energies = [w[i, lo[i] : hi[i] + 1] for i in range(len(k))]
-        velocities = [vel[i, lo[i] : hi[i] + 1] for i in range(len(k))]
+        lo = np.empty(len(k), dtype=int)
+        hi = np.empty(len(k), dtype=int)
+        energies, velocities = [], []
+        for i in range(len(k)):  # one LAPACK call (two with states) per momentum
+            hk = self.ham.bloch(k[i])
+            w_all = sla.eigh(hk, eigvals_only=True)
+            lo[i] = np.searchsorted(w_all, e_low, side="left")
+            hi[i] = np.searchsorted(w_all, e_high, side="right") - 1
+            if hi[i] < lo[i]:
+                energies.append(np.empty(0))
+                velocities.append(np.empty(0))
+                continue
+            w, v = sla.eigh(hk, subset_by_index=(lo[i], hi[i]))
+            energies.append(w)
+            velocities.append(np.real(np.einsum("im,im->m", v.conj(), self.ham.velocity(k[i]) @ v)))
         return lo, hi, energies, velocities
 
     def energy(self, n, k):
@@ -432,18 +461,30 @@ def _sectors(ham: RibbonHamiltonian) -> list[_Sector]:
 # ----------------------------------------------------- brackets and roots
 
 
-def _sign(f: float, tol: float) -> int:
-    return 0 if abs(f) <= tol else (1 if f > 0 else -1)
-
-
 class _Search:
-    """Brackets and touching points of one sector at one Fermi energy."""
+    """Brackets and touching points of one sector at one Fermi energy.
+
+    Interval decisions (``decide``), for band ``n`` on ``[a, b]`` of width
+    ``w`` with end values ``f = E_n - E_F`` (beyond ``tol``) and velocities
+    ``v``; ``V`` is the Lipschitz constant of the sector:
+
+    * opposite signs and ``|f_a| + |f_b| >= V w``: exactly one root (three
+      would need a variation above ``V w``): a bracket;
+    * equal signs and ``|f_a| + |f_b| - 2 tol > V w``: the band cannot come
+      within ``tol`` of ``E_F``: nothing;
+    * otherwise the interval is halved until it is no wider than ``fine``;
+      there the end velocities decide: opposite signs with both velocities
+      pointing from one sign to the other make a bracket, equal signs with a
+      turning point towards ``E_F`` (``s v_a < 0 < s v_b``) that could reach it
+      are halved ``_LOCAL_DEPTH`` more times and settled at the extremum.
+    """
 
     def __init__(self, sector: _Sector, ef: float, tol: float, h: float):
         self.sector = sector
         self.ef = ef
         self.tol = tol
-        self.h = h
+        self.lipschitz = sector.lipschitz
+        self.fine = min(h, _FINE)
         self.brackets: list[tuple[int, float, float]] = []
         self.touch: list[tuple[int, float]] = []
 
@@ -454,32 +495,45 @@ class _Search:
         e, _, v = self.sector.state(n, k)
         return e - self.ef, v
 
-    def suspicious(self, fa, va, fb, vb, width):
-        """Could a same-sign band reach E_F between the two ends?"""
-        reach = width * (2 * max(abs(va), abs(vb)) + abs(vb - va)) + self.tol
-        return min(abs(fa), abs(fb)) <= reach
+    def decide(self, fa, va, fb, vb, width) -> str:
+        """``"bracket"``, ``"none"`` or ``"split"`` for one band on one interval."""
+        reach = self.lipschitz * width
+        size = abs(fa) + abs(fb)
+        if (fa > 0) != (fb > 0):
+            if size >= reach:
+                return "bracket"
+            up = 1.0 if fb > 0 else -1.0
+            if width <= self.fine * (1 + 1e-9) and va * up > 0 and vb * up > 0:
+                return "bracket"
+            return "split"
+        if size - 2 * self.tol > reach:
+            return "none"
+        if width <= self.fine * (1 + 1e-9):
+            side = 1.0 if fa > 0 else -1.0
+            turning = side * va < 0 < side * vb
+            if not (turning and min(abs(fa), abs(fb)) <= width * (abs(va) + abs(vb)) + self.tol):
+                return "none"
+        return "split"
 
     def resolve(self, n, a, fa, va, b, fb, vb, depth):
-        """Brackets of band ``n`` in ``[a, b]`` (ends nonzero beyond tol)."""
-        sa, sb = _sign(fa, self.tol), _sign(fb, self.tol)
-        if sa != sb:
-            consistent = (np.sign(va) == np.sign(sb - sa)) and (np.sign(vb) == np.sign(sb - sa))
-            if consistent or depth == 0:
-                self.brackets.append((n, a, b))
-                return
-        else:
-            if not self.suspicious(fa, va, fb, vb, b - a):
-                return
-            if depth == 0:
-                self.extremum(n, a, b, sa)
-                return
+        """Collect the brackets of band ``n`` in ``[a, b]`` (ends beyond tol)."""
+        action = self.decide(fa, va, fb, vb, b - a)
+        if action == "none":
+            return
+        same = (fa > 0) == (fb > 0)
+        if action == "bracket" or (depth == 0 and not same):
+            self.brackets.append((n, a, b))
+            return
+        if depth == 0:
+            self.extremum(n, a, b, 1.0 if fa > 0 else -1.0)
+            return
         m = 0.5 * (a + b)
         fm, vm = self.fv(n, m)
         if abs(fm) <= self.tol:
-            if sa != sb:
+            if not same:
                 self.brackets.append((n, a, b))
             else:
-                self.extremum(n, a, b, sa)
+                self.extremum(n, a, b, 1.0 if fa > 0 else -1.0)
             return
         self.resolve(n, a, fa, va, m, fm, vm, depth - 1)
         self.resolve(n, m, fm, vm, b, fb, vb, depth - 1)
@@ -499,7 +553,7 @@ class _Search:
 
 def _wrap(k: float) -> float:
     """Momentum in ``[-pi, pi)``."""
-    w = (k + math.pi) % _TWO_PI - math.pi
+    w = (float(k) + math.pi) % _TWO_PI - math.pi
     return -math.pi if w >= math.pi else w
 
 
@@ -513,74 +567,110 @@ def _spin_label(sz):
     return None
 
 
-def _search_sector(sector: _Sector, ef: float, k: np.ndarray, tol: float) -> _Search:
-    """Scan a sector on the grid ``k`` and collect brackets and touching points."""
-    nk = len(k)
-    h = _TWO_PI / nk
-    search = _Search(sector, ef, tol, h)
-    half = _WINDOW_MARGIN * sector.lipschitz * h + 10 * tol
-    lo, hi, energies, velocities = sector.scan(k, ef - half, ef + half)
-    if np.all(hi < lo):
-        return search
+def _band_matrices(lo, hi, energies, velocities, ef):
+    """Per-band arrays over the points: ``E_n - E_F`` (+-inf outside the window) and ``v``."""
     n0, n1 = int(lo.min()), int(hi.max())
-    nb = n1 - n0 + 1
     bands = np.arange(n0, n1 + 1)[:, None]
-    # F[b, i] = E_{n0+b}(k_i) - E_F inside the window, -inf below, +inf above.
     F = np.where(bands < lo[None, :], -np.inf, np.inf)
-    V = np.full((nb, nk), np.nan)
-    for i in range(nk):
-        if hi[i] >= lo[i]:
-            F[lo[i] - n0 : hi[i] - n0 + 1, i] = energies[i] - ef
-            V[lo[i] - n0 : hi[i] - n0 + 1, i] = velocities[i]
-    S = np.where(np.abs(F) <= tol, 0, np.sign(F)).astype(int)
-    kb_all = np.append(k[1:], k[0] + _TWO_PI)  # right ends of the intervals
+    V = np.full(F.shape, np.nan)
+    for i in np.nonzero(hi >= lo)[0]:
+        F[lo[i] - n0 : hi[i] - n0 + 1, i] = energies[i] - ef
+        V[lo[i] - n0 : hi[i] - n0 + 1, i] = velocities[i]
+    return n0, F, V
 
-    # Ordinary intervals: both ends beyond tol of E_F.
+
+def _decisions(F, V, S, width, lipschitz, fine, tol):
+    """Vectorised :meth:`_Search.decide` for all bands and intervals.
+
+    Returns boolean arrays ``sure`` (a bracket with exactly one root) and
+    ``split`` (undecided), shape (bands, intervals); the interval ``i`` runs
+    from point ``i`` to point ``i + 1`` (cyclically).
+    """
     Fb, Vb, Sb = (np.roll(x, -1, axis=1) for x in (F, V, S))
     nonzero = (S != 0) & (Sb != 0)
+    size = np.abs(F) + np.abs(Fb)
+    reach = lipschitz * width[None, :]
+    is_fine = (width <= fine * (1 + 1e-9))[None, :]
     change = nonzero & (S != Sb)
-    direction = np.sign(Sb - S)
-    consistent = (np.sign(V) == direction) & (np.sign(Vb) == direction)
     with np.errstate(invalid="ignore"):
-        reach = h * (2 * np.fmax(np.abs(V), np.abs(Vb)) + np.abs(Vb - V)) + tol
-        near = np.minimum(np.abs(F), np.abs(Fb)) <= reach
-    finite = np.isfinite(F) & np.isfinite(Fb)
-    same = nonzero & (S == Sb) & finite & near
-    for b, i in zip(*np.nonzero(change & consistent)):
-        search.brackets.append((n0 + b, k[i], kb_all[i]))
-    for b, i in zip(*np.nonzero((change & ~consistent) | same)):
-        n = n0 + b
-        fa, va, fb, vb = F[b, i], V[b, i], Fb[b, i], Vb[b, i]
-        if not np.isfinite(fa):
-            fa, va = search.fv(n, k[i])
-        if not np.isfinite(fb):
-            fb, vb = search.fv(n, kb_all[i])
-        search.resolve(n, k[i], fa, va, kb_all[i], fb, vb, _MAX_DEPTH)
+        up = np.sign(Sb - S)
+        sure = change & ((size >= reach) | (is_fine & (V * up > 0) & (Vb * up > 0)))
+        same = nonzero & (S == Sb) & (size - 2 * tol <= reach)
+        turning = (S * V < 0) & (S * Vb > 0)
+        near = np.minimum(np.abs(F), np.abs(Fb)) <= width[None, :] * (np.abs(V) + np.abs(Vb)) + tol
+        same &= ~is_fine | (turning & near)
+    return sure, (change & ~sure) | same
 
-    # Runs of grid points within tol of E_F.
+
+def _search_sector(sector: _Sector, ef: float, k: np.ndarray, tol: float) -> _Search:
+    """Scan a sector on the grid ``k`` and collect brackets and touching points.
+
+    Intervals in which the Lipschitz bound lets a band reach ``E_F`` without
+    deciding how are halved, with all states of the window computed at the
+    new points, until they are no wider than ``_FINE``; the remaining
+    undecided bands are then settled one by one (:meth:`_Search.resolve`).
+    """
+    h = _TWO_PI / len(k)
+    search = _Search(sector, ef, tol, h)
+    half = _WINDOW_MARGIN * sector.lipschitz * h + 10 * tol
+    window = (ef - half, ef + half)
+    kk = np.asarray(k, dtype=float)
+    lo, hi, energies, velocities = sector.scan(kk, *window)
+    if np.all(hi < lo):
+        return search
+    while True:
+        n0, F, V = _band_matrices(lo, hi, energies, velocities, ef)
+        S = np.where(np.abs(F) <= tol, 0, np.sign(F)).astype(int)
+        right = np.append(kk[1:], kk[0] + _TWO_PI)  # right ends of the intervals
+        width = right - kk
+        sure, split = _decisions(F, V, S, width, sector.lipschitz, search.fine, tol)
+        refine = np.any(split, axis=0) & (width > search.fine * (1 + 1e-9))
+        if not refine.any():
+            break
+        mid = kk[refine] + 0.5 * width[refine]
+        lo2, hi2, e2, v2 = sector.scan(mid, *window)
+        order = np.argsort(np.concatenate([kk, mid]), kind="stable")
+        kk = np.concatenate([kk, mid])[order]
+        lo = np.concatenate([lo, lo2])[order]
+        hi = np.concatenate([hi, hi2])[order]
+        energies = [(energies + e2)[j] for j in order]
+        velocities = [(velocities + v2)[j] for j in order]
+
+    for b, i in zip(*np.nonzero(sure)):
+        search.brackets.append((n0 + b, kk[i], right[i]))
+    for b, i in zip(*np.nonzero(split)):
+        n = n0 + b
+        j = (i + 1) % len(kk)
+        fa, va, fb, vb = F[b, i], V[b, i], F[b, j], V[b, j]
+        if not np.isfinite(fa):
+            fa, va = search.fv(n, kk[i])
+        if not np.isfinite(fb):
+            fb, vb = search.fv(n, right[i])
+        search.resolve(n, kk[i], fa, va, right[i], fb, vb, _LOCAL_DEPTH)
+
+    # Runs of points within tol of E_F.
+    m = len(kk)
     for b in np.nonzero(np.any(S == 0, axis=1))[0]:
         n = n0 + b
         row = S[b]
         if np.all(row == 0):
-            i = int(np.argmin(np.abs(F[b])))
-            search.touch.append((n, k[i]))
+            search.touch.append((n, kk[int(np.argmin(np.abs(F[b])))]))
             continue
         nzi = np.nonzero(row)[0]
         for j, start in enumerate(nzi):
             stop = nzi[(j + 1) % len(nzi)]
-            gap = (stop - start) % nk or nk
+            gap = (stop - start) % m or m
             if gap == 1:
                 continue
-            zeros = (start + np.arange(1, gap)) % nk
-            ka = k[start]
-            kb = k[start] + gap * h
+            zeros = (start + np.arange(1, gap)) % m
+            ka = kk[start]
+            kb = kk[stop] + (_TWO_PI if stop <= start else 0.0)
             if gap == 2 and row[start] != row[stop]:
                 search.brackets.append((n, ka, kb))
             elif gap == 2:
-                search.extremum(n, ka, kb, row[start])
+                search.extremum(n, ka, kb, float(row[start]))
             else:
-                i = zeros[np.argmin(np.abs(F[b, zeros]))]
-                search.touch.append((n, k[i]))
+                search.touch.append((n, kk[zeros[np.argmin(np.abs(F[b, zeros]))]]))
     return search
 
 
@@ -648,8 +738,8 @@ def find_crossings(
         raise ValueError(f"k_points must be an integer >= 2, got {k_points!r}")
     if not (tol > 0 and math.isfinite(tol)):
         raise ValueError(f"tol must be a positive energy in units of t, got {tol!r}")
-    y0 = float(ham.position.min(initial=0.0))
-    width = float(ham.position.max(initial=0.0)) - y0
+    y0 = float(ham.position.min())
+    width = float(ham.position.max()) - y0
     if bulk_spread is None:
         bulk_spread = width / 4
     elif not bulk_spread > 0:
@@ -764,13 +854,14 @@ def count_edge_modes(
     >>> from topoedge.builders import ribbon_builder, model_params
     >>> ham = RibbonHamiltonian.from_kwant(ribbon_builder(41, spin=False),
     ...                                    params=model_params(phi=1/3))
-    >>> count = count_edge_modes(ham, -2.1)   # lowest gap of phi = 1/3
+    >>> count = count_edge_modes(ham, -1.4)   # lowest gap of phi = 1/3
     >>> count.in_gap, count.bottom.net, count.top.net
     (True, 1, -1)
     """
     crossings, touching = find_crossings(
         ham, fermi_energy, k_points=k_points, tol=tol, bulk_spread=bulk_spread
     )
+    fermi_energy = float(fermi_energy)
     spinful = ham.sz is not None
     bottom = _summary([m for m in crossings if m.edge == "bottom"], spinful, lambda m: m.y)
     top = _summary([m for m in crossings if m.edge == "top"], spinful, lambda m: -m.y)
@@ -786,8 +877,9 @@ def count_edge_modes(
             )
         if touching:
             parts.append(
-                f"E_F = {fermi_energy:.6g} t touches {len(touching)} band extremum or flat band "
-                f"point{'s' if len(touching) != 1 else ''} within tol = {tol:g} t"
+                f"E_F = {fermi_energy:.6g} t touches a band without crossing it "
+                f"({len(touching)} point{'s' if len(touching) != 1 else ''} of a flat band or "
+                f"band extremum within tol = {tol:g} t)"
             )
         message = "; ".join(parts) + "; move E_F into a gap for a meaningful edge count."
     return EdgeCount(

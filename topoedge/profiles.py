@@ -3,10 +3,10 @@
 Every profile is a function of the distance ``d`` of a lattice row from the
 outermost row of its edge (``d = 0`` on the outermost row, in lattice
 constants) and returns the confining potential in units of the hopping ``t``.
-The ribbon's potential is the profile applied at both edges; where the two
-edges' ramps would overlap the larger value is taken (the configuration layer
-forbids a ramp wider than half the ribbon, so this only matters at the centre
-row of an odd ribbon).
+The ribbon's potential is the profile applied at both edges: every row takes
+the profile's value at its distance from the nearer edge (the configuration
+layer forbids a ramp wider than half the ribbon). Negative heights (an
+attractive edge) are kept as they are.
 
 Profiles (``EDGE_PROFILES`` maps the names to functions):
 
@@ -134,5 +134,4 @@ def edge_potential(
             f"edge profile {profile!r} is unknown; expected one of {sorted(EDGE_PROFILES)}"
         ) from None
     bottom, top = distance_from_edge(width)
-    kwargs = dict(width=float(ramp), height=float(height), table=table)
-    return np.maximum(shape(bottom, **kwargs), shape(top, **kwargs))
+    return shape(np.minimum(bottom, top), width=float(ramp), height=float(height), table=table)

@@ -48,6 +48,7 @@ import numpy as np
 import scipy.linalg as sla
 from tqdm.auto import tqdm
 
+from ._threads import eigh_stack
 from .hamiltonian import RibbonHamiltonian
 
 __all__ = ["RibbonSpectrum", "ribbon_spectrum", "k_grid", "BLOCK_SOLVERS"]
@@ -204,12 +205,12 @@ def _solve_dense(ham: RibbonHamiltonian, k, window, observables, progress):
         ks = k[s : s + chunk]
         hk = ham.bloch(ks)
         if observables:
-            w, v = np.linalg.eigh(hk)
+            w, v = eigh_stack(hk)
             vel = np.real(np.einsum("kim,kim->km", v.conj(), ham.velocity(ks) @ v))
             prob = np.abs(v) ** 2
             obs = _observables(prob, ham, vel)
         else:
-            w = np.linalg.eigvalsh(hk)
+            w = eigh_stack(hk, vectors=False)
         for j in range(len(ks)):
             keep = slice(None) if window is None else (w[j] >= window[0]) & (w[j] <= window[1])
             row = {"energy": w[j][keep]}
