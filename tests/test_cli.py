@@ -29,12 +29,13 @@ from topoedge.results import ResultsExistError, write_run
 
 CONFIGS = sorted((Path(__file__).resolve().parent.parent / "configs").glob("*.toml"))
 
-# A ribbon small enough to run in a few hundredths of a second: W = 30 sites,
+# A ribbon small enough to run in a fraction of a second: W = 30 sites,
 # flux 1/10 (l_B = 1.26 a, so W is about 24 magnetic lengths), 21 momenta.
 # The lowest Landau level is split by the Zeeman term into spin up at
 # -3.47 t and spin down at -3.37 t; the next level starts at -2.40 t (from a
-# run of this scenario). E_F = -3.0 t sits in that bulk gap, so only edge
-# modes cross it; `test_run_spectrum_matches_direct_computation` checks this.
+# run of this scenario). E_F = -3.0 t sits in that bulk gap (filling 2: Chern
+# sum 2, one spin-up and one spin-down mode per edge), so only edge modes
+# cross it; `test_run_spectrum_matches_direct_computation` checks this.
 TINY = {
     "title": "tiny test ribbon",
     "lattice": {"flux": "1/10", "onsite": 0.0},
@@ -44,9 +45,14 @@ TINY = {
     "fermi": {"energy": -3.0},
 }
 TINY_GAP = (-3.37, -2.40)
+# Inside the lowest bulk band of TINY: spin up, -3.47005 .. -3.46990 t (from
+# a run of this scenario on its default 20 x 20 grid).
+TINY_IN_BAND = -3.47
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
-RUN_FILES = {"summary.json", "spectrum.h5", "ribbon_spectrum.png"}
+FIGURES = {"ribbon_spectrum.png", "bulk_bands.png"}
+RUN_FILES = {"summary.json", "spectrum.h5"} | FIGURES
 H5_DATASETS = {"k", "energy", "velocity", "y_mean", "y_spread", "sz", "count", "potential"}
+H5_GROUPS = {"bulk", "edge_modes", "config"}
 
 
 # ---------------------------------------------------------------- helpers
@@ -166,8 +172,12 @@ def test_run_exits_0_and_prints_summary(cli_run):
     assert "flux 1/10" in proc.stdout
     assert "W = 30 sites" in proc.stdout
     assert "21 k points" in proc.stdout
-    assert "Fermi energy -3.00000 t" in proc.stdout
+    assert "Fermi energy -3.00000 t in the gap above 2 bands" in proc.stdout
+    assert "C = 2 (spin up 1, spin down 1)" in proc.stdout
+    assert "sigma_xy = 2 e^2/h" in proc.stdout
+    assert "agree: yes (per spin: yes)" in proc.stdout
     assert f"{out.name}/" in proc.stdout
+    assert "bulk_bands.png" in proc.stdout
     assert {p.name for p in out.iterdir()} == RUN_FILES
     assert no_temporaries(out.parent) == []
 
@@ -184,11 +194,48 @@ def test_run_summary_json(cli_run):
     assert summary["model"]["flux"] == "1/10"
 
 
+def test_run_summary_topology(cli_run):
+    # Filling 2 of the Zeeman-split lowest Landau level: Chern sum 2, one
+    # spin-up and one spin-down mode per edge, bottom along +x, top along -x
+    # (the bulk-edge convention of topoedge.pipeline).
+    _, out, _ = cli_run
+    summary = strict_json((out / "summary.json").read_text())
+    bulk, fermi, edges = summary["bulk"], summary["fermi"], summary["edges"]
+    assert len(bulk["bands"]) == 20  # 10 bands per spin at flux 1/10
+    assert [b["spin"] for b in bulk["bands"][:2]] == ["up", "down"]
+    lower, upper = bulk["bands"][1]["energy_max"], bulk["bands"][2]["energy_min"]
+    assert lower < -3.0 < upper
+    assert lower == pytest.approx(TINY_GAP[0], abs=0.01) and upper == pytest.approx(TINY_GAP[1], abs=0.01)
+    assert bulk["chern_below_fermi"] == 2
+    assert bulk["spin_chern_below_fermi"] == {"up": 1, "down": 1}
+    assert fermi["gap_below"] == 2 and fermi["from_gap"] is None
+    assert fermi["gap_window"][0] < -3.0 < fermi["gap_window"][1]
+    for side, sign in (("bottom", 1), ("top", -1)):
+        edge = edges[side]
+        assert edge["net"] == 2 * sign and edge["counter_pairs"] == 0
+        assert edge["by_spin"] == {"up": {"net": sign, "counter_pairs": 0},
+                                   "down": {"net": sign, "counter_pairs": 0}}
+        assert sorted(m["spin"] for m in edge["modes"]) == ["down", "up"]
+        assert all(np.sign(m["velocity"]) == sign for m in edge["modes"])
+    assert all(m["y"] < 10 for m in edges["bottom"]["modes"])
+    assert all(m["y"] > 19 for m in edges["top"]["modes"])
+    assert edges["bulk"] == [] and edges["in_gap"] is True
+    assert summary["hall"]["sigma_xy"] == 2
+    # R_xy = h / (2 e^2) with the exact SI values of h and e (CODATA 2018).
+    assert summary["hall"]["r_xy_ohm"] == pytest.approx(25812.80745930 / 2, rel=1e-12)
+    assert summary["check"]["bulk_edge_agree"] is True
+    assert summary["check"]["spin_resolved_agree"] is True
+
+
 def test_run_spectrum_h5(cli_run):
     _, out, config = cli_run
+    summary = strict_json((out / "summary.json").read_text())
     with h5py.File(out / "spectrum.h5", "r") as f:
         assert H5_DATASETS <= set(f.keys())
+        assert all(isinstance(f[name], h5py.Group) for name in H5_GROUPS)
+        assert set(f.keys()) == H5_DATASETS | H5_GROUPS
         assert f.attrs["topoedge_version"] == topoedge.__version__
+        assert f.attrs["fermi_energy"] == -3.0
         stored = parse_scenario(json.loads(f.attrs["scenario_json"]))
         assert f["k"].shape == (21,)
         assert f["energy"].shape == (21, 60)  # 30 sites x 2 spins
@@ -197,24 +244,47 @@ def test_run_spectrum_h5(cli_run):
         assert f["count"][()].tolist() == [60] * 21
         assert f["potential"].shape == (30,)
         assert f["config"].attrs["lattice.flux"] == "1/10"
+        bulk = f["bulk"]
+        bands = summary["bulk"]["bands"]
+        np.testing.assert_array_equal(
+            bulk["band_energy_range"][()], [[b["energy_min"], b["energy_max"]] for b in bands])
+        chern = bulk["band_chern"][()]
+        assert [None if np.isnan(c) else int(c) for c in chern] == [b["chern"] for b in bands]
+        assert bulk["band_spin"][()].tolist() == [{"up": 1, "down": -1}[b["spin"]] for b in bands]
+        gaps = summary["bulk"]["gaps"]
+        assert bulk["gap_below"][()].tolist() == [g["below"] for g in gaps]
+        assert bulk["gap_chern"][()].tolist() == [g["chern"] for g in gaps]
+        assert bulk.attrs["grid"].tolist() == summary["bulk"]["grid"]
+        assert {"path_distance", "path_energy_up", "path_energy_down"} <= set(bulk.keys())
+        modes = f["edge_modes"]
+        # 0 = bottom, 1 = top: two modes on each edge, moving along +x and -x.
+        assert modes["edge"][()].tolist() == [0, 0, 1, 1]
+        assert np.all(np.sign(modes["velocity"][()]) == [1, 1, -1, -1])
+        np.testing.assert_allclose(modes["energy"][()], -3.0, atol=1e-9)
+        np.testing.assert_allclose(np.sort(modes["sz"][()]), [-0.5, -0.5, 0.5, 0.5], atol=1e-9)
+        for name in ("k", "y", "spread"):
+            assert modes[name].shape == (4,), name
     assert stored == load_scenario(config)
     assert stored == parse_scenario(TINY)
 
 
-def test_run_figure_png(cli_run):
+@pytest.mark.parametrize("name", sorted(FIGURES))
+def test_run_figure_png(cli_run, name):
     _, out, _ = cli_run
-    data = (out / "ribbon_spectrum.png").read_bytes()
+    data = (out / name).read_bytes()
     assert data[:8] == PNG_MAGIC
     # An empty 7x5 inch canvas at 150 dpi compresses to a few kB; the bands,
-    # axes and colour bar make it tens of kB.
+    # axes and labels make it tens of kB.
     assert len(data) > 10_000
 
 
 def test_run_spectrum_matches_direct_computation(cli_run):
     _, out, config = cli_run
-    direct = run_scenario(load_scenario(config)).spectrum
+    result = run_scenario(load_scenario(config))
+    direct = result.spectrum
     with h5py.File(out / "spectrum.h5", "r") as f:
         k, energy, y_mean = f["k"][()], f["energy"][()], f["y_mean"][()]
+        mode_k = f["edge_modes"]["k"][()]
     # Same code, same LAPACK calls: the two should agree to the last bit or
     # so. 1e-12 t (about 1e4 ulp at |E| ~ 4 t) allows for a different
     # instruction path in another process and is still ten orders of
@@ -226,6 +296,9 @@ def test_run_spectrum_matches_direct_computation(cli_run):
     bulk = (y_mean > 10) & (y_mean < 19)
     assert np.abs(energy[bulk] - TINY["fermi"]["energy"]).min() > 0.3
     assert not np.any((energy[bulk] > TINY_GAP[0] + 0.01) & (energy[bulk] < TINY_GAP[1] - 0.01))
+    # The edge modes: same crossings (Brent roots to 1e-12 / a) in both processes.
+    direct_k = [m.k for side in (result.edges.bottom, result.edges.top) for m in side.modes]
+    np.testing.assert_allclose(mode_k, direct_k, rtol=0, atol=1e-9)
 
 
 # ------------------------------------------------- 2. --json and --quiet
@@ -330,6 +403,16 @@ BAD_INPUT = {
     "--set unknown path": (TINY, ["--set", "ribbon.edge.hight=1"],
                            ["ribbon.edge.hight", "did you mean 'ribbon.edge.height'"]),
     "missing config": (None, [], ["tiny.toml", "not found"]),
+    "fermi.gap = 0": (TINY, ["--set", "fermi.gap=0"], ["fermi.gap", "got 0", ">= 1"]),
+    # E_F must lie in an open bulk gap: refused after the bulk calculation,
+    # before anything is written.
+    "E_F in a bulk band": (TINY, ["--set", f"fermi.energy={TINY_IN_BAND}"],
+                           [f"E_F = {TINY_IN_BAND} t", "inside bulk band 0, spin up", "open gaps"]),
+    # Flux 1/4: the two centre bands touch at E = 0 (TKNN: the centre gap of
+    # even q is closed), so the gap above 2 bands does not exist.
+    "closed gap": (TINY, ["--set", "lattice.flux=1/4", "--set", "spin.enabled=false",
+                          "--set", "spin.zeeman=0", "--set", "fermi.gap=2"],
+                   ["fermi.gap = 2", "gap above band 1 is closed", "open gaps: 1 (", ", 3 ("]),
     "TOML syntax error": ('title = "x"\n[lattice\nflux = "1/10"\n', [],
                           ["tiny.toml", "invalid TOML", "line 2"]),
 }
@@ -434,11 +517,12 @@ def test_write_run_folder_has_plain_mkdir_permissions(tmp_path, tiny_result):
     assert stat.S_IMODE(out.stat().st_mode) == 0o755
 
 
-def test_cli_failing_figure_leaves_nothing(tmp_path, tiny_config, monkeypatch):
+@pytest.mark.parametrize("plot", ["plot_ribbon_spectrum", "plot_bulk_bands"])
+def test_cli_failing_figure_leaves_nothing(tmp_path, tiny_config, monkeypatch, plot):
     def broken_plot(*args, **kwargs):
         raise RuntimeError("plotting failed")
 
-    monkeypatch.setattr(plotting, "plot_ribbon_spectrum", broken_plot)
+    monkeypatch.setattr(plotting, plot, broken_plot)
     before = listing(tmp_path)
     with pytest.raises(RuntimeError, match="plotting failed"):
         cli.main(["run", str(tiny_config), "--out", str(tmp_path / "out"), "--quiet"])
@@ -464,9 +548,11 @@ def test_cli_interrupt_while_writing_leaves_nothing(tmp_path, tiny_config, monke
 
 
 def test_bench_json(tmp_path):
-    proc = topoedge_cli("bench", "--width", 20, "--k-points", 5, "--json", cwd=tmp_path)
+    proc = topoedge_cli("bench", "--width", 20, "--k-points", 5, "--chern-q", 6, "--json", cwd=tmp_path)
     assert proc.returncode == 0, proc.stderr
-    report = leading_json(proc.stdout)
+    full = leading_json(proc.stdout)
+    assert full.keys() == {"ribbon", "chern"}
+    report = full["ribbon"]
     assert {"ratios", "seconds", "max_energy_difference_t"} <= report.keys()
     assert report["width_per_spin"] == 20 and report["k_points"] == 5
     # Both sides diagonalise the same 40x40 Bloch Hamiltonians with LAPACK;
@@ -474,6 +560,9 @@ def test_bench_json(tmp_path):
     # times the norm times a modest factor). 1e-10 t leaves ample room while
     # catching any real mismatch (level spacings here are >= 1e-3 t).
     assert report["max_energy_difference_t"]["all"] < 1e-10
+    chern = full["chern"]
+    assert chern["flux"] == "1/6" and chern["bands"] == 6
+    assert chern["tknn_agree"] is True and chern["refined_agree"] is True
     assert listing(tmp_path) == []  # bench writes no files
 
 

@@ -163,8 +163,9 @@ class ChernResult:
             if gap.below == r:
                 return gap
         lower, upper = self.bands[:r], self.bands[r:]
-        top = max(b.energy_max for b in lower)
-        bottom = min(b.energy_min for b in upper)
+        top = max(b.energy_max for b in lower) + 0.0  # + 0.0: no "-0.000000" in the message
+        bottom = min(b.energy_min for b in upper) + 0.0
+        top, bottom = (0.0 if abs(x) < 5e-7 else x for x in (top, bottom))
         raise GapClosedError(
             f"fermi.gap = {r}: the gap above band {r - 1} is closed (bands below reach {top:.6f} t, "
             f"bands above start at {bottom:.6f} t, minimum gap {self.gap_min:g} t); "

@@ -159,13 +159,27 @@ def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
     return RunResult(scenario, potential, ham, spec, chern, refined, ef, gap, edges, path, summary)
 
 
-def bulk_edge_check(gap: Gap, edges: EdgeCount) -> dict:
+def bulk_edge_check(gap: Gap, edges: EdgeCount, *, width: int | None = None) -> dict:
     """Compare the Chern sum below E_F with the net chirality of each edge.
 
     The bottom edge must carry ``+C`` and the top edge ``-C`` (see the module
-    notes), in total and, when S_z is conserved, per spin.
+    notes), in total and, when S_z is conserved, per spin. When they disagree,
+    ``reason`` says why if it can tell: E_F not in a gap of the ribbon, or edge
+    states so wide (spread above a tenth of the ``width``) that the two edges
+    overlap and the ribbon must be widened.
     """
     agree = edges.in_gap and edges.bottom.net == gap.chern and edges.top.net == -gap.chern
+    reason = None
+    if not edges.in_gap:
+        reason = edges.message
+    elif not agree:
+        spread = max((m.spread for m in edges.bottom.modes + edges.top.modes), default=0.0)
+        if width is not None and spread > width / 10:
+            reason = (f"edge states spread over {spread:.1f} sites, more than a tenth of the ribbon "
+                      f"width {width}: the two edges overlap; widen the ribbon (ribbon.width)")
+        else:
+            reason = (f"net chirality bottom {edges.bottom.net:+d} / top {edges.top.net:+d} "
+                      f"differs from C = {gap.chern}")
     spin = None
     if gap.spin_chern is not None and edges.bottom.by_spin:
         spin = edges.in_gap and all(
@@ -175,6 +189,7 @@ def bulk_edge_check(gap: Gap, edges: EdgeCount) -> dict:
     return {
         "bulk_edge_agree": bool(agree),
         "spin_resolved_agree": spin,
+        "reason": reason,
         "convention": "bottom-edge net chirality = +C and top edge = -C, C = Chern sum below E_F",
     }
 
@@ -255,6 +270,6 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
             "r_xy_ohm": VON_KLITZING / c if c else None,
             "units": "sigma_xy in e^2/h; r_xy_ohm = h/(C e^2), null for C = 0",
         },
-        "check": bulk_edge_check(gap, edges),
+        "check": bulk_edge_check(gap, edges, width=scenario.ribbon.width),
         "seconds": round(seconds, 3),
     }

@@ -244,4 +244,6 @@ def _topology_lines(summary: dict) -> list[str]:
     if c["spin_resolved_agree"] is not None:
         agree += f" (per spin: {'yes' if c['spin_resolved_agree'] else 'NO'})"
     lines.append(f"  bulk-edge    agree: {agree}; {c['convention']}")
+    if c.get("reason"):
+        lines.append(f"  because      {c['reason']}")
     return lines
