@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ._threads import one_blas_thread
+from .hamiltonian import spin_orbitals
 
 __all__ = ["BlochHamiltonian"]
 
@@ -110,14 +111,7 @@ class BlochHamiltonian:
                 if np.abs(block).max() > 1e-14 * max(1.0, np.abs(comp).max()):
                     shifts.append((n1, n2))
                     blocks.append(block)
-        norbs = np.asarray(norbs)
-        if spin is None:
-            spin = bool(np.all(norbs == 2))
-        sz = None
-        if spin:
-            if not np.all(norbs == 2):
-                raise ValueError("spin=True needs two orbitals (up, down) on every site")
-            sz = np.tile([0.5, -0.5], len(norbs))
+        sz = spin_orbitals(norbs, spin)
         return cls(shifts=np.array(shifts, dtype=int).reshape(-1, 2), blocks=np.array(blocks), sz=sz)
 
     def at(self, k1, k2) -> np.ndarray:

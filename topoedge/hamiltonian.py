@@ -22,7 +22,32 @@ from dataclasses import dataclass
 import kwant
 import numpy as np
 
-__all__ = ["RibbonHamiltonian"]
+__all__ = ["RibbonHamiltonian", "spin_orbitals"]
+
+
+def spin_orbitals(norbs, spin: bool | None) -> np.ndarray | None:
+    """``S_z`` of every orbital when the sites carry (up, down) spin orbitals.
+
+    Parameters
+    ----------
+    norbs : sequence of int
+        Orbitals of every site, in orbital order.
+    spin : bool or None
+        True: every site must have two orbitals (up, down); None: True exactly
+        when every site has two; False: no spin.
+
+    Returns
+    -------
+    (N,) ndarray of +-1/2, or None without spin.
+    """
+    norbs = np.asarray(norbs)
+    if spin is None:
+        spin = bool(norbs.size and np.all(norbs == 2))
+    if not spin:
+        return None
+    if not np.all(norbs == 2):
+        raise ValueError("spin=True needs two orbitals (up, down) on every site")
+    return np.tile([0.5, -0.5], len(norbs))
 
 
 @dataclass(frozen=True, eq=False)
@@ -123,13 +148,7 @@ class RibbonHamiltonian:
             coords.append(float(np.dot(np.asarray(site.pos, dtype=float)[:2], across)))
         norbs = np.asarray(norbs)
         position = np.repeat(coords, norbs)
-        if spin is None:
-            spin = bool(np.all(norbs == 2))
-        sz = None
-        if spin:
-            if not np.all(norbs == 2):
-                raise ValueError("spin=True needs two orbitals (up, down) on every site")
-            sz = np.tile([0.5, -0.5], len(norbs))
+        sz = spin_orbitals(norbs, spin)
         return cls(h0=h0, h1=h1, position=position, sz=sz)
 
     def bloch(self, k) -> np.ndarray:
