@@ -101,7 +101,8 @@ BAD = {
     "misplaced section": ({"edge": {}}, r"^edge: unknown key; did you mean 'ribbon\.edge'\?$"),
     "unknown section": ({"xyzzy": {}},
                         r"^xyzzy: unknown key; expected one of the top-level keys: "
-                        r"'title', 'lattice', 'spin', 'ribbon', 'spectrum', 'fermi', 'chern', 'edges'$"),
+                        r"'title', 'lattice', 'spin', 'ribbon', 'spectrum', 'fermi', 'chern', 'edges', "
+                        r"'material', 'field'$"),
     "unknown key, nothing close": (nested("ribbon.edge.colour", 1),
                                    r"keys of \[ribbon\.edge\]: 'profile', 'width', "),
     "section not a table": ({"lattice": 3}, r"^lattice: got 3 \(integer\); expected a table"),
@@ -247,7 +248,10 @@ def test_to_dict_values():
     assert d["lattice"]["flux"] == "-1/30"
     assert d["ribbon"]["edge"]["table"] == [[0.0, 2.0], [1.5, 0.5], [4.0, 0.0]]
     assert "window" not in parse_scenario({}).to_dict()["spectrum"]
-    assert set(flat_paths(d)) == set(leaf_paths(Scenario)) - {"fermi.gap"}  # unset: left out
+    unset = {"fermi.gap", "material.preset", "material.effective_mass", "material.g_factor",
+             "material.permittivity", "material.lattice_constant_nm", "field.b_tesla",
+             "field.fermi_mev", "field.density_cm2"}
+    assert set(flat_paths(d)) == set(leaf_paths(Scenario)) - unset  # unset keys are left out
 
 
 def test_source_not_compared():
@@ -292,8 +296,10 @@ def test_key_docs_cover_every_key():
     rows = key_docs()
     paths = [row[0] for row in rows]
     assert len(paths) == len(set(paths))
-    # FULL sets fermi.energy, which excludes fermi.gap.
-    assert set(paths) == set(leaf_paths(Scenario)) == set(flat_paths(FULL)) | {"fermi.gap"}
+    # FULL sets fermi.energy, which excludes fermi.gap, and lattice units, which
+    # exclude the physical-unit keys (tests/test_units.py covers those).
+    physical = {p for p in leaf_paths(Scenario) if p.startswith(("material.", "field."))}
+    assert set(paths) == set(leaf_paths(Scenario)) == set(flat_paths(FULL)) | {"fermi.gap"} | physical
     assert all(len(row) == 5 and all(isinstance(x, str) and x for x in row) for row in rows)
     docs = {row[0]: row for row in rows}
     assert docs["lattice.flux"][3] == '"1/40"'

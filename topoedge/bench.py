@@ -20,7 +20,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from .config import Scenario
+from .config import Scenario, lattice_scenario
 from .hamiltonian import RibbonHamiltonian
 from .chern import chern_numbers
 from .pipeline import build_bulk, fermi_level, scenario_potential
@@ -59,6 +59,7 @@ def bench_ribbon(scenario: Scenario, *, width: int = 400, k_points: int = 200, w
     """
     import kwant
 
+    scenario, _ = lattice_scenario(scenario)
     edge = scenario.ribbon.edge
     if edge.width > width / 2:
         edge = replace(edge, width=width / 2)

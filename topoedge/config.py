@@ -2,7 +2,10 @@
 
 A scenario file has a top-level ``title`` and the sections ``[lattice]``,
 ``[spin]``, ``[ribbon]``, ``[ribbon.edge]``, ``[spectrum]``, ``[fermi]``,
-``[chern]`` and ``[edges]``.
+``[chern]``, ``[edges]``, ``[material]`` and ``[field]``. With
+``field.b_tesla`` the flux, the Zeeman splitting and (from ``fermi_mev`` or
+``density_cm2``) the Fermi level are derived from the material
+(:mod:`topoedge.units`) and must not be given in lattice units as well.
 Every key is one row of the schema table ``_KEYS`` (path, type, unit, meaning,
 expectation, constraint); its default is the default of the matching
 dataclass field. A new key is one row plus one dataclass field.
@@ -17,6 +20,7 @@ Every problem raises `ConfigError` with a one-line message
 
 from __future__ import annotations
 
+import dataclasses
 import difflib
 import json
 import math
@@ -31,9 +35,11 @@ from pathlib import Path
 from typing import Any
 
 from .profiles import EDGE_PROFILES as _PROFILE_REGISTRY
+from .units import Derived, UnitsError, derive
 
 __all__ = [
-    "DEFAULT_SCENARIO", "EDGE_PROFILES", "SOLVERS", "ConfigError",
+    "DEFAULT_SCENARIO", "EDGE_PROFILES", "PRESETS_DIR", "SOLVERS", "ConfigError",
+    "derive_units", "lattice_scenario",
     "EdgeConfig", "FermiConfig", "LatticeConfig", "RibbonConfig", "Scenario",
     "SpectrumConfig", "SpinConfig", "apply_overrides", "key_docs",
     "load_scenario", "parse_scenario",
@@ -198,6 +204,55 @@ class EdgesConfig:
 
 
 @dataclass(frozen=True)
+class MaterialConfig:
+    """A two-dimensional electron gas discretised on the lattice.
+
+    Attributes
+    ----------
+    preset : str or None
+        Name of a preset file ``configs/presets/<name>.toml`` whose
+        ``[material]`` keys fill in the keys not given here.
+    effective_mass : float or None
+        ``m* / m_e``.
+    g_factor : float or None
+        Effective g factor (negative for GaAs).
+    permittivity : float or None
+        Relative permittivity ``eps_r``.
+    lattice_constant_nm : float or None
+        Discretisation ``a`` in nm.
+    """
+
+    preset: str | None = None
+    effective_mass: float | None = None
+    g_factor: float | None = None
+    permittivity: float | None = None
+    lattice_constant_nm: float | None = None
+
+
+@dataclass(frozen=True)
+class FieldConfig:
+    """Field and carriers in physical units; they set flux, Zeeman and E_F.
+
+    Attributes
+    ----------
+    b_tesla : float or None
+        Perpendicular field in T (negative reverses it).
+    fermi_mev : float or None
+        Fermi energy in meV above the band bottom.
+    density_cm2 : float or None
+        Electron density in cm^-2 (E_F then sits in the gap above the
+        nearest integer filling).
+    q_max : int
+        Largest denominator of the rational flux per plaquette.
+    """
+
+    b_tesla: float | None = None
+    fermi_mev: float | None = None
+    density_cm2: float | None = None
+    q_max: int = 100
+
+
+@dataclass(frozen=True)
 class Scenario:
     """A complete validated scenario; build it with `parse_scenario`.
 
@@ -213,7 +268,9 @@ class Scenario:
     fermi: FermiConfig = FermiConfig()
     chern: ChernConfig = ChernConfig()
     edges: EdgesConfig = EdgesConfig()
-    source: str | None = field(default=None, compare=False)
+    material: MaterialConfig = MaterialConfig()
+    field: FieldConfig = FieldConfig()
+    source: str | None = dataclasses.field(default=None, compare=False)
 
     def to_dict(self) -> dict[str, Any]:
         """Return the scenario as a plain nested dict of TOML values.
@@ -239,6 +296,7 @@ _SECTIONS: dict[str, type] = {
     "ribbon": RibbonConfig, "ribbon.edge": EdgeConfig,
     "spectrum": SpectrumConfig, "fermi": FermiConfig,
     "chern": ChernConfig, "edges": EdgesConfig,
+    "material": MaterialConfig, "field": FieldConfig,
 }
 
 
@@ -301,6 +359,27 @@ _KEYS: dict[str, _Key] = {key.path: key for key in (
          "true or false"),
     _Key("edges.k_points", "integer", "-", "Momenta of the scan for crossings of E_F.",
          "an integer number of k points >= 8", lambda n: n >= 8),
+    _Key("material.preset", "string", "-",
+         "Preset file configs/presets/<name>.toml filling in the material keys not given.",
+         "the name of a preset", optional=True),
+    _Key("material.effective_mass", "float", "m_e", "Effective mass m*.",
+         "a mass > 0 in electron masses", _positive, optional=True),
+    _Key("material.g_factor", "float", "-", "Effective g factor (negative: spin along B lower).",
+         "a finite g factor", optional=True),
+    _Key("material.permittivity", "float", "-", "Relative permittivity eps_r.",
+         "a permittivity > 0", _positive, optional=True),
+    _Key("material.lattice_constant_nm", "float", "nm", "Lattice constant a of the discretisation.",
+         "a length > 0 in nm", _positive, optional=True),
+    _Key("field.b_tesla", "float", "T",
+         "Perpendicular field; sets lattice.flux and spin.zeeman from the material.",
+         "a finite field in tesla", optional=True),
+    _Key("field.fermi_mev", "float", "meV", "Fermi energy above the band bottom; sets fermi.energy.",
+         "a finite energy in meV", optional=True),
+    _Key("field.density_cm2", "float", "cm^-2",
+         "Electron density; E_F goes in the gap above the nearest integer filling.",
+         "a density in cm^-2", optional=True),
+    _Key("field.q_max", "integer", "-", "Largest denominator of the rational flux per plaquette.",
+         "an integer >= 1", lambda n: n >= 1),
 )}
 
 _TOML_TYPES = {bool: "boolean", int: "integer", float: "float", str: "string",
@@ -500,6 +579,7 @@ def _check_combinations(s: Scenario) -> None:
         raise ConfigError(f"ribbon.edge.table: given with ribbon.edge.profile = "
                           f"{edge.profile!r}; expected no table for that profile "
                           "(set ribbon.edge.profile = 'table' to use it)")
+    _check_units(s)
     if s.fermi.energy is not None and s.fermi.gap is not None:
         raise ConfigError(f"fermi.gap: got {s.fermi.gap} together with fermi.energy = "
                           f"{s.fermi.energy!r}; expected only one of them")
@@ -507,6 +587,69 @@ def _check_combinations(s: Scenario) -> None:
         raise ConfigError(f"spin.zeeman: got {s.spin.zeeman!r} with spin.enabled = false; "
                           f"expected 0 without spin (spin.zeeman = {s.spin.zeeman!r} needs "
                           "spin.enabled = true)")
+
+
+_MATERIAL_KEYS = ("effective_mass", "g_factor", "permittivity", "lattice_constant_nm")
+PRESETS_DIR = DEFAULT_SCENARIO.parent / "presets"
+
+
+def _check_units(s: Scenario) -> None:
+    """The [material] and [field] sections: complete, consistent, usable."""
+    fld, mat = s.field, s.material
+    if fld.b_tesla is None:
+        for name in ("fermi_mev", "density_cm2"):
+            if getattr(fld, name) is not None:
+                raise ConfigError(f"field.{name}: given without field.b_tesla; expected a field in tesla")
+        return
+    if fld.fermi_mev is not None and fld.density_cm2 is not None:
+        raise ConfigError(f"field.density_cm2: got {fld.density_cm2!r} together with field.fermi_mev = "
+                          f"{fld.fermi_mev!r}; expected only one of them")
+    missing = [name for name in _MATERIAL_KEYS if getattr(mat, name) is None]
+    if missing:
+        raise ConfigError(f"material.{missing[0]}: missing, but field.b_tesla needs it; expected a value "
+                          "or material.preset (e.g. 'gaas')")
+    derived = derive_units(s)
+    if fld.density_cm2 is not None and derived.filling < 0.5:
+        raise ConfigError(f"field.density_cm2: got {fld.density_cm2!r}, filling factor {derived.filling:.3f} "
+                          "at this field: no filled Landau level; expected a density giving filling >= 0.5")
+
+
+def derive_units(s: Scenario) -> Derived:
+    """Lattice parameters of the scenario's material and field (``field.b_tesla`` set)."""
+    mat, fld = s.material, s.field
+    try:
+        return derive(effective_mass=mat.effective_mass, g_factor=mat.g_factor,
+                      permittivity=mat.permittivity, lattice_constant_nm=mat.lattice_constant_nm,
+                      b_tesla=fld.b_tesla, fermi_mev=fld.fermi_mev, density_cm2=fld.density_cm2,
+                      q_max=fld.q_max, onsite_t=s.lattice.onsite)
+    except UnitsError as err:
+        raise ConfigError(str(err)) from None
+
+
+def _apply_preset(data: Mapping[str, Any]) -> Mapping[str, Any]:
+    """Fill the [material] keys not given from the preset file it names."""
+    material = data.get("material")
+    if not isinstance(material, Mapping) or material.get("preset") is None:
+        return data
+    name = material["preset"]
+    available = sorted(p.stem for p in PRESETS_DIR.glob("*.toml"))
+    if not isinstance(name, str) or name not in available:
+        close = difflib.get_close_matches(str(name), available, n=1)
+        hint = f" (did you mean {close[0]!r}?)" if close else ""
+        raise ConfigError(f"material.preset: got {_show(name)}; expected one of "
+                          f"{', '.join(map(repr, available)) or 'no presets found'}{hint}")
+    path = PRESETS_DIR / f"{name}.toml"
+    try:
+        preset = tomllib.loads(path.read_text(encoding="utf-8"))
+    except (OSError, tomllib.TOMLDecodeError) as err:
+        raise ConfigError(f"material.preset: cannot read {path}: {err}".replace("\n", " ")) from None
+    extra = set(preset) - {"material"} or set(preset.get("material", {})) - set(_MATERIAL_KEYS)
+    if extra:
+        raise ConfigError(f"material.preset: {path} has {sorted(extra)}; expected only [material] "
+                          f"keys {', '.join(_MATERIAL_KEYS)}")
+    merged = dict(data)
+    merged["material"] = {**preset.get("material", {}), **material}
+    return merged
 
 
 def parse_scenario(data: Mapping[str, Any], *, source: str | None = None) -> Scenario:
@@ -532,7 +675,16 @@ def parse_scenario(data: Mapping[str, Any], *, source: str | None = None) -> Sce
         inconsistent combination, naming the key path.
     """
     values: dict[str, Any] = {}
-    _collect(data, "", values)
+    _collect(_apply_preset(data), "", values)
+    if values.get("field.b_tesla") is not None:  # these keys are derived from the field
+        for path, by in (("lattice.flux", "field.b_tesla"), ("spin.zeeman", "field.b_tesla"),
+                         ("fermi.energy", "field.fermi_mev or field.density_cm2"),
+                         ("fermi.gap", "field.fermi_mev or field.density_cm2")):
+            if path in values and values[path] is not None and (
+                    path.startswith(("lattice", "spin")) or values.get("field.fermi_mev") is not None
+                    or values.get("field.density_cm2") is not None):
+                raise ConfigError(f"{path}: given together with {by}, which sets it; expected only one "
+                                  "of them (remove the lattice-unit key)")
     scenario = _build("", values, source=source)
     _check_combinations(scenario)
     return scenario
@@ -678,3 +830,26 @@ def key_docs() -> list[tuple[str, str, str, str, str]]:
         rows.append((path, kind, key.unit, "unset" if default is None else json.dumps(default),
                      key.doc))
     return rows
+
+
+def lattice_scenario(s: Scenario) -> tuple[Scenario, Derived | None]:
+    """The scenario in lattice units, with what was derived from physical units.
+
+    Without ``field.b_tesla`` the scenario is returned unchanged with None.
+    Otherwise ``lattice.flux``, ``spin.zeeman`` (with spin) and the Fermi level
+    are replaced by the values derived from ``[material]`` and ``[field]``:
+    ``fermi.energy`` from ``field.fermi_mev``, or ``fermi.gap`` = the nearest
+    integer filling from ``field.density_cm2``.
+    """
+    from dataclasses import replace
+
+    if s.field.b_tesla is None:
+        return s, None
+    d = derive_units(s)
+    fermi = s.fermi
+    if d.fermi_t is not None:
+        fermi = FermiConfig(energy=d.fermi_t)
+    elif d.filling is not None:
+        fermi = FermiConfig(gap=max(1, round(d.filling)))
+    spin = replace(s.spin, zeeman=d.zeeman_t) if s.spin.enabled else s.spin
+    return replace(s, lattice=replace(s.lattice, flux=d.flux), spin=spin, fermi=fermi), d

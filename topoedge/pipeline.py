@@ -35,7 +35,8 @@ from . import __version__
 from .bloch import BlochHamiltonian
 from .builders import bulk_builder, model_params, ribbon_builder
 from .chern import ChernResult, Gap, chern_numbers, default_grid, path_bands
-from .config import Scenario
+from .config import Scenario, lattice_scenario
+from .units import Derived
 from .edges import EdgeCount, count_edge_modes
 from .hamiltonian import RibbonHamiltonian
 from .profiles import edge_potential
@@ -65,6 +66,7 @@ class RunResult:
     edges: EdgeCount
     bulk_path: dict
     summary: dict
+    units: Derived | None = None
 
 
 def _params(scenario: Scenario) -> dict:
@@ -140,6 +142,8 @@ def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
         Before the ribbon is computed, when E_F is not in an open bulk gap.
     """
     start = time.perf_counter()
+    given = scenario
+    scenario, units = lattice_scenario(scenario)
     chern, refined, path = bulk_chern(scenario)
     ef, gap = fermi_level(scenario, chern)
     ham, potential = build_ribbon(scenario)
@@ -155,8 +159,8 @@ def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
     )
     edges = count_edge_modes(ham, ef, k_points=scenario.edges.k_points)
     summary = summarize(scenario, spec, potential, chern=chern, refined=refined, ef=ef, gap=gap,
-                        edges=edges, seconds=time.perf_counter() - start)
-    return RunResult(scenario, potential, ham, spec, chern, refined, ef, gap, edges, path, summary)
+                        edges=edges, seconds=time.perf_counter() - start, given=given, units=units)
+    return RunResult(scenario, potential, ham, spec, chern, refined, ef, gap, edges, path, summary, units)
 
 
 def bulk_edge_check(gap: Gap, edges: EdgeCount, *, width: int | None = None) -> dict:
@@ -199,8 +203,13 @@ def _finite(x: float) -> float | None:
 
 
 def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *, chern: ChernResult,
-              refined: ChernResult | None, ef: float, gap: Gap, edges: EdgeCount, seconds: float) -> dict:
+              refined: ChernResult | None, ef: float, gap: Gap, edges: EdgeCount, seconds: float,
+              given: Scenario | None = None, units: Derived | None = None) -> dict:
     """JSON-able summary of a run.
+
+    ``scenario`` is in lattice units; ``given`` (default: the same) is the
+    scenario as written, stored under ``config``; ``units`` holds what was
+    derived from ``[material]`` and ``[field]`` (``units`` key, null without).
 
     Energies are in units of the hopping ``t``. Derived lattice scales use
     the effective-mass limit of the square lattice (``m* = hbar^2 / (2 t a^2)``):
@@ -219,7 +228,9 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
         "topoedge_version": __version__,
         "title": scenario.title,
         "source": scenario.source,
-        "config": scenario.to_dict(),
+        "config": (given or scenario).to_dict(),
+        "units": units.to_dict() if units is not None else None,
+        "warnings": list(units.warnings) if units is not None else [],
         "model": {
             "lattice": "square",
             "flux": f"{lat.flux.numerator}/{lat.flux.denominator}",

@@ -196,9 +196,32 @@ def format_summary(summary: dict) -> str:
     )
     if s["energy_min"] is not None:
         lines.append(f"               energies {s['energy_min']:.5f} .. {s['energy_max']:.5f} t")
+    lines += _units_lines(summary)
     lines += _topology_lines(summary)
     lines.append(f"  time         {summary['seconds']:.2f} s")
     return "\n".join(lines)
+
+
+def _units_lines(summary: dict) -> list[str]:
+    """Quantities derived from [material] and [field], with units."""
+    u = summary.get("units")
+    if not u:
+        return []
+    b = summary["config"]["field"]["b_tesla"]
+    lines = [
+        f"  units        t = {u['hopping_mev']:.4f} meV; B = {b:g} T -> flux {u['flux']} "
+        f"(B used {u['b_used_tesla']:.4f} T, {100 * u['b_relative_error']:+.2f} %)",
+        f"               l_B = {u['magnetic_length_nm']:.3f} nm = {u['magnetic_length_a']:.2f} a, "
+        f"hbar*omega_c = {u['cyclotron_mev']:.4f} meV, |g| mu_B B = {u['zeeman_mev']:.4f} meV, "
+        f"e^2/(eps l_B) = {u['coulomb_mev']:.3f} meV",
+    ]
+    if u["filling"] is not None:
+        lines.append(f"               filling factor nu = n h/(e B) = {u['filling']:.4f}")
+    if u["fermi_t"] is not None:
+        lines.append(f"               E_F = {summary['config']['field']['fermi_mev']:g} meV above the "
+                     f"band bottom = {u['fermi_t']:.5f} t")
+    lines += [f"  warning      {w}" for w in summary.get("warnings", [])]
+    return lines
 
 
 def _signed(n: int) -> str:
