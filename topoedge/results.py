@@ -17,6 +17,9 @@ replaced only when asked to (``force=True``).
 ``/bulk``               bulk bands (energy ranges, Chern numbers, spin +1/-1/0),
                         gaps (bands below, energy range, Chern sum) and the
                         bands along Gamma-X-M-Gamma (``path_*``)
+``/units``              (with ``field.b_tesla``) attributes: t in meV, the flux
+                        used, B used and its relative error, Zeeman, l_B,
+                        hbar*omega_c, Coulomb energy, E_F, filling
 ``/edge_modes``         one entry per crossing of E_F: k, energy, velocity,
                         y, spread, sz and edge (0 bottom, 1 top, 2 bulk)
 ``/config``             group: one attribute per key path of the resolved scenario
@@ -106,6 +109,10 @@ def write_spectrum_h5(path: Path, result: RunResult) -> None:
         modes.create_dataset("edge", data=np.array([{"bottom": 0, "top": 1, "bulk": 2}[s] for _, s in rows], dtype=int))
         modes.attrs["edge_codes"] = "0 = bottom, 1 = top, 2 = bulk"
         f.attrs["fermi_energy"] = result.fermi_energy
+        if result.units is not None:
+            units = f.create_group("units")
+            for key, value in result.units.to_dict().items():
+                units.attrs[key] = json.dumps(value) if value is None or isinstance(value, list) else value
         f.attrs["topoedge_version"] = __version__
         f.attrs["scenario_json"] = json.dumps(config, sort_keys=True)
         f.attrs["solver"] = spec.solver
