@@ -180,3 +180,17 @@ def test_bad_arguments():
     ribbon = kwant.Builder(kwant.TranslationalSymmetry((1, 0)))
     with pytest.raises(TypeError, match="exactly two translation symmetries"):
         BlochHamiltonian.from_kwant(ribbon)
+
+
+def test_divide_and_conquer_failure_falls_back_to_mrrr():
+    # LAPACK's divide-and-conquer eigensolver does not converge on this
+    # Hofstadter Bloch Hamiltonian (flux 3/50 at k = (0, pi/2)) here; the
+    # stack solver must fall back and still return an exact eigensystem.
+    from topoedge._threads import eigh_stack
+
+    bloch = bulk(Fraction(3, 50))
+    hk = bloch.at(np.array([0.0, 0.3]), np.array([np.pi / 2, 0.1]))
+    w, v = eigh_stack(hk)
+    for m, e, vec in zip(hk, w, v):
+        np.testing.assert_allclose(m @ vec, vec * e, rtol=0, atol=1e-12)
+        np.testing.assert_allclose(vec.conj().T @ vec, np.eye(50), rtol=0, atol=1e-12)

@@ -30,12 +30,47 @@ SMALL_MATRIX = 200
 def eigh_stack(h, *, vectors: bool = True):
     """``numpy.linalg.eigh`` (or ``eigvalsh``) over a stack ``(..., n, n)``.
 
-    Small matrices (n <= ``SMALL_MATRIX``) run on one BLAS thread.
+    Small matrices (n <= ``SMALL_MATRIX``) run on one BLAS thread. LAPACK's
+    divide-and-conquer solver, which numpy uses, fails to converge on rare
+    matrices with many degenerate eigenvalues (seen on Hofstadter Bloch
+    Hamiltonians at special momenta); those matrices alone are then solved by
+    the MRRR driver (``scipy.linalg.eigh(driver="evr")``).
     """
     import numpy as np
 
     solve = np.linalg.eigh if vectors else np.linalg.eigvalsh
-    if h.shape[-1] > SMALL_MATRIX:
-        return solve(h)
-    with one_blas_thread():
-        return solve(h)
+    limit = one_blas_thread() if h.shape[-1] <= SMALL_MATRIX else _no_limit()
+    with limit:
+        try:
+            return solve(h)
+        except np.linalg.LinAlgError:
+            return _eigh_one_by_one(h, vectors)
+
+
+class _no_limit:
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        return False
+
+
+def _eigh_one_by_one(h, vectors: bool):
+    import numpy as np
+    import scipy.linalg as sla
+
+    n = h.shape[-1]
+    flat = h.reshape(-1, n, n)
+    w = np.empty(flat.shape[:2])
+    v = np.empty(flat.shape, dtype=np.result_type(flat.dtype, float)) if vectors else None
+    for i, m in enumerate(flat):
+        try:
+            out = np.linalg.eigh(m) if vectors else (np.linalg.eigvalsh(m),)
+        except np.linalg.LinAlgError:
+            out = sla.eigh(m, driver="evr", eigvals_only=not vectors)
+            out = out if vectors else (out,)
+        w[i] = out[0]
+        if vectors:
+            v[i] = out[1]
+    w = w.reshape(h.shape[:-1])
+    return (w, v.reshape(h.shape)) if vectors else w

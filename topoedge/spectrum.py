@@ -159,8 +159,8 @@ def _solve_tridiagonal(ham: RibbonHamiltonian, k, window, observables, progress)
             # All states: LAPACK's divide and conquer (dstevd) is the fastest
             # tridiagonal eigensolver with vectors at ribbon sizes.
             w, v, info = _dstevd(d[i], e_abs[i], compute_v=1)
-            if info != 0:
-                raise np.linalg.LinAlgError(f"tridiagonal eigensolver failed at k = {k[i]} (info {info})")
+            if info != 0:  # rare divide-and-conquer failure: MRRR instead
+                w, v = sla.eigh_tridiagonal(d[i], e_abs[i], lapack_driver="stemr")
         else:
             w, v = sla.eigh_tridiagonal(d[i], e_abs[i], **kwargs)
         vel = dd[i] @ (v * v) + 2 * (de[i] @ (v[:-1] * v[1:]))
