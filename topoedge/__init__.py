@@ -2,7 +2,8 @@
 
 Stages, each in its own module and each using only the ones before it:
 
-0. ``profiles``    -- edge-potential shapes (a leaf: numpy and scipy only).
+0. ``profiles``, ``units`` -- edge-potential shapes and physical units
+   (leaves: numpy and scipy only).
 1. ``config``      -- TOML scenarios validated into frozen dataclasses.
 2. ``builders``    -- kwant ``Builder`` objects (ribbon, bulk) from plain
    arguments; physical parameters go in kwant's ``params``.
@@ -13,7 +14,7 @@ Stages, each in its own module and each using only the ones before it:
 5. ``pipeline``    -- a scenario through stages 2-4, the bulk-edge check and a
    JSON-able summary.
 6. ``results``, ``plotting`` -- files, figures and summaries.
-7. ``cli`` (and ``bench``) -- the ``topoedge`` command line.
+7. ``cli`` (with ``bench`` and ``butterfly``) -- the ``topoedge`` command line.
 """
 
 __version__ = "0.1.0"

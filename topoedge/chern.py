@@ -184,9 +184,15 @@ class ChernResult:
 
 
 def default_grid(bloch: BlochHamiltonian) -> tuple[int, int]:
-    """Grid of reduced momenta: 2 points per band along each direction, at least 12."""
+    """Grid of reduced momenta: the smallest multiple of 2 points per band that is >= 12.
+
+    A multiple of ``2 n`` (``n`` bands per sector) contains the momenta
+    ``k = pi m / n`` where the bands of the square-lattice magnetic cell have
+    their extremes (Chambers' relation), so band energy ranges are exact.
+    """
     n = bloch.size // (2 if bloch.spin_blocks() is not None else 1)
-    size = max(12, 2 * n)
+    step = 2 * max(n, 1)
+    size = step * -(-12 // step)
     return size, size
 
 
@@ -280,7 +286,7 @@ def _refined_gap(bloch, j, k1, k2, gaps):
     d1, d2 = 2 * np.pi / gaps.shape[0], 2 * np.pi / gaps.shape[1]
 
     def gap(x):
-        e = np.linalg.eigvalsh(bloch.at(x[0], x[1]))
+        e = eigh_stack(bloch.at(x[0], x[1]), vectors=False)
         return e[j + 1] - e[j]
 
     start = np.array([k1[i1], k2[i2]])

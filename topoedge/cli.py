@@ -2,6 +2,7 @@
 
 ``topoedge run [CONFIG]``    ribbon spectrum of a scenario, results folder
 ``topoedge bench``           side-by-side timings against kwant
+``topoedge butterfly``       flux-energy spectrum with gap Chern numbers, results folder
 
 Bad input (configuration, overrides, an existing results folder) ends with
 one line on standard error and exit status 2, before anything is written.
@@ -17,7 +18,7 @@ import warnings
 from pathlib import Path
 
 from . import __version__
-from .config import DEFAULT_SCENARIO, ConfigError, load_scenario
+from .config import DEFAULT_SCENARIO, ConfigError, lattice_scenario, load_scenario
 
 EXIT_BAD_INPUT = 2
 
@@ -57,6 +58,24 @@ def _parser() -> argparse.ArgumentParser:
                        help="Chern benchmark at flux 1/q, spinless (default 50)")
     bench.add_argument("--parts", default="ribbon,chern",
                        help="comma-separated benchmarks to run: ribbon, chern (default both)")
+
+    fly = sub.add_parser("butterfly", parents=[common],
+                         help="flux-energy spectrum with every gap labelled by its Chern number")
+    fly.add_argument("config", nargs="?", default=None,
+                     help="scenario TOML file for spin.enabled, spin.zeeman and lattice.onsite "
+                          f"(default: {DEFAULT_SCENARIO.name}; lattice.flux is not used)")
+    fly.add_argument("--q-max", type=int, default=40,
+                     help="largest flux denominator q, 1 to 200 (default 40)")
+    fly.add_argument("--min-gap", type=float, default=0.02,
+                     help="label and draw only gaps wider than this, units of t (default 0.02, "
+                          "about 2 pixels of the figure)")
+    fly.add_argument("--jobs", type=int, default=None,
+                     help="worker processes (default: all cores)")
+    fly.add_argument("--full-grid", action="store_true",
+                     help="Chern numbers on the 2q x 2q grid of the run command instead of 2q x 8 (slower)")
+    fly.add_argument("--out", type=Path, default=None,
+                     help="results folder (default: results/butterfly-<date-time>)")
+    fly.add_argument("--force", action="store_true", help="replace an existing results folder")
     return parser
 
 
@@ -156,6 +175,47 @@ def _cmd_bench(args) -> int:
     return 0
 
 
+def _cmd_butterfly(args) -> int:
+    """Flux-energy spectrum of the scenario's model (spin, Zeeman, on-site) into a results folder."""
+    import math
+
+    from .butterfly import Q_MAX_LIMIT
+
+    if not 1 <= args.q_max <= Q_MAX_LIMIT:
+        raise ConfigError(f"butterfly --q-max: got {args.q_max}; expected an integer from 1 to {Q_MAX_LIMIT}")
+    if not (args.min_gap > 0 and math.isfinite(args.min_gap)):
+        raise ConfigError(f"butterfly --min-gap: got {args.min_gap:g}; expected a finite gap width > 0 (units of t)")
+    if args.jobs is not None and args.jobs < 1:
+        raise ConfigError(f"butterfly --jobs: got {args.jobs}; expected at least 1 worker process")
+    scenario = load_scenario(args.config, args.overrides)
+    if args.out is not None:
+        out = args.out
+    else:
+        base = out = Path("results") / f"butterfly-{time.strftime('%Y%m%d-%H%M%S')}"
+        n = 1
+        while out.exists():
+            n += 1
+            out = base.with_name(f"{base.name}-{n}")
+    from .results import check_destination
+
+    check_destination(out, force=args.force)
+    from .butterfly import butterfly_summary, compute_butterfly, format_butterfly, write_butterfly
+
+    # With [field], the Zeeman splitting (in t) is the one at the scenario's
+    # field, kept the same at every flux of the spectrum.
+    model, _ = lattice_scenario(scenario)
+    result = compute_butterfly(
+        args.q_max, spin=model.spin.enabled, zeeman=model.spin.zeeman, onsite=model.lattice.onsite,
+        jobs=args.jobs, full_grid=args.full_grid, progress=sys.stdout.isatty() and not args.quiet,
+    )
+    summary = butterfly_summary(result, min_gap=args.min_gap, scenario=scenario)
+    write_butterfly(out, result, summary, force=args.force)
+    if args.json:
+        print(json.dumps(summary, indent=2))
+    _say(args, format_butterfly(summary, out))
+    return 0
+
+
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the ``topoedge`` command."""
     args = _parser().parse_args(argv)
@@ -166,7 +226,7 @@ def main(argv: list[str] | None = None) -> int:
     from .results import ResultsExistError
 
     try:
-        return {"run": _cmd_run, "bench": _cmd_bench}[args.command](args)
+        return {"run": _cmd_run, "bench": _cmd_bench, "butterfly": _cmd_butterfly}[args.command](args)
     except (ConfigError, ResultsExistError, GapClosedError) as err:
         print(f"topoedge: error: {err}", file=sys.stderr)
         return EXIT_BAD_INPUT

@@ -277,12 +277,15 @@ class Scenario:
 
         The flux becomes a string "p/q", the edge table a list of lists and
         an unset ``spectrum.window`` is left out, so that
-        ``parse_scenario(s.to_dict()) == s``.
+        ``parse_scenario(s.to_dict()) == s``. With ``field.b_tesla`` the keys
+        it derives (flux, Zeeman, Fermi level) are left out too.
         """
+        derived = ({"lattice.flux", "spin.zeeman", "fermi.energy", "fermi.gap"}
+                   if self.field.b_tesla is not None else set())
         out: dict[str, Any] = {}
         for path in _KEYS:
             value = _plain(_lookup(self, path))
-            if value is not None:
+            if value is not None and path not in derived:
                 *sections, name = path.split(".")
                 table = out
                 for section in sections:
@@ -351,7 +354,7 @@ _KEYS: dict[str, _Key] = {key.path: key for key in (
          "Put E_F mid-gap above the r lowest bulk bands (spin bands included).",
          "an integer number of bands >= 1", lambda r: r >= 1, optional=True),
     _Key("chern.grid", "grid", "-",
-         "Momentum grid [n1, n2] of the link-variable method; unset: 2 points per band, at least 12.",
+         "Momentum grid [n1, n2] of the link-variable method; unset: a multiple of 2 points per band, at least 12.",
          "an array of two integers >= 3", optional=True),
     _Key("chern.gap_min", "float", "t", "Direct gaps below this count as closed.",
          "a gap > 0 in t", _positive),
