@@ -1,0 +1,70 @@
+"""Hall conductance from the density response (Streda route) against TKNN.
+
+Sources: P. Streda, J. Phys. C 15, L717 (1982): sigma_xy = e (dn/dB)_mu;
+on the lattice n_site = s_r + t_r phi inside gap r, with r = q s_r + p t_r and
+|t_r| <= q/2 (Thouless, Kohmoto, Nightingale, den Nijs, PRL 49, 405 (1982)).
+The test solves the Diophantine equation itself.
+"""
+
+from __future__ import annotations
+
+import math
+from fractions import Fraction
+
+import pytest
+
+from topoedge.bloch import BlochHamiltonian
+from topoedge.builders import bulk_builder, model_params
+from topoedge.chern import chern_numbers
+from topoedge.streda import neighbour_fluxes, streda_slope
+
+
+def bulk_factory(*, spin=False, zeeman=0.0):
+    def bulk(phi):
+        return BlochHamiltonian.from_kwant(bulk_builder(phi, spin=spin),
+                                           params=model_params(phi=phi, zeeman=zeeman))
+    return bulk
+
+
+def tknn(p, q, r):
+    (t,) = [t for t in range(-(q // 2), q // 2 + 1) if (r - p * t) % q == 0]
+    return t
+
+
+# q = 2 has no open gap (its two bands touch at E = 0).
+FLUXES = [Fraction(p, q) for q in range(3, 8) for p in range(1, q) if math.gcd(p, q) == 1]
+
+
+@pytest.mark.parametrize("phi", FLUXES, ids=str)
+def test_streda_slope_is_the_tknn_integer(phi):
+    # Every open gap of every flux with q <= 7: d n_site / d phi at fixed E_F
+    # (mid-gap) equals t_r exactly (the densities are exact rationals).
+    bulk = bulk_factory()
+    gaps = chern_numbers(bulk(phi)).gaps
+    assert gaps
+    for gap in gaps:
+        result = streda_slope(bulk, phi, gap.middle)
+        assert result.slope == pytest.approx(tknn(phi.numerator, phi.denominator, gap.below), abs=1e-9)
+        assert abs(result.deviation) < 1e-9
+        assert len(result.points) >= 2
+
+
+def test_spin_split_landau_levels():
+    # Flux 1/20, Zeeman 0.1 t: E_F above the spin-up lowest level gives 1,
+    # above both spins 2 (each filled level adds one state per flux quantum).
+    bulk = bulk_factory(spin=True, zeeman=0.1)
+    gaps = chern_numbers(bulk(Fraction(1, 20))).gaps
+    assert [round(streda_slope(bulk, Fraction(1, 20), g.middle).slope, 9) for g in gaps[:3]] == [1, 2, 3]
+
+
+def test_energy_in_a_band_is_refused():
+    bulk = bulk_factory()
+    with pytest.raises(ValueError, match="is not in a gap at flux 1/3"):
+        streda_slope(bulk, Fraction(1, 3), -2.3)
+
+
+def test_neighbours_are_the_nearest_fractions():
+    # |3/10 - 1/3| = 1/30 and |4/11 - 1/3| = 1/33 are the closest with q <= 12;
+    # near -2/5 with q <= 8: 3/8 (1/40), 3/7 (1/35), 1/3 (1/15), sign kept.
+    assert neighbour_fluxes(Fraction(1, 3), count=2, q_max=12) == [Fraction(3, 10), Fraction(4, 11)]
+    assert neighbour_fluxes(Fraction(-2, 5), count=3, q_max=8) == [Fraction(-3, 7), Fraction(-3, 8), Fraction(-1, 3)]
