@@ -68,3 +68,24 @@ def test_neighbours_are_the_nearest_fractions():
     # near -2/5 with q <= 8: 3/8 (1/40), 3/7 (1/35), 1/3 (1/15), sign kept.
     assert neighbour_fluxes(Fraction(1, 3), count=2, q_max=12) == [Fraction(3, 10), Fraction(4, 11)]
     assert neighbour_fluxes(Fraction(-2, 5), count=3, q_max=8) == [Fraction(-3, 7), Fraction(-3, 8), Fraction(-1, 3)]
+
+
+@pytest.mark.parametrize("flux, gap, expected", [("2/5", 1, -2), ("3/7", 2, 3), ("1/20", 2, 2)],
+                         ids=["2/5-gap1", "3/7-gap2", "1/20-gap2"])
+def test_routes_agree_through_the_pipeline(flux, gap, expected):
+    # Chern sum, bottom-edge chirality and Streda slope: three routes sharing
+    # no code beyond the model give the TKNN integer (PRL 49, 405; Streda 1982).
+    from topoedge.config import parse_scenario
+    from topoedge.pipeline import run_scenario
+
+    q = Fraction(flux).denominator
+    scenario = parse_scenario({
+        "lattice": {"flux": flux}, "spin": {"enabled": False}, "ribbon": {"width": 12 * q + 40},
+        "fermi": {"gap": gap}, "spectrum": {"k_points": 16}, "chern": {"refine": False},
+    })
+    summary = run_scenario(scenario).summary
+    routes = summary["hall"]["routes"]
+    assert routes["chern"] == expected and routes["edge"] == expected
+    assert routes["streda"] == pytest.approx(expected, abs=1e-9)
+    assert abs(routes["streda_deviation"]) < 1e-9 and routes["hallbar"] is None
+    assert summary["check"]["routes_agree"] is True

@@ -8,8 +8,9 @@
    refused when it lies in a bulk band or the gap is closed;
 3. ribbon: builder -> ribbon Hamiltonian -> spectrum, and the edge modes at
    E_F (crossings, velocities, positions, spins);
-4. the bulk-edge check and the Hall response, condensed into a JSON-able
-   summary.
+4. the bulk-edge check and the Hall conductance by independent routes (Chern
+   sum, edge chirality, the Streda slope of the density against the flux),
+   condensed into a JSON-able summary.
 
 The file and figure writers in :mod:`topoedge.results` and
 :mod:`topoedge.plotting` and the command line sit on top of it.
@@ -41,6 +42,7 @@ from .edges import EdgeCount, count_edge_modes
 from .hamiltonian import RibbonHamiltonian
 from .profiles import edge_potential
 from .spectrum import RibbonSpectrum, k_grid, ribbon_spectrum
+from .streda import StredaResult, streda_slope
 
 __all__ = [
     "RunResult", "VON_KLITZING", "build_bulk", "build_ribbon", "bulk_chern", "bulk_edge_check",
@@ -67,6 +69,7 @@ class RunResult:
     bulk_path: dict
     summary: dict
     units: Derived | None = None
+    streda: StredaResult | None = None
 
 
 def _params(scenario: Scenario) -> dict:
@@ -158,9 +161,46 @@ def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
         progress=progress,
     )
     edges = count_edge_modes(ham, ef, k_points=scenario.edges.k_points)
+    streda, streda_error = streda_route(scenario, ef)
     summary = summarize(scenario, spec, potential, chern=chern, refined=refined, ef=ef, gap=gap,
-                        edges=edges, seconds=time.perf_counter() - start, given=given, units=units)
-    return RunResult(scenario, potential, ham, spec, chern, refined, ef, gap, edges, path, summary, units)
+                        edges=edges, seconds=time.perf_counter() - start, given=given, units=units,
+                        streda=streda, streda_error=streda_error)
+    return RunResult(scenario, potential, ham, spec, chern, refined, ef, gap, edges, path, summary, units,
+                     streda)
+
+
+def streda_route(scenario: Scenario, ef: float) -> tuple[StredaResult | None, str | None]:
+    """Hall conductance from the density response at fixed E_F, or why not."""
+    from dataclasses import replace
+
+    def bulk(phi):
+        return build_bulk(replace(scenario, lattice=replace(scenario.lattice, flux=phi)))
+
+    try:
+        return streda_slope(bulk, scenario.lattice.flux, ef), None
+    except ValueError as err:
+        return None, str(err)
+
+
+def hall_routes(gap: Gap, edges: EdgeCount, streda: StredaResult | None) -> dict:
+    """The Hall conductance (e^2/h) by every route computed, and their agreement.
+
+    ``chern``: Chern sum below E_F (link variables); ``edge``: net chirality of
+    the bottom edge (null when E_F is not in a gap of the ribbon); ``streda``:
+    the measured slope ``d n_site / d phi`` with its deviation from the nearest
+    integer; ``hallbar``: transport of a finite Hall bar (not computed yet).
+    """
+    routes = {
+        "chern": gap.chern,
+        "edge": edges.bottom.net if edges.in_gap else None,
+        "streda": streda.slope if streda is not None else None,
+        "streda_deviation": streda.deviation if streda is not None else None,
+        "hallbar": None,
+        "hallbar_deviation": None,
+    }
+    values = [v for v in (routes["edge"], routes["streda"]) if v is not None]
+    routes_agree = all(abs(v - gap.chern) < 1e-6 for v in values) and routes["edge"] is not None
+    return {"routes": routes, "routes_agree": routes_agree}
 
 
 def bulk_edge_check(gap: Gap, edges: EdgeCount, *, width: int | None = None) -> dict:
@@ -204,7 +244,8 @@ def _finite(x: float) -> float | None:
 
 def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *, chern: ChernResult,
               refined: ChernResult | None, ef: float, gap: Gap, edges: EdgeCount, seconds: float,
-              given: Scenario | None = None, units: Derived | None = None) -> dict:
+              given: Scenario | None = None, units: Derived | None = None,
+              streda: StredaResult | None = None, streda_error: str | None = None) -> dict:
     """JSON-able summary of a run.
 
     ``scenario`` is in lattice units; ``given`` (default: the same) is the
@@ -224,6 +265,7 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
     if refined is not None:
         converged = [(g.below, g.chern) for g in chern.gaps] == [(g.below, g.chern) for g in refined.gaps]
     c = gap.chern
+    routes = hall_routes(gap, edges, streda)
     return {
         "topoedge_version": __version__,
         "title": scenario.title,
@@ -280,7 +322,11 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
             "sigma_xy_siemens": c / VON_KLITZING,
             "r_xy_ohm": VON_KLITZING / c if c else None,
             "units": "sigma_xy in e^2/h; r_xy_ohm = h/(C e^2), null for C = 0",
+            "routes": routes["routes"],
+            "streda": streda.to_dict() if streda is not None else None,
+            "streda_error": streda_error,
         },
-        "check": bulk_edge_check(gap, edges, width=scenario.ribbon.width),
+        "check": {**bulk_edge_check(gap, edges, width=scenario.ribbon.width),
+                  "routes_agree": routes["routes_agree"]},
         "seconds": round(seconds, 3),
     }

@@ -270,6 +270,13 @@ def _topology_lines(summary: dict) -> list[str]:
         lines.append(f"  warning      {e['message']}")
     r_xy = "infinite (C = 0)" if h["r_xy_ohm"] is None else f"{h['r_xy_ohm']:.3f} ohm"
     lines.append(f"  Hall         sigma_xy = {h['sigma_xy']} e^2/h, R_xy = {r_xy}")
+    r = h["routes"]
+    streda = ("n/a" if r["streda"] is None
+              else f"{r['streda']:.6f} (off integer by {r['streda_deviation']:.1e})")
+    lines.append(f"  routes       Chern {r['chern']}, edge {r['edge']}, Streda {streda}; "
+                 f"agree: {'yes' if c['routes_agree'] else 'NO'}")
+    if h.get("streda_error"):
+        lines.append(f"               Streda: {h['streda_error']}")
     agree = "yes" if c["bulk_edge_agree"] else "NO"
     if c["spin_resolved_agree"] is not None:
         agree += f" (per spin: {'yes' if c['spin_resolved_agree'] else 'NO'})"

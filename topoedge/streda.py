@@ -41,6 +41,7 @@ import numpy as np
 
 from ._threads import eigh_stack
 from .bloch import BlochHamiltonian
+from .chern import _uniform_shift
 
 __all__ = ["StredaPoint", "StredaResult", "states_below", "streda_slope", "neighbour_fluxes"]
 
@@ -63,7 +64,7 @@ class StredaResult:
     deviation: float        # slope minus the nearest integer
     intercept: float
     points: tuple[StredaPoint, ...]     # the fluxes used, sorted
-    rejected: tuple[StredaPoint, ...]   # fluxes where the gap had closed (E_F in a band)
+    rejected: tuple[StredaPoint, ...]   # fluxes with E_F in a band or in another gap
 
     def to_dict(self) -> dict:
         return {
@@ -97,9 +98,20 @@ def states_below(bloch: BlochHamiltonian, fermi_energy: float, *, flux: Fraction
     """
     sites = _sites(bloch)
     n1 = 2 * sites * -(-6 // sites)        # multiple of 2q, >= 12: contains k1 = pi m / q
-    _, _, hk = bloch.grid(n1, 8)           # even: contains k2 = 0 and pi
-    energies = eigh_stack(hk, vectors=False).reshape(-1, bloch.size)
-    lo, hi = energies.min(axis=0), energies.max(axis=0)
+    blocks = bloch.spin_blocks() or [np.arange(bloch.size)]
+    lo, hi, previous = [], [], None
+    for idx in blocks:                     # spin sectors separately: smaller matrices
+        part = bloch.block(idx)
+        shift = _uniform_shift(previous[0], part) if previous is not None else None
+        if shift is None:
+            _, _, hk = part.grid(n1, 8)    # n2 = 8 is even: contains k2 = 0 and pi
+            energies = eigh_stack(hk, vectors=False).reshape(-1, len(idx))
+            previous = (part, energies)
+        else:                              # the other spin shifted by a uniform Zeeman term
+            energies = previous[1] + shift
+        lo.append(energies.min(axis=0))
+        hi.append(energies.max(axis=0))
+    lo, hi = np.concatenate(lo), np.concatenate(hi)
     inside = (lo - tol <= fermi_energy) & (fermi_energy <= hi + tol)
     below = int(np.sum(hi < fermi_energy))
     gap = None
@@ -153,7 +165,8 @@ def streda_slope(
     neighbours : int
         How many nearby fluxes to try (see :func:`neighbour_fluxes`).
     q_max : int, optional
-        Largest denominator of the nearby fluxes.
+        Largest denominator of the nearby fluxes; by default ``max(2 q, 12)``,
+        then ``max(4 q, 16)`` if the gap closes before any of those.
 
     Returns
     -------
@@ -168,6 +181,15 @@ def streda_slope(
     centre = states_below(bulk(flux), fermi_energy, flux=flux)
     if centre.gap is None:
         raise ValueError(f"E_F = {fermi_energy:.6g} t is not in a gap at flux {flux}; the Streda route needs one")
+    if q_max is None:  # nearby fluxes with small denominators first, then finer ones
+        try:
+            return _slope(bulk, flux, fermi_energy, centre, neighbours, max(2 * flux.denominator, 12))
+        except ValueError:
+            q_max = max(4 * flux.denominator, 16)
+    return _slope(bulk, flux, fermi_energy, centre, neighbours, q_max)
+
+
+def _slope(bulk, flux, fermi_energy, centre, neighbours, q_max) -> StredaResult:
     points, rejected = [centre], []
     # Nearest fluxes first. The gap must stay open from the centre to a
     # neighbour: on each side, the first flux with E_F in a band ends that
@@ -188,6 +210,14 @@ def streda_slope(
     if len(points) < 2:
         raise ValueError(f"the gap containing E_F = {fermi_energy:.6g} t at flux {flux} closes before the "
                          "nearest other flux; the Streda slope needs at least two fluxes in the same gap")
+    # A flux can still put E_F in another gap when the fluxes between were not
+    # sampled: keep the neighbours that share the most common slope to the
+    # centre (ties: the one of the nearest neighbour).
+    near = sorted(points[1:], key=lambda p: abs(p.flux - flux))
+    pair = [round((p.density - centre.density) / float(p.flux - flux), 6) for p in near]
+    common = max(pair, key=lambda v: (pair.count(v), -pair.index(v)))
+    rejected += [p for p, v in zip(near, pair) if v != common]
+    points = [centre] + [p for p, v in zip(near, pair) if v == common]
     points.sort(key=lambda p: p.flux)
     x = np.array([float(p.flux) for p in points])
     y = np.array([p.density for p in points])
