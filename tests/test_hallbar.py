@@ -1,0 +1,175 @@
+"""Six-terminal Hall bar: quantised R_xy and vanishing R_xx (topoedge.hallbar)."""
+
+import warnings
+from fractions import Fraction
+
+import numpy as np
+import pytest
+import scipy.constants as const
+
+with warnings.catch_warnings():
+    warnings.simplefilter("ignore", RuntimeWarning)  # kwant: MUMPS absent, SciPy solver used
+    import kwant  # noqa: F401
+
+from topoedge.bloch import BlochHamiltonian
+from topoedge.builders import bulk_builder, model_params
+from topoedge.chern import chern_numbers
+from topoedge.hallbar import (
+    disorder_average, hall_resistances, hallbar_builder, hallbar_params,
+)
+from topoedge.pipeline import VON_KLITZING
+from topoedge.profiles import EDGE_PROFILES
+
+PHI = Fraction(1, 10)           # magnetic length sqrt(1 / (2 pi phi)) = 1.26 a
+ZEEMAN = 0.1                    # units of t
+GEOMETRY = dict(lead_width=24, probe_positions=(12, 32), probe_width=6)
+
+
+def _gaps(spin, zeeman=0.0):
+    bloch = BlochHamiltonian.from_kwant(bulk_builder(PHI, spin=spin),
+                                        params=model_params(phi=PHI, zeeman=zeeman))
+    return chern_numbers(bloch).gaps
+
+
+@pytest.fixture(scope="module")
+def spinless():
+    return hallbar_builder(50, 24, spin=False, **GEOMETRY).finalized()
+
+
+@pytest.fixture(scope="module")
+def spinless_gaps():
+    return _gaps(False)
+
+
+def test_von_klitzing_constant():
+    # Source: 2019 SI, h and e exact; R_K = h/e^2 = 25812.80745... ohm (CODATA, scipy.constants).
+    assert VON_KLITZING == pytest.approx(const.h / const.e**2, rel=1e-15)
+    assert VON_KLITZING == pytest.approx(25812.80745930, rel=1e-12)
+
+
+def test_gauge_plaquette_phase(spinless):
+    # Source: topoedge.builders convention, counter-clockwise plaquette phase +2 pi phi
+    # (Peierls substitution, Hofstadter PRB 14, 2239 (1976)); checked in the bar and in a lead.
+    params = hallbar_params(spinless, dict(phi=float(PHI)))
+    lat = spinless.sites[0].family
+    for x, y in [(10, 10), (0, 0), (48, 22)]:
+        a, b, c, d = lat(x, y), lat(x + 1, y), lat(x + 1, y + 1), lat(x, y + 1)
+        p = params["peierls"]
+        loop = p(b, a) * p(c, b) * p(d, c) * p(a, d)
+        assert np.angle(loop) == pytest.approx(2 * np.pi * float(PHI), abs=1e-10)
+    lead = spinless.leads[3]
+    a, b = lead.sites[0], lead.sites[1]
+    assert abs(params["peierls_lead3"](a, b)) == pytest.approx(1.0)
+
+
+@pytest.mark.parametrize("nu", [1, 2], ids=["nu1", "nu2"])
+def test_clean_plateau_spinless(spinless, spinless_gaps, nu):
+    # Source: Buttiker PRB 38, 9375 (1988): ideal edge channels give R_xy = h/(nu e^2), R_xx = 0;
+    # nu = bulk Chern sum (TKNN, PRL 49, 405 (1982)) of the gap at E_F.
+    gap = spinless_gaps[nu - 1]
+    assert gap.chern == nu
+    r = hall_resistances(spinless, gap.middle, dict(phi=float(PHI)))
+    assert abs(r.r_xy) == pytest.approx(1 / nu, rel=1e-6)
+    assert abs(r.r_xy_ohm) == pytest.approx(VON_KLITZING / nu, rel=1e-6)
+    assert abs(r.r_xx) < 1e-6
+    assert list(r.modes) == [nu] * 6
+
+
+@pytest.mark.parametrize("nu", [1, 2], ids=["nu1", "nu2"])
+def test_clean_plateau_zeeman_split(nu):
+    # Source: Buttiker PRB 38, 9375 (1988); Zeeman-split lowest Landau level: spin up (shifted by
+    # -zeeman/2) fills first, so nu = 1 in the Zeeman gap and nu = 2 above the level.
+    gaps = _gaps(True, ZEEMAN)
+    gap = gaps[nu - 1]
+    assert gap.chern == nu
+    fsyst = hallbar_builder(44, 20, spin=True, lead_width=20, probe_positions=(10, 28),
+                            probe_width=6).finalized()
+    r = hall_resistances(fsyst, gap.middle, dict(phi=float(PHI), zeeman=ZEEMAN))
+    assert abs(r.r_xy) == pytest.approx(1 / nu, rel=1e-6)
+    assert abs(r.r_xx) < 1e-6
+
+
+def test_disorder_keeps_plateau(spinless, spinless_gaps):
+    # Source: Buttiker PRB 38, 9375 (1988): no backscattering between separated edges; Anderson
+    # disorder W = 0.5 t (PR 109, 1492 (1958)) well inside the nu = 2 gap (about 0.9 t wide).
+    gap = spinless_gaps[1]
+    avg = disorder_average(spinless, gap.middle, dict(phi=float(PHI), disorder=0.5), seeds=range(3))
+    assert abs(avg.r_xy) == pytest.approx(0.5, rel=1e-3)
+    assert abs(avg.r_xx) < 1e-3
+    assert len(avg.samples) == 3 and avg.r_xy_sem >= 0
+
+
+def test_disorder_seeds_differ_and_repeat(spinless):
+    # Source: seeded numpy Generator: the same seed repeats, another seed changes the sample.
+    params = dict(phi=float(PHI), disorder=1.0)
+    e = -2.3
+    r1 = hall_resistances(spinless, e, {**params, "seed": 1})
+    r1b = hall_resistances(spinless, e, {**params, "seed": 1})
+    r2 = hall_resistances(spinless, e, {**params, "seed": 2})
+    assert r1.r_xx == r1b.r_xx
+    assert r1.r_xx != r2.r_xx
+
+
+def test_plateau_transition_has_longitudinal_resistance(spinless):
+    # Source: Buttiker PRB 38, 9375 (1988): inside a (disorder-broadened) Landau level the bulk
+    # conducts and backscatters, so R_xx > 0; measured 0.06 .. 0.24 h/e^2 at W = 1 t, seed 1.
+    params = dict(phi=float(PHI), disorder=1.0, seed=1)
+    rxx = [hall_resistances(spinless, e, params).r_xx for e in (-2.4, -2.3, -2.25)]
+    assert max(abs(v) for v in rxx) > 1e-2
+
+
+def test_field_reversal_flips_hall_sign(spinless, spinless_gaps):
+    # Source: Onsager reciprocity, R_xy(B) = -R_xy(-B) for this probe pair (Buttiker PRL 57, 1761
+    # (1986)); sign convention of topoedge.hallbar: phi > 0 gives R_xy < 0 with leads (1, 5).
+    e = spinless_gaps[0].middle
+    plus = hall_resistances(spinless, e, dict(phi=float(PHI)))
+    minus = hall_resistances(spinless, e, dict(phi=-float(PHI)))
+    assert plus.r_xy == pytest.approx(-1.0, rel=1e-6)
+    assert minus.r_xy == pytest.approx(1.0, rel=1e-6)
+
+
+def test_edge_potential_keeps_plateau(spinless_gaps):
+    # Source: Buttiker PRB 38, 9375 (1988): a smooth confinement moves the edge channels but not
+    # the quantisation; linear ramp of topoedge.profiles, 2 sites, height 1 t.
+    def pot(d):
+        return EDGE_PROFILES["linear"](d, width=2.0, height=1.0, table=())
+
+    fsyst = hallbar_builder(50, 24, spin=False, potential=pot, **GEOMETRY).finalized()
+    r = hall_resistances(fsyst, spinless_gaps[1].middle, dict(phi=float(PHI)))
+    assert abs(r.r_xy) == pytest.approx(0.5, rel=1e-6)
+    assert abs(r.r_xx) < 1e-6
+
+
+def test_bar_narrower_than_potential():
+    # Source: topoedge.profiles: the bulk must be flat between the two edge ramps.
+    def pot(d):
+        return EDGE_PROFILES["linear"](d, width=10.0, height=1.0, table=())
+
+    with pytest.raises(ValueError, match="narrower than the edge potential"):
+        hallbar_builder(50, 12, spin=False, lead_width=12, probe_positions=(10, 30),
+                        probe_width=12, potential=pot)
+
+
+def test_lead_wider_than_bar():
+    # Source: geometry of the six-terminal bar (module docstring).
+    with pytest.raises(ValueError, match="wider than the bar"):
+        hallbar_builder(50, 20, spin=False, lead_width=24, probe_positions=(10, 30))
+
+
+def test_probes_must_fit():
+    # Source: geometry of the six-terminal bar (module docstring).
+    with pytest.raises(ValueError, match="must fit in the bar"):
+        hallbar_builder(50, 20, spin=False, lead_width=20, probe_positions=(10, 12), probe_width=6)
+
+
+def test_energy_outside_lead_bands(spinless):
+    # Source: Landauer-Buttiker: a lead without open channels makes G singular; square-lattice
+    # bands lie in [-4t, 4t], so E_F = -4.5 t has no channel anywhere.
+    with pytest.raises(ValueError, match="no open channel"):
+        hall_resistances(spinless, -4.5, dict(phi=float(PHI)))
+
+
+def test_missing_phi(spinless):
+    # Source: topoedge.hallbar.hallbar_params contract.
+    with pytest.raises(ValueError, match="must contain 'phi'"):
+        hall_resistances(spinless, -2.0, dict(t=1.0))

@@ -1,0 +1,527 @@
+"""Six-terminal Hall bar and its Landauer-Buttiker resistances (model + solver).
+
+The Hall bar is a ``length x width`` rectangle of the square lattice (sites
+``x = 0 .. length-1``, ``y = 0 .. width-1``, lattice constant ``a = 1``) with
+six semi-infinite leads::
+
+            1 (top left)    2 (top right)
+             |  |            |  |
+      0  ====+--+------------+--+====  3
+   (source)  |                  |   (drain)
+      ====  -+--+------------+--+-  ====
+             |  |            |  |
+            5 (bottom left) 4 (bottom right)
+
+Lead numbering: 0 source (left, along ``-x``), 1 and 2 the top probes from
+left to right (along ``+y``), 3 drain (right, along ``+x``), 4 and 5 the
+bottom probes from right to left (along ``-y``); i.e. clockwise from the
+source. The source and drain are ``lead_width`` rows wide, centred on the
+bar; the probes are ``probe_width`` columns wide and start at the columns
+``probe_positions``.
+
+Magnetic field. The leads carry the same uniform field as the bar: the
+Peierls phases come from :class:`kwant.physics.magnetic_gauge` applied to the
+finalized system, which returns one phase function for the scattering region
+and one per lead. kwant's gauge gives a loop enclosing the field value ``B``
+times its area the phase ``exp(i pi B area)`` with the opposite orientation
+to ours, so :func:`hallbar_params` passes ``B = -2 phi``: then the
+counter-clockwise plaquette phase of the factors of ``H[i, j]`` is
+``+2 pi phi`` with ``phi`` the flux per plaquette in ``h/e``, the convention
+of :mod:`topoedge.builders` (``H[i, j] = -t exp(i theta_ij)``); the tests
+check it.
+
+Parameters of the value functions (kwant ``params``, see
+:func:`hallbar_params`): ``t`` (hopping, the energy unit), ``phi`` (flux per
+plaquette in ``h/e``), ``zeeman`` (splitting in units of ``t``; spin up is
+shifted by ``-zeeman/2``), ``onsite`` (uniform energy, ``t``), ``disorder``
+(Anderson disorder strength ``W_dis`` in ``t``: every site of the scattering
+region, not the leads, gets ``W_dis * u`` with ``u`` uniform in
+``[-1/2, 1/2)``, spin-independent) and ``seed`` (seed of the
+:func:`numpy.random.default_rng` generator drawing ``u``).
+
+References
+----------
+.. [1] M. Buttiker, "Four-terminal phase-coherent conductance", Phys. Rev.
+   Lett. 57, 1761 (1986).
+.. [2] M. Buttiker, "Absence of backscattering in the quantum Hall effect in
+   multiprobe conductors", Phys. Rev. B 38, 9375 (1988).
+.. [3] D. R. Hofstadter, Phys. Rev. B 14, 2239 (1976).
+.. [4] P. W. Anderson, "Absence of diffusion in certain random lattices",
+   Phys. Rev. 109, 1492 (1958).
+"""
+
+from __future__ import annotations
+
+import warnings
+import weakref
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+from functools import lru_cache
+
+import kwant
+import numpy as np
+from scipy.spatial import cKDTree
+
+from .builders import square_lattice
+from .pipeline import VON_KLITZING
+
+__all__ = [
+    "LEAD_NAMES", "HallResult", "AveragedHall",
+    "hallbar_builder", "hallbar_params", "hall_resistances", "disorder_average",
+]
+
+#: Lead index -> role, clockwise from the source.
+LEAD_NAMES = ("source", "top left", "top right", "drain", "bottom right", "bottom left")
+
+_PAULI_Z = np.diag([1.0, -1.0])
+#: The edge potential at the centre of the bar (or of a lead) must have decayed
+#: below this fraction of its largest value.
+_FLAT_FRACTION = 1e-2
+
+
+# --------------------------------------------------------------------- geometry
+def _strips(length, width, lead_rows, probe_cols):
+    """Membership test of the infinite shape: bar plus all lead strips."""
+    y0, y1 = lead_rows
+
+    def inside(x, y):
+        bar = (x >= 0) & (x < length) & (y >= 0) & (y < width)
+        ends = ((x < 0) | (x >= length)) & (y >= y0) & (y < y1)
+        probes = np.zeros_like(bar)
+        for c0, c1 in probe_cols:
+            probes |= ((y < 0) | (y >= width)) & (x >= c0) & (x < c1)
+        return bar | ends | probes
+
+    return inside
+
+
+def _bar_distances(length, width, lead_rows, probe_cols):
+    """Distance of every bar site to the nearest boundary row, in ``a``.
+
+    The boundary is the edge of the infinite shape (bar plus lead strips):
+    the distance is the Euclidean distance to the nearest lattice point
+    outside the shape minus one, so the outermost row has distance 0, as in
+    :mod:`topoedge.profiles`. Lead interfaces are not boundaries.
+    """
+    inside = _strips(length, width, lead_rows, probe_cols)
+    m = width + 2
+    gx, gy = np.meshgrid(np.arange(-m, length + m), np.arange(-m, width + m), indexing="ij")
+    walls = np.column_stack([gx[~inside(gx, gy)], gy[~inside(gx, gy)]])
+    bx, by = np.meshgrid(np.arange(length), np.arange(width), indexing="ij")
+    dist, _ = cKDTree(walls).query(np.column_stack([bx.ravel(), by.ravel()]))
+    return (dist - 1.0).reshape(length, width)
+
+
+def _check_flat(potential, span, what):
+    """Raise if the edge potential has not decayed in the middle of ``span`` rows."""
+    d = np.arange(span, dtype=float)
+    values = np.abs(np.asarray(potential(np.minimum(d, span - 1 - d)), dtype=float))
+    edge = float(np.abs(potential(np.array([0.0]))[0]))
+    centre = float(values.min()) if values.size else 0.0
+    if edge > 0 and centre > _FLAT_FRACTION * edge:
+        raise ValueError(
+            f"the {what} ({span} sites) is narrower than the edge potential: at its centre the "
+            f"potential is still {centre:.3g} t (edge value {edge:.3g} t, at most "
+            f"{_FLAT_FRACTION:g} of it is allowed); widen the {what} or shorten the ramp"
+        )
+
+
+# --------------------------------------------------------------------- builder
+def hallbar_builder(
+    length: int,
+    width: int,
+    *,
+    lead_width: int,
+    probe_positions: Sequence[int],
+    spin: bool = True,
+    potential: Callable[[np.ndarray], np.ndarray] | None = None,
+    probe_width: int | None = None,
+) -> kwant.Builder:
+    """Six-terminal Hall bar of the Hofstadter model with its leads attached.
+
+    Parameters
+    ----------
+    length, width : int
+        Size of the rectangle in sites along ``x`` and ``y``.
+    lead_width : int
+        Rows of the source (lead 0) and drain (lead 3), centred on the bar;
+        ``lead_width = width`` spans the full width.
+    probe_positions : (2,) sequence of int
+        First column ``x`` of the left and right voltage probe; the top
+        (leads 1, 2) and bottom (leads 5, 4) probes sit at the same columns.
+    spin : bool
+        Two orbitals per site (spin up, spin down) if True.
+    potential : callable, optional
+        Edge potential ``f(d)`` in units of ``t`` of the distance ``d`` (in
+        lattice constants, ``d = 0`` on the outermost row; an ndarray is
+        passed) of a site to the nearest boundary of the bar and its leads,
+        e.g. ``lambda d: topoedge.profiles.EDGE_PROFILES["linear"](d,
+        width=3, height=1, table=())``. In the leads ``d`` is the distance to
+        the lead's own side walls, so the leads are uniform along their axis.
+    probe_width : int, optional
+        Columns of each voltage probe; ``max(1, lead_width // 4)`` if omitted.
+
+    Returns
+    -------
+    kwant.Builder
+        The scattering region with leads ``0 .. 5`` attached (numbering in the
+        module docstring). Hoppings take the parameters ``t`` and
+        ``peierls`` (``peierls_lead{i}`` in lead ``i``), filled in by
+        :func:`hallbar_params`; on-site terms take ``onsite``, ``zeeman``,
+        ``disorder`` and ``seed``.
+
+    Raises
+    ------
+    ValueError
+        If a size is below 1, a lead or probe is wider than the bar, the
+        probes overlap or leave the bar, or the bar or a lead is narrower
+        than the edge potential.
+
+    References
+    ----------
+    .. [1] M. Buttiker, Phys. Rev. Lett. 57, 1761 (1986) (multi-terminal
+       Hall bar).
+    """
+    length, width, lead_width = int(length), int(width), int(lead_width)
+    if length < 1 or width < 1 or lead_width < 1:
+        raise ValueError(
+            f"length, width and lead_width must be at least 1 site, got {length}, {width}, {lead_width}"
+        )
+    if lead_width > width:
+        raise ValueError(
+            f"lead_width = {lead_width} sites is wider than the bar (width = {width} sites); "
+            f"use lead_width <= width"
+        )
+    pw = max(1, lead_width // 4) if probe_width is None else int(probe_width)
+    if pw < 1:
+        raise ValueError(f"probe_width must be at least 1 site, got {pw}")
+    if len(probe_positions) != 2:
+        raise ValueError(f"probe_positions needs two columns (left, right probe), got {probe_positions!r}")
+    xa, xb = (int(x) for x in probe_positions)
+    if not (0 <= xa and xa + pw <= xb and xb + pw <= length):
+        raise ValueError(
+            f"probes of {pw} columns at x = {xa}, {xb} must fit in the bar (0 .. {length - 1}) "
+            f"without overlapping: need 0 <= {xa}, {xa} + {pw} <= {xb} and {xb} + {pw} <= {length}"
+        )
+    if potential is not None:
+        _check_flat(potential, width, "bar")
+        _check_flat(potential, lead_width, "source/drain lead")
+        _check_flat(potential, pw, "voltage probe")
+
+    y0 = (width - lead_width) // 2
+    lead_rows = (y0, y0 + lead_width)
+    probe_cols = [(xa, xa + pw), (xb, xb + pw)]
+    v_bar = None
+    if potential is not None:
+        dist = _bar_distances(length, width, lead_rows, probe_cols)
+        v_bar = np.asarray(potential(dist), dtype=float).reshape(length, width)
+
+    lat = square_lattice(spin=spin)
+    unit = np.eye(2) if spin else 1.0
+
+    @lru_cache(maxsize=8)
+    def _draws(seed):
+        return np.random.default_rng(seed).uniform(-0.5, 0.5, size=(length, width))
+
+    def _spin_part(value, zeeman):
+        if spin:
+            return value * np.eye(2) - 0.5 * zeeman * _PAULI_Z
+        return value
+
+    def onsite_bar(site, onsite, zeeman, disorder, seed):
+        x, y = (int(round(c)) for c in site.pos)
+        value = onsite
+        if 0 <= x < length and 0 <= y < width:
+            if v_bar is not None:
+                value = value + v_bar[x, y]
+            if disorder:
+                value = value + disorder * _draws(int(seed))[x, y]
+        return _spin_part(value, zeeman)
+
+    def hop_bar(site_a, site_b, t, peierls):
+        return -t * peierls(site_a, site_b) * unit
+
+    syst = kwant.Builder()
+    syst[(lat(x, y) for x in range(length) for y in range(width))] = onsite_bar
+    syst[lat.neighbors()] = hop_bar
+
+    def lead(direction, sites, transverse, lo, span, index):
+        """One lead; ``transverse(site)`` is the coordinate across it."""
+        def onsite_lead(site, onsite, zeeman):
+            value = onsite
+            if potential is not None:
+                d = transverse(site) - lo
+                value = value + float(np.asarray(potential(np.array([min(d, span - 1 - d)], float)))[0])
+            return _spin_part(value, zeeman)
+
+        builder = kwant.Builder(kwant.TranslationalSymmetry(direction))
+        builder[sites] = onsite_lead
+        builder[lat.neighbors()] = hop_bar
+        # Every lead needs its own phase function: rename the parameter.
+        return builder.substituted(peierls=f"peierls_lead{index}")
+
+    rows = [lat(0, y) for y in range(*lead_rows)]
+
+    def cols(c0):
+        return [lat(x, 0) for x in range(c0, c0 + pw)]
+
+    ty = lambda s: int(round(s.pos[1]))  # noqa: E731
+    tx = lambda s: int(round(s.pos[0]))  # noqa: E731
+    leads = [
+        ((-1, 0), rows, ty, y0, lead_width),      # 0 source
+        ((0, 1), cols(xa), tx, xa, pw),           # 1 top left
+        ((0, 1), cols(xb), tx, xb, pw),           # 2 top right
+        ((1, 0), rows, ty, y0, lead_width),       # 3 drain
+        ((0, -1), cols(xb), tx, xb, pw),          # 4 bottom right
+        ((0, -1), cols(xa), tx, xa, pw),          # 5 bottom left
+    ]
+    for index, (direction, sites, transverse, lo, span) in enumerate(leads):
+        syst.attach_lead(lead(direction, sites, transverse, lo, span, index))
+    return syst
+
+
+# --------------------------------------------------------------------- params
+_GAUGES: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+
+
+def _gauge(fsyst):
+    """The (cached) ``magnetic_gauge`` of a finalized Hall bar."""
+    try:
+        return _GAUGES[fsyst]
+    except (KeyError, TypeError):
+        pass
+    gauge = kwant.physics.magnetic_gauge(fsyst)
+    try:
+        _GAUGES[fsyst] = gauge
+    except TypeError:
+        pass
+    return gauge
+
+
+def hallbar_params(fsyst, params: dict) -> dict:
+    """Complete ``params`` for a finalized Hall bar with the Peierls phases.
+
+    Parameters
+    ----------
+    fsyst : kwant.system.FiniteSystem
+        ``hallbar_builder(...).finalized()``.
+    params : dict
+        ``phi`` (flux per plaquette in ``h/e``, required), ``t`` (default
+        1), ``onsite``, ``zeeman``, ``disorder`` (units of ``t``, default 0)
+        and ``seed`` (default 0).
+
+    Returns
+    -------
+    dict
+        ``params`` plus ``peierls`` and ``peierls_lead0 .. peierls_lead5``
+        from :class:`kwant.physics.magnetic_gauge` with the uniform field
+        flux ``phi`` per plaquette (``h/e``) in the bar and every lead.
+
+    Raises
+    ------
+    ValueError
+        If ``phi`` is missing, or ``fsyst`` is not finalized.
+
+    Notes
+    -----
+    kwant's gauge gives the hopping ``(a, b)`` (matrix element ``H[a, b]``)
+    the factor ``peierls(a, b)``; the phases around a counter-clockwise
+    plaquette sum to ``+2 pi phi``, the convention of
+    :mod:`topoedge.builders` (checked in the tests).
+
+    References
+    ----------
+    .. [1] R. Peierls, Z. Phys. 80, 763 (1933).
+    """
+    if isinstance(fsyst, kwant.Builder):
+        raise ValueError("hallbar_params needs a finalized system: call hallbar_builder(...).finalized() first")
+    if "phi" not in params:
+        raise ValueError("params must contain 'phi', the flux per plaquette in flux quanta h/e")
+    full = dict(t=1.0, onsite=0.0, zeeman=0.0, disorder=0.0, seed=0)
+    full.update(params)
+    phi = float(full.pop("phi"))
+    # kwant's gauge gives a loop the phase exp(i pi Phi) for the field Phi in
+    # its units, and the counter-clockwise loop of H[i, j] factors picks up
+    # -pi Phi: the flux phi per plaquette (in h/e, phase +2 pi phi) is the
+    # field -2 phi in kwant's units (checked in tests/test_hallbar.py).
+    field = -2.0 * phi
+    with warnings.catch_warnings():
+        # kwant 1.5 calls np.cross on 2D vectors, deprecated in NumPy 2 (harmless here).
+        warnings.filterwarnings("ignore", "Arrays of 2-dimensional vectors", DeprecationWarning)
+        phases = _gauge(fsyst)(field, *([field] * len(fsyst.leads)))
+    full["peierls"] = phases[0]
+    for i, phase in enumerate(phases[1:]):
+        full[f"peierls_lead{i}"] = phase
+    return full
+
+
+# --------------------------------------------------------------------- solver
+@dataclass(frozen=True)
+class HallResult:
+    """Resistances of one Hall-bar measurement.
+
+    Attributes
+    ----------
+    r_xy, r_xx : float
+        Hall and longitudinal resistance in units of ``h/e^2``.
+    r_xy_ohm, r_xx_ohm : float
+        The same in ohm (``h/e^2 = 25812.807... ohm``).
+    voltages : (n_leads,) ndarray
+        Lead voltages per unit current, ``V_i / I`` in ``h/e^2`` (drain 0).
+    conductance : (n_leads, n_leads) ndarray
+        Conductance matrix in ``e^2/h``.
+    modes : (n_leads,) ndarray of int
+        Open channels (both spins) in each lead at the Fermi energy.
+    """
+
+    r_xy: float
+    r_xx: float
+    r_xy_ohm: float
+    r_xx_ohm: float
+    voltages: np.ndarray
+    conductance: np.ndarray
+    modes: np.ndarray
+
+
+def hall_resistances(
+    fsyst,
+    energy: float,
+    params: dict,
+    *,
+    current_leads: tuple[int, int] = (0, 3),
+    hall_probes: tuple[int, int] = (1, 5),
+    long_probes: tuple[int, int] = (1, 2),
+) -> HallResult:
+    """Hall and longitudinal resistance from the Landauer-Buttiker equations.
+
+    The currents into the sample are ``I_i = sum_j G_ij V_j`` with the
+    conductance matrix ``G`` of :meth:`kwant.solvers.common.SMatrix.conductance_matrix`
+    (units ``e^2/h``, both spins summed). A current ``I`` enters at the
+    source ``current_leads[0]`` and leaves at the drain ``current_leads[1]``;
+    every other lead is a voltage probe with zero net current. The drain
+    voltage is fixed to 0 and its row and column are dropped, which makes
+    the system regular; the remaining voltages are solved for.
+
+    Parameters
+    ----------
+    fsyst : kwant.system.FiniteSystem
+        ``hallbar_builder(...).finalized()``.
+    energy : float
+        Fermi energy in units of ``t``.
+    params : dict
+        See :func:`hallbar_params` (``phi`` required).
+    current_leads : (int, int)
+        Source and drain.
+    hall_probes : (int, int)
+        ``R_xy = (V[a] - V[b]) / I`` for ``(a, b) = hall_probes``; by
+        default top left minus bottom left.
+    long_probes : (int, int)
+        ``R_xx = (V[a] - V[b]) / I``; by default top left minus top right.
+
+    Returns
+    -------
+    HallResult
+
+    Raises
+    ------
+    ValueError
+        If a lead has no open channel at ``energy`` (then the Landauer-Buttiker
+        system is singular), or the lead indices are invalid.
+
+    Notes
+    -----
+    Sign convention (measured in the tests): with ``phi > 0`` (the field
+    along ``+z``; counter-clockwise plaquette phase ``+2 pi phi``) and the
+    default probes, ``R_xy = -h/(nu e^2)`` on the plateau with ``nu`` filled
+    Landau levels; ``phi -> -phi`` makes it positive. On a plateau ``R_xx``
+    vanishes (below ``1e-9 h/e^2`` in the clean bars of the tests).
+
+    References
+    ----------
+    .. [1] M. Buttiker, "Four-terminal phase-coherent conductance", Phys. Rev.
+       Lett. 57, 1761 (1986).
+    """
+    n = len(fsyst.leads)
+    for name, pair in (("current_leads", current_leads), ("hall_probes", hall_probes),
+                       ("long_probes", long_probes)):
+        if len(pair) != 2 or not all(0 <= int(i) < n for i in pair) or pair[0] == pair[1]:
+            raise ValueError(f"{name} must be two different lead indices in 0 .. {n - 1}, got {pair!r}")
+    source, drain = (int(i) for i in current_leads)
+    smat = kwant.smatrix(fsyst, energy, params=hallbar_params(fsyst, params))
+    modes = np.array([smat.num_propagating(i) for i in range(n)])
+    closed = [i for i in range(n) if modes[i] == 0]
+    if closed:
+        names = ", ".join(f"{i} ({LEAD_NAMES[i] if n == 6 else 'lead'})" for i in closed)
+        raise ValueError(
+            f"E_F = {energy:.6g} t is outside the bands of lead(s) {names}: no open channel, "
+            f"so the voltages are undefined; choose E_F inside the lead bands "
+            f"(open channels per lead: {modes.tolist()})"
+        )
+    g = np.asarray(smat.conductance_matrix(), dtype=float)
+    keep = [i for i in range(n) if i != drain]
+    current = np.zeros(n)
+    current[source] = 1.0
+    v = np.zeros(n)
+    v[keep] = np.linalg.solve(g[np.ix_(keep, keep)], current[keep])
+    r_xy = float(v[hall_probes[0]] - v[hall_probes[1]])
+    r_xx = float(v[long_probes[0]] - v[long_probes[1]])
+    return HallResult(r_xy, r_xx, r_xy * VON_KLITZING, r_xx * VON_KLITZING, v, g, modes)
+
+
+@dataclass(frozen=True)
+class AveragedHall:
+    """Disorder average of Hall-bar resistances (units ``h/e^2``; ``*_ohm`` in ohm).
+
+    ``*_sem`` is the standard error of the mean, ``std(ddof=1) / sqrt(n)``
+    (0 for a single seed); ``samples`` holds the per-seed results.
+    """
+
+    r_xy: float
+    r_xy_sem: float
+    r_xx: float
+    r_xx_sem: float
+    r_xy_ohm: float
+    r_xx_ohm: float
+    seeds: tuple[int, ...]
+    samples: tuple[HallResult, ...]
+
+
+def disorder_average(fsyst, energy: float, params: dict, *, seeds: Sequence[int], **probes) -> AveragedHall:
+    """Mean and standard error of ``R_xy`` and ``R_xx`` over disorder seeds.
+
+    Parameters
+    ----------
+    fsyst, energy, params
+        As in :func:`hall_resistances`; ``params["disorder"]`` is ``W_dis``
+        in units of ``t``, ``params["seed"]`` is replaced by each seed.
+    seeds : sequence of int
+        Seeds of the disorder realisations (at least one).
+    **probes
+        ``current_leads``, ``hall_probes``, ``long_probes`` of
+        :func:`hall_resistances`.
+
+    Returns
+    -------
+    AveragedHall
+
+    Raises
+    ------
+    ValueError
+        If ``seeds`` is empty (or as :func:`hall_resistances`).
+
+    References
+    ----------
+    .. [1] P. W. Anderson, Phys. Rev. 109, 1492 (1958) (the disorder model).
+    """
+    seeds = tuple(int(s) for s in seeds)
+    if not seeds:
+        raise ValueError("disorder_average needs at least one seed")
+    samples = tuple(hall_resistances(fsyst, energy, {**params, "seed": s}, **probes) for s in seeds)
+    xy = np.array([r.r_xy for r in samples])
+    xx = np.array([r.r_xx for r in samples])
+
+    def sem(a):
+        return float(a.std(ddof=1) / np.sqrt(a.size)) if a.size > 1 else 0.0
+
+    return AveragedHall(float(xy.mean()), sem(xy), float(xx.mean()), sem(xx),
+                        float(xy.mean()) * VON_KLITZING, float(xx.mean()) * VON_KLITZING, seeds, samples)
