@@ -63,7 +63,7 @@ import numpy as np
 from scipy.spatial import cKDTree
 
 from .builders import square_lattice
-from .pipeline import VON_KLITZING
+from .units import VON_KLITZING
 
 __all__ = [
     "LEAD_NAMES", "HallResult", "AveragedHall",

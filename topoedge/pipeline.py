@@ -30,14 +30,13 @@ import time
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.constants as const
 
 from . import __version__
 from .bloch import BlochHamiltonian
 from .builders import bulk_builder, model_params, ribbon_builder
 from .chern import ChernResult, Gap, chern_numbers, default_grid, path_bands
 from .config import Scenario, lattice_scenario
-from .units import Derived
+from .units import VON_KLITZING, Derived
 from .edges import EdgeCount, count_edge_modes
 from .hamiltonian import RibbonHamiltonian
 from .profiles import edge_potential
@@ -49,8 +48,6 @@ __all__ = [
     "fermi_level", "run_scenario", "scenario_potential", "summarize",
 ]
 
-#: Von Klitzing constant h/e^2 in ohm (exact in the SI since 2019; CODATA).
-VON_KLITZING = const.h / const.e**2
 
 
 @dataclass(frozen=True, eq=False)

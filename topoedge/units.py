@@ -38,11 +38,14 @@ from fractions import Fraction
 import scipy.constants as const
 
 __all__ = [
-    "Derived", "UnitsError", "derive", "hopping_mev", "flux_quanta", "magnetic_length_nm",
+    "Derived", "UnitsError", "VON_KLITZING", "derive", "hopping_mev", "flux_quanta", "magnetic_length_nm",
     "cyclotron_mev", "zeeman_mev", "coulomb_mev", "filling_factor",
 ]
 
 _MEV = 1e-3 * const.e  # joule per meV
+
+#: Von Klitzing constant h/e^2 in ohm (exact in the SI since 2019; CODATA).
+VON_KLITZING = const.h / const.e**2
 
 
 class UnitsError(ValueError):
