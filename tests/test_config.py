@@ -24,6 +24,7 @@ FULL = {
     "fermi": {"energy": -0.3},
     "chern": {"grid": [16, 20], "gap_min": 1e-4, "refine": False},
     "edges": {"k_points": 200},
+    "hallbar": {"enabled": True, "length": 60, "width": 30, "disorder": 0.5, "seeds": 3},
 }
 
 FULL_TOML = """\
@@ -61,6 +62,13 @@ refine = false
 
 [edges]
 k_points = 200
+
+[hallbar]
+enabled = true
+length = 60
+width = 30
+disorder = 0.5
+seeds = 3
 """
 
 
@@ -102,7 +110,7 @@ BAD = {
     "unknown section": ({"xyzzy": {}},
                         r"^xyzzy: unknown key; expected one of the top-level keys: "
                         r"'title', 'lattice', 'spin', 'ribbon', 'spectrum', 'fermi', 'chern', 'edges', "
-                        r"'material', 'field'$"),
+                        r"'material', 'field', 'hallbar'$"),
     "unknown key, nothing close": (nested("ribbon.edge.colour", 1),
                                    r"keys of \[ribbon\.edge\]: 'profile', 'width', "),
     "section not a table": ({"lattice": 3}, r"^lattice: got 3 \(integer\); expected a table"),

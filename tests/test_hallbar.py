@@ -173,3 +173,37 @@ def test_missing_phi(spinless):
     # Source: topoedge.hallbar.hallbar_params contract.
     with pytest.raises(ValueError, match="must contain 'phi'"):
         hall_resistances(spinless, -2.0, dict(t=1.0))
+
+
+# The 2/5 gap 1 is narrow (0.16 t): its edge states decay over several sites,
+# so the bar must be larger for R_xx to fall below 1e-6 (measured: 7e-7 at
+# 120 x 60, 1e-4 at 80 x 40).
+@pytest.mark.parametrize("flux, gap, expected, size", [("2/5", 1, -2, (120, 60)), ("1/10", 2, 2, (48, 24))],
+                         ids=["2/5-gap1", "1/10-gap2"])
+def test_four_routes_agree_through_the_pipeline(flux, gap, expected, size):
+    # Chern sum, edge chirality, Streda slope and Hall-bar transport give the
+    # same integer (TKNN, PRL 49, 405 (1982); Buttiker, PRB 38, 9375 (1988));
+    # the Hall bar to 1e-6 relative (R_K = h/e^2, CODATA via scipy.constants).
+    from topoedge.config import parse_scenario
+    from topoedge.pipeline import run_scenario
+
+    scenario = parse_scenario({
+        "lattice": {"flux": flux}, "spin": {"enabled": False}, "ribbon": {"width": 80},
+        "fermi": {"gap": gap}, "spectrum": {"k_points": 16}, "chern": {"refine": False},
+        "hallbar": {"enabled": True, "length": size[0], "width": size[1]},
+    })
+    summary = run_scenario(scenario).summary
+    routes = summary["hall"]["routes"]
+    assert routes["chern"] == routes["edge"] == expected
+    assert routes["streda"] == pytest.approx(expected, abs=1e-9)
+    assert routes["hallbar"] == pytest.approx(expected, rel=1e-6)
+    assert summary["hall"]["hallbar"]["r_xx"] == pytest.approx(0.0, abs=1e-6)
+    assert summary["check"]["routes_agree"] is True
+
+
+def test_hallbar_narrower_than_the_edge_ramps_is_refused():
+    from topoedge.config import ConfigError, parse_scenario
+
+    with pytest.raises(ConfigError, match=r"^hallbar\.width: got 12, not wider than the two edge ramps"):
+        parse_scenario({"ribbon": {"edge": {"profile": "linear", "width": 8, "height": 1}},
+                        "hallbar": {"enabled": True, "width": 12}})

@@ -253,6 +253,31 @@ class FieldConfig:
 
 
 @dataclass(frozen=True)
+class HallbarConfig:
+    """Six-terminal Hall bar of the same model (the transport route to sigma_xy).
+
+    Attributes
+    ----------
+    enabled : bool
+        Compute the Hall bar in ``run``.
+    length, width : int
+        Bar size in sites; source and drain span the full width, the four
+        voltage probes are ``max(6, width // 4)`` columns wide at a quarter
+        and three quarters of the length.
+    disorder : float
+        Anderson disorder ``W_dis`` in t (uniform in [-W/2, W/2) per site).
+    seeds : int
+        Number of disorder realisations averaged (seeds 0 .. seeds-1).
+    """
+
+    enabled: bool = False
+    length: int = 80
+    width: int = 40
+    disorder: float = 0.0
+    seeds: int = 1
+
+
+@dataclass(frozen=True)
 class Scenario:
     """A complete validated scenario; build it with `parse_scenario`.
 
@@ -270,6 +295,7 @@ class Scenario:
     edges: EdgesConfig = EdgesConfig()
     material: MaterialConfig = MaterialConfig()
     field: FieldConfig = FieldConfig()
+    hallbar: HallbarConfig = HallbarConfig()
     source: str | None = dataclasses.field(default=None, compare=False)
 
     def to_dict(self) -> dict[str, Any]:
@@ -300,6 +326,7 @@ _SECTIONS: dict[str, type] = {
     "spectrum": SpectrumConfig, "fermi": FermiConfig,
     "chern": ChernConfig, "edges": EdgesConfig,
     "material": MaterialConfig, "field": FieldConfig,
+    "hallbar": HallbarConfig,
 }
 
 
@@ -382,6 +409,16 @@ _KEYS: dict[str, _Key] = {key.path: key for key in (
          "Electron density; E_F goes in the gap above the nearest integer filling.",
          "a density in cm^-2", optional=True),
     _Key("field.q_max", "integer", "-", "Largest denominator of the rational flux per plaquette.",
+         "an integer >= 1", lambda n: n >= 1),
+    _Key("hallbar.enabled", "boolean", "-", "Compute the six-terminal Hall bar route in run.",
+         "true or false"),
+    _Key("hallbar.length", "integer", "sites (a)", "Length of the Hall bar.",
+         "an integer number of sites >= 16", lambda n: n >= 16),
+    _Key("hallbar.width", "integer", "sites (a)", "Width of the Hall bar (source and drain span it).",
+         "an integer number of sites >= 8", lambda n: n >= 8),
+    _Key("hallbar.disorder", "float", "t", "Anderson disorder strength W_dis.",
+         "a strength >= 0 in t", lambda w: w >= 0),
+    _Key("hallbar.seeds", "integer", "-", "Number of disorder realisations averaged.",
          "an integer >= 1", lambda n: n >= 1),
 )}
 
@@ -583,6 +620,10 @@ def _check_combinations(s: Scenario) -> None:
                           f"{edge.profile!r}; expected no table for that profile "
                           "(set ribbon.edge.profile = 'table' to use it)")
     _check_units(s)
+    bar = s.hallbar
+    if bar.enabled and bar.width <= 2 * edge.width:
+        raise ConfigError(f"hallbar.width: got {bar.width}, not wider than the two edge ramps "
+                          f"(2 x ribbon.edge.width = {2 * edge.width:g}); expected a wider bar")
     if s.fermi.energy is not None and s.fermi.gap is not None:
         raise ConfigError(f"fermi.gap: got {s.fermi.gap} together with fermi.energy = "
                           f"{s.fermi.energy!r}; expected only one of them")

@@ -159,9 +159,11 @@ def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
     )
     edges = count_edge_modes(ham, ef, k_points=scenario.edges.k_points)
     streda, streda_error = streda_route(scenario, ef)
+    hallbar, hallbar_error = hallbar_route(scenario, ef) if scenario.hallbar.enabled else (None, None)
     summary = summarize(scenario, spec, potential, chern=chern, refined=refined, ef=ef, gap=gap,
                         edges=edges, seconds=time.perf_counter() - start, given=given, units=units,
-                        streda=streda, streda_error=streda_error)
+                        streda=streda, streda_error=streda_error, hallbar=hallbar,
+                        hallbar_error=hallbar_error)
     return RunResult(scenario, potential, ham, spec, chern, refined, ef, gap, edges, path, summary, units,
                      streda)
 
@@ -179,23 +181,62 @@ def streda_route(scenario: Scenario, ef: float) -> tuple[StredaResult | None, st
         return None, str(err)
 
 
-def hall_routes(gap: Gap, edges: EdgeCount, streda: StredaResult | None) -> dict:
+def hallbar_route(scenario: Scenario, ef: float) -> tuple[dict | None, str | None]:
+    """Hall and longitudinal resistance of the scenario's Hall bar at E_F, or why not.
+
+    The bar has the scenario's flux, spin, Zeeman splitting, on-site energy and
+    edge profile along all its boundaries. Returns ``{"r_xy", "r_xx"}`` in h/e^2
+    (means over the disorder seeds, with standard errors of the mean) and the conductance
+    ``sigma_xy = -1 / R_xy`` in e^2/h (see :mod:`topoedge.hallbar` for the sign).
+    """
+    from .hallbar import disorder_average, hallbar_builder
+    from .profiles import EDGE_PROFILES
+
+    bar, edge = scenario.hallbar, scenario.ribbon.edge
+    shape = EDGE_PROFILES[edge.profile]
+
+    def potential(d):
+        return shape(np.asarray(d, dtype=float), width=edge.width, height=edge.height, table=edge.table)
+
+    probe = max(6, bar.width // 4)
+    try:
+        builder = hallbar_builder(
+            bar.length, bar.width, lead_width=bar.width, spin=scenario.spin.enabled, probe_width=probe,
+            probe_positions=(bar.length // 4 - probe // 2, 3 * bar.length // 4 - probe // 2),
+            potential=None if edge.profile == "none" else potential,
+        )
+        params = dict(_params(scenario), disorder=bar.disorder, seed=0)
+        result = disorder_average(builder.finalized(), ef, params, seeds=range(bar.seeds))
+    except ValueError as err:
+        return None, str(err)
+    return {
+        "r_xy": result.r_xy, "r_xy_sem": result.r_xy_sem,
+        "r_xx": result.r_xx, "r_xx_sem": result.r_xx_sem,
+        "r_xy_ohm": result.r_xy_ohm, "r_xx_ohm": result.r_xx_ohm,
+        "sigma_xy": -1.0 / result.r_xy if result.r_xy else None,
+        "length": bar.length, "width": bar.width, "disorder": bar.disorder, "seeds": bar.seeds,
+    }, None
+
+
+def hall_routes(gap: Gap, edges: EdgeCount, streda: StredaResult | None, hallbar: dict | None = None) -> dict:
     """The Hall conductance (e^2/h) by every route computed, and their agreement.
 
     ``chern``: Chern sum below E_F (link variables); ``edge``: net chirality of
     the bottom edge (null when E_F is not in a gap of the ribbon); ``streda``:
     the measured slope ``d n_site / d phi`` with its deviation from the nearest
-    integer; ``hallbar``: transport of a finite Hall bar (not computed yet).
+    integer; ``hallbar``: ``-1/R_xy`` of the six-terminal Hall bar (with
+    ``hallbar.enabled``), with its deviation from the nearest integer.
     """
     routes = {
         "chern": gap.chern,
         "edge": edges.bottom.net if edges.in_gap else None,
         "streda": streda.slope if streda is not None else None,
         "streda_deviation": streda.deviation if streda is not None else None,
-        "hallbar": None,
-        "hallbar_deviation": None,
+        "hallbar": hallbar["sigma_xy"] if hallbar else None,
+        "hallbar_deviation": (hallbar["sigma_xy"] - round(hallbar["sigma_xy"]))
+        if hallbar and hallbar["sigma_xy"] is not None else None,
     }
-    values = [v for v in (routes["edge"], routes["streda"]) if v is not None]
+    values = [v for v in (routes["edge"], routes["streda"], routes["hallbar"]) if v is not None]
     routes_agree = all(abs(v - gap.chern) < 1e-6 for v in values) and routes["edge"] is not None
     return {"routes": routes, "routes_agree": routes_agree}
 
@@ -242,7 +283,8 @@ def _finite(x: float) -> float | None:
 def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *, chern: ChernResult,
               refined: ChernResult | None, ef: float, gap: Gap, edges: EdgeCount, seconds: float,
               given: Scenario | None = None, units: Derived | None = None,
-              streda: StredaResult | None = None, streda_error: str | None = None) -> dict:
+              streda: StredaResult | None = None, streda_error: str | None = None,
+              hallbar: dict | None = None, hallbar_error: str | None = None) -> dict:
     """JSON-able summary of a run.
 
     ``scenario`` is in lattice units; ``given`` (default: the same) is the
@@ -262,7 +304,7 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
     if refined is not None:
         converged = [(g.below, g.chern) for g in chern.gaps] == [(g.below, g.chern) for g in refined.gaps]
     c = gap.chern
-    routes = hall_routes(gap, edges, streda)
+    routes = hall_routes(gap, edges, streda, hallbar)
     return {
         "topoedge_version": __version__,
         "title": scenario.title,
@@ -322,6 +364,8 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
             "routes": routes["routes"],
             "streda": streda.to_dict() if streda is not None else None,
             "streda_error": streda_error,
+            "hallbar": hallbar,
+            "hallbar_error": hallbar_error,
         },
         "check": {**bulk_edge_check(gap, edges, width=scenario.ribbon.width),
                   "routes_agree": routes["routes_agree"]},

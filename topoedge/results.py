@@ -273,10 +273,19 @@ def _topology_lines(summary: dict) -> list[str]:
     r = h["routes"]
     streda = ("n/a" if r["streda"] is None
               else f"{r['streda']:.6f} (off integer by {r['streda_deviation']:.1e})")
-    lines.append(f"  routes       Chern {r['chern']}, edge {r['edge']}, Streda {streda}; "
+    hallbar = ("" if r["hallbar"] is None
+               else f", Hall bar {r['hallbar']:.6f} (off integer by {r['hallbar_deviation']:.1e})")
+    lines.append(f"  routes       Chern {r['chern']}, edge {r['edge']}, Streda {streda}{hallbar}; "
                  f"agree: {'yes' if c['routes_agree'] else 'NO'}")
     if h.get("streda_error"):
         lines.append(f"               Streda: {h['streda_error']}")
+    if h.get("hallbar"):
+        hb = h["hallbar"]
+        lines.append(f"  Hall bar     {hb['length']}x{hb['width']} sites, W_dis = {hb['disorder']:g} t, "
+                     f"{hb['seeds']} seed(s): R_xy = {hb['r_xy']:.8f} h/e^2 ({hb['r_xy_ohm']:.3f} ohm), "
+                     f"R_xx = {hb['r_xx']:.2e} h/e^2")
+    if h.get("hallbar_error"):
+        lines.append(f"               Hall bar: {h['hallbar_error']}")
     agree = "yes" if c["bulk_edge_agree"] else "NO"
     if c["spin_resolved_agree"] is not None:
         agree += f" (per spin: {'yes' if c['spin_resolved_agree'] else 'NO'})"
