@@ -207,3 +207,29 @@ def test_hallbar_narrower_than_the_edge_ramps_is_refused():
     with pytest.raises(ConfigError, match=r"^hallbar\.width: got 12, not wider than the two edge ramps"):
         parse_scenario({"ribbon": {"edge": {"profile": "linear", "width": 8, "height": 1}},
                         "hallbar": {"enabled": True, "width": 12}})
+
+
+def test_hallbar_command_scans_the_plateaus(tmp_path):
+    # End to end: `topoedge hallbar` writes summary.json, hallbar.h5 and the
+    # figure; on the plateaus R_xy = -h/(nu e^2) as the bulk Chern sum predicts
+    # (von Klitzing constant h/e^2 from scipy.constants), R_xx ~ 0.
+    import json
+    import subprocess
+    import sys
+
+    config = tmp_path / "bar.toml"
+    config.write_text('[lattice]\nflux = "1/10"\n[spin]\nenabled = false\n[ribbon]\nwidth = 60\n'
+                      '[fermi]\ngap = 1\n[hallbar]\nlength = 48\nwidth = 24\n')
+    out = tmp_path / "scan"
+    proc = subprocess.run([sys.executable, "-m", "topoedge", "hallbar", str(config), "--energies=-3.2:-2.6:3",
+                           "--out", str(out), "--json", "--quiet"], capture_output=True, text=True, cwd=tmp_path)
+    assert proc.returncode == 0, proc.stderr
+    summary = json.loads(proc.stdout)
+    assert {p.name for p in out.iterdir()} == {"summary.json", "hallbar.h5", "hallbar.png"}
+    assert summary["chern"] == [1, 1, 1]
+    for r_xy, r_xx in zip(summary["r_xy"], summary["r_xx"]):
+        assert r_xy == pytest.approx(-1.0, rel=1e-6) and abs(r_xx) < 1e-6
+    bad = subprocess.run([sys.executable, "-m", "topoedge", "hallbar", str(config), "--energies=1:0:3",
+                          "--out", str(tmp_path / "bad")], capture_output=True, text=True, cwd=tmp_path)
+    assert bad.returncode == 2 and bad.stderr.count("\n") == 1 and "expected LO:HI:N" in bad.stderr
+    assert not (tmp_path / "bad").exists()

@@ -59,6 +59,14 @@ def _parser() -> argparse.ArgumentParser:
     bench.add_argument("--parts", default="ribbon,chern",
                        help="comma-separated benchmarks to run: ribbon, chern (default both)")
 
+    bar = sub.add_parser("hallbar", parents=[common],
+                         help="Hall and longitudinal resistance of the scenario's Hall bar over a range of E_F")
+    bar.add_argument("config", nargs="?", default=None, help="scenario TOML file (default: the shipped default)")
+    bar.add_argument("--energies", default=None, metavar="LO:HI:N",
+                     help="E_F from LO to HI (t) in N steps (default: from the band bottom to 1.5 (E_F - bottom) above it, 41 steps)")
+    bar.add_argument("--out", type=Path, default=None, help="results folder (default: results/hallbar-<date-time>)")
+    bar.add_argument("--force", action="store_true", help="replace an existing results folder")
+
     fly = sub.add_parser("butterfly", parents=[common],
                          help="flux-energy spectrum with every gap labelled by its Chern number")
     fly.add_argument("config", nargs="?", default=None,
@@ -175,6 +183,76 @@ def _cmd_bench(args) -> int:
     return 0
 
 
+def _energies(text: str | None) -> tuple[float, float, int] | None:
+    if text is None:
+        return None
+    parts = text.split(":")
+    try:
+        lo, hi, n = float(parts[0]), float(parts[1]), int(parts[2])
+        assert len(parts) == 3 and lo < hi and n >= 2
+    except (ValueError, IndexError, AssertionError):
+        raise ConfigError(f"hallbar --energies: got {text!r}; expected LO:HI:N with LO < HI (t) and N >= 2 steps")
+    return lo, hi, n
+
+
+def _cmd_hallbar(args) -> int:
+    """Scan of the Hall bar over E_F into a results folder (summary, HDF5, figure)."""
+    import numpy as np
+
+    window = _energies(args.energies)
+    scenario = load_scenario(args.config, args.overrides)
+    out = args.out if args.out is not None else _default_out(f"hallbar-{Path(args.config or DEFAULT_SCENARIO).stem}")
+    from .results import check_destination, write_folder, write_json
+
+    check_destination(out, force=args.force)
+    from .pipeline import bulk_chern, fermi_level, hallbar_scan, replace_chern_refine
+
+    model, _ = lattice_scenario(scenario)
+    if window is None:
+        chern, _, _ = bulk_chern(replace_chern_refine(model))
+        ef, _ = fermi_level(model, chern)
+        bottom = min(b.energy_min for b in chern.bands)
+        window = (bottom, ef + 1.5 * (ef - bottom), 41)
+    energies = np.linspace(*window)
+    scan = hallbar_scan(scenario, energies, progress=sys.stdout.isatty() and not args.quiet)
+    summary = {"title": scenario.title, "source": scenario.source, "config": scenario.to_dict(),
+               "units": "energy in t; r_xy, r_xx in h/e^2; r_xy_bulk = -1/C from the bulk Chern sum", **scan}
+    summary = json.loads(json.dumps(summary).replace("NaN", "null"))
+
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import h5py
+    import matplotlib.pyplot as plt
+
+    from .plotting import hallbar_figure
+
+    def figure(path: Path) -> None:
+        fig = hallbar_figure(scan, title=f"{scenario.title or 'Hall bar'}: {model.hallbar.length}x"
+                             f"{model.hallbar.width} sites, flux {model.lattice.flux}")
+        try:
+            fig.savefig(path, dpi=150)
+        finally:
+            plt.close(fig)
+
+    def h5(path: Path) -> None:
+        with h5py.File(path, "w") as f:
+            for key in ("energy", "r_xy", "r_xx", "r_xy_sem", "r_xx_sem"):
+                f.create_dataset(key, data=np.asarray(scan[key], dtype=float))
+            f.create_dataset("chern", data=np.array([np.nan if c is None else c for c in scan["chern"]], dtype=float))
+            f.attrs["scenario_json"] = json.dumps(scenario.to_dict(), sort_keys=True)
+            f.attrs["units"] = summary["units"]
+
+    write_folder(out, {"summary.json": write_json(summary), "hallbar.h5": h5, "hallbar.png": figure}, force=args.force)
+    if args.json:
+        print(json.dumps(summary, indent=2))
+    ok = [(e, r) for e, r in zip(scan["energy"], scan["r_xy"]) if r == r]
+    _say(args, f"topoedge hallbar: {len(energies)} Fermi energies from {energies[0]:.4f} to {energies[-1]:.4f} t, "
+               f"{len(ok)} solved, {len(scan['errors'])} without open channels in every lead")
+    _say(args, f"  results      {out}/ (summary.json, hallbar.h5, hallbar.png)")
+    return 0
+
+
 def _cmd_butterfly(args) -> int:
     """Flux-energy spectrum of the scenario's model (spin, Zeeman, on-site) into a results folder."""
     import math
@@ -226,7 +304,8 @@ def main(argv: list[str] | None = None) -> int:
     from .results import ResultsExistError
 
     try:
-        return {"run": _cmd_run, "bench": _cmd_bench, "butterfly": _cmd_butterfly}[args.command](args)
+        commands = {"run": _cmd_run, "bench": _cmd_bench, "butterfly": _cmd_butterfly, "hallbar": _cmd_hallbar}
+        return commands[args.command](args)
     except (ConfigError, ResultsExistError, GapClosedError) as err:
         print(f"topoedge: error: {err}", file=sys.stderr)
         return EXIT_BAD_INPUT

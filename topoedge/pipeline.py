@@ -45,7 +45,7 @@ from .streda import StredaResult, streda_slope
 
 __all__ = [
     "RunResult", "VON_KLITZING", "build_bulk", "build_ribbon", "bulk_chern", "bulk_edge_check",
-    "fermi_level", "run_scenario", "scenario_potential", "summarize",
+    "fermi_level", "hallbar_route", "hallbar_scan", "run_scenario", "scenario_potential", "summarize",
 ]
 
 
@@ -189,24 +189,12 @@ def hallbar_route(scenario: Scenario, ef: float) -> tuple[dict | None, str | Non
     (means over the disorder seeds, with standard errors of the mean) and the conductance
     ``sigma_xy = -1 / R_xy`` in e^2/h (see :mod:`topoedge.hallbar` for the sign).
     """
-    from .hallbar import disorder_average, hallbar_builder
-    from .profiles import EDGE_PROFILES
+    from .hallbar import disorder_average
 
-    bar, edge = scenario.hallbar, scenario.ribbon.edge
-    shape = EDGE_PROFILES[edge.profile]
-
-    def potential(d):
-        return shape(np.asarray(d, dtype=float), width=edge.width, height=edge.height, table=edge.table)
-
-    probe = max(6, bar.width // 4)
+    bar = scenario.hallbar
     try:
-        builder = hallbar_builder(
-            bar.length, bar.width, lead_width=bar.width, spin=scenario.spin.enabled, probe_width=probe,
-            probe_positions=(bar.length // 4 - probe // 2, 3 * bar.length // 4 - probe // 2),
-            potential=None if edge.profile == "none" else potential,
-        )
-        params = dict(_params(scenario), disorder=bar.disorder, seed=0)
-        result = disorder_average(builder.finalized(), ef, params, seeds=range(bar.seeds))
+        fsyst, params = _hallbar_system(scenario)
+        result = disorder_average(fsyst, ef, params, seeds=range(bar.seeds))
     except ValueError as err:
         return None, str(err)
     return {
@@ -216,6 +204,73 @@ def hallbar_route(scenario: Scenario, ef: float) -> tuple[dict | None, str | Non
         "sigma_xy": -1.0 / result.r_xy if result.r_xy else None,
         "length": bar.length, "width": bar.width, "disorder": bar.disorder, "seeds": bar.seeds,
     }, None
+
+
+def _hallbar_system(scenario: Scenario):
+    """The finalized Hall bar of a scenario and its kwant params (without E_F)."""
+    from .hallbar import hallbar_builder
+    from .profiles import EDGE_PROFILES
+
+    bar, edge = scenario.hallbar, scenario.ribbon.edge
+    shape = EDGE_PROFILES[edge.profile]
+
+    def potential(d):
+        return shape(np.asarray(d, dtype=float), width=edge.width, height=edge.height, table=edge.table)
+
+    probe = max(6, bar.width // 4)
+    builder = hallbar_builder(
+        bar.length, bar.width, lead_width=bar.width, spin=scenario.spin.enabled, probe_width=probe,
+        probe_positions=(bar.length // 4 - probe // 2, 3 * bar.length // 4 - probe // 2),
+        potential=None if edge.profile == "none" else potential,
+    )
+    return builder.finalized(), dict(_params(scenario), disorder=bar.disorder, seed=0)
+
+
+def hallbar_scan(scenario: Scenario, energies, *, progress: bool = False) -> dict:
+    """R_xy and R_xx of the scenario's Hall bar over a range of Fermi energies.
+
+    Returns a JSON-able dict of lists: ``energy`` (t), ``r_xy``, ``r_xx``
+    (h/e^2, NaN where some lead has no open channel), their standard errors
+    ``r_xy_sem``, ``r_xx_sem``, the bulk prediction ``chern`` (Chern sum below
+    E, None inside a bulk band) and ``r_xy_bulk = -1/C`` (None for C = 0 or in
+    a band), and ``errors`` (energy, message) where the bar could not be solved.
+    """
+    from tqdm.auto import tqdm
+
+    from .chern import GapClosedError
+    from .hallbar import disorder_average
+
+    scenario, _ = lattice_scenario(scenario)
+    chern, _, _ = bulk_chern(replace_chern_refine(scenario))
+    fsyst, params = _hallbar_system(scenario)
+    out = {key: [] for key in ("energy", "r_xy", "r_xx", "r_xy_sem", "r_xx_sem", "chern", "r_xy_bulk")}
+    errors = []
+    for energy in tqdm(np.asarray(energies, dtype=float), disable=not progress, desc="Hall bar", leave=False):
+        try:
+            gap = chern.gap_at(float(energy))
+            c = gap.chern
+        except GapClosedError:
+            c = None
+        try:
+            r = disorder_average(fsyst, float(energy), params, seeds=range(scenario.hallbar.seeds))
+            values = (r.r_xy, r.r_xx, r.r_xy_sem, r.r_xx_sem)
+        except ValueError as err:
+            values = (float("nan"),) * 4
+            errors.append([float(energy), str(err)])
+        out["energy"].append(float(energy))
+        for key, value in zip(("r_xy", "r_xx", "r_xy_sem", "r_xx_sem"), values):
+            out[key].append(value)
+        out["chern"].append(c)
+        out["r_xy_bulk"].append(-1.0 / c if c else None)
+    out["errors"] = errors
+    return out
+
+
+def replace_chern_refine(scenario: Scenario) -> Scenario:
+    """The scenario without the finer-grid Chern check (not needed for a scan)."""
+    from dataclasses import replace
+
+    return replace(scenario, chern=replace(scenario.chern, refine=False))
 
 
 def hall_routes(gap: Gap, edges: EdgeCount, streda: StredaResult | None, hallbar: dict | None = None) -> dict:

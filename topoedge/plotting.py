@@ -16,7 +16,7 @@ from .spectrum import RibbonSpectrum
 
 __all__ = [
     "plot_ribbon_spectrum", "plot_edge_modes", "edge_mode_legend", "plot_bulk_bands",
-    "default_energy_range", "ribbon_figure", "bulk_figure", "RUN_FIGURES",
+    "default_energy_range", "ribbon_figure", "bulk_figure", "hallbar_figure", "RUN_FIGURES",
 ]
 
 _SPIN_MARKERS = {"up": "^", "down": "v", "none": "o"}
@@ -257,6 +257,34 @@ def bulk_figure(result):
     ax.legend(handles=handles, loc="upper left", fontsize=8)
     ax.set_title(f"{_title(result)}\nbulk bands, Chern numbers on a "
                  f"{result.chern.grid[0]}x{result.chern.grid[1]} grid", fontsize=9)
+    return fig
+
+
+def hallbar_figure(scan: dict, *, title: str = ""):
+    """R_xy and R_xx of a Hall-bar scan against E_F, with the bulk prediction.
+
+    Parameters
+    ----------
+    scan : dict
+        From :func:`topoedge.pipeline.hallbar_scan` (energies in t,
+        resistances in h/e^2).
+    title : str
+    """
+    import matplotlib.pyplot as plt
+
+    e = np.asarray(scan["energy"])
+    fig, (top, bottom) = plt.subplots(2, 1, figsize=(7.0, 6.0), sharex=True, layout="constrained")
+    bulk = np.array([np.nan if v is None else v for v in scan["r_xy_bulk"]], dtype=float)
+    top.plot(e, bulk, "--", color="0.5", lw=1.2, label=r"bulk: $-1/C$ (Chern sum below $E_F$)")
+    top.errorbar(e, scan["r_xy"], yerr=scan["r_xy_sem"], fmt="o-", ms=3, lw=1, color="C0",
+                 label=r"Hall bar $R_{xy}$")
+    top.set_ylabel(r"$R_{xy}$ ($h/e^2$)")
+    top.axhline(0, color="0.85", lw=0.6, zorder=0)
+    top.legend(fontsize=8)
+    bottom.errorbar(e, scan["r_xx"], yerr=scan["r_xx_sem"], fmt="o-", ms=3, lw=1, color="C3")
+    bottom.set_ylabel(r"$R_{xx}$ ($h/e^2$)")
+    bottom.set_xlabel(r"$E_F$ ($t$)")
+    top.set_title(title, fontsize=9)
     return fig
 
 

@@ -47,7 +47,9 @@ from . import __version__
 if TYPE_CHECKING:  # the writers only read a RunResult; importing it would load kwant
     from .pipeline import RunResult
 
-__all__ = ["ResultsExistError", "check_destination", "write_run", "format_summary"]
+__all__ = [
+    "ResultsExistError", "check_destination", "write_folder", "write_json", "write_run", "format_summary",
+]
 
 
 class ResultsExistError(FileExistsError):
@@ -123,22 +125,20 @@ def write_spectrum_h5(path: Path, result: RunResult) -> None:
             group.attrs[key] = json.dumps(value) if isinstance(value, (list, tuple)) else value
 
 
-def write_run(
-    out: Path,
-    result: RunResult,
-    figures: dict[str, Callable[[Path], None]],
-    *,
-    force: bool = False,
-) -> Path:
-    """Write a complete results folder atomically.
+def write_folder(out: Path, files: dict[str, Callable[[Path], None]], *, force: bool = False) -> Path:
+    """Write a results folder atomically.
+
+    Every function of ``files`` writes its file into a hidden temporary
+    sibling folder; only when all have succeeded is the folder renamed to
+    ``out`` (replacing an existing one only with ``force``, and putting it
+    back if the rename fails). On any error nothing is left behind.
 
     Parameters
     ----------
     out : Path
         Final folder name.
-    result : RunResult
-    figures : dict
-        File name -> function that writes that figure to a given path.
+    files : dict
+        File name -> function writing that file to the path it is given.
     force : bool
         Replace an existing folder.
 
@@ -156,10 +156,8 @@ def write_run(
         umask = os.umask(0)
         os.umask(umask)
         tmp.chmod(0o777 & ~umask)
-        (tmp / "summary.json").write_text(json.dumps(result.summary, indent=2, sort_keys=False) + "\n")
-        write_spectrum_h5(tmp / "spectrum.h5", result)
-        for name, draw in figures.items():
-            draw(tmp / name)
+        for name, write in files.items():
+            write(tmp / name)
         if out.exists():
             old = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
             os.replace(out, old / out.name)
@@ -176,6 +174,35 @@ def write_run(
         shutil.rmtree(tmp, ignore_errors=True)
         raise
     return out
+
+
+def write_json(summary: dict) -> Callable[[Path], None]:
+    """A file writer for :func:`write_folder` that stores ``summary`` as JSON."""
+    return lambda path: path.write_text(json.dumps(summary, indent=2, sort_keys=False) + "\n")
+
+
+def write_run(
+    out: Path,
+    result: RunResult,
+    figures: dict[str, Callable[[Path], None]],
+    *,
+    force: bool = False,
+) -> Path:
+    """Write the results folder of ``run`` atomically (see :func:`write_folder`).
+
+    Parameters
+    ----------
+    out : Path
+        Final folder name.
+    result : RunResult
+    figures : dict
+        File name -> function that writes that figure to a given path.
+    force : bool
+        Replace an existing folder.
+    """
+    files = {"summary.json": write_json(result.summary),
+             "spectrum.h5": lambda path: write_spectrum_h5(path, result), **figures}
+    return write_folder(out, files, force=force)
 
 
 def format_summary(summary: dict) -> str:
