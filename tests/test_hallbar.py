@@ -233,3 +233,20 @@ def test_hallbar_command_scans_the_plateaus(tmp_path):
                           "--out", str(tmp_path / "bad")], capture_output=True, text=True, cwd=tmp_path)
     assert bad.returncode == 2 and bad.stderr.count("\n") == 1 and "expected LO:HI:N" in bad.stderr
     assert not (tmp_path / "bad").exists()
+
+
+def test_per_spin_resistances_with_conserved_sz():
+    # S_z is conserved (Zeeman only): each spin sector is a conductor of its
+    # own. At nu = 1 only spin up carries an edge channel (R_xy = -h/e^2 for
+    # it, no open spin-down channel); at nu = 2 each spin has R_xy = -h/e^2
+    # and together -h/(2e^2) (Buttiker, PRB 38, 9375 (1988); CODATA h/e^2).
+    fsyst = hallbar_builder(44, 20, lead_width=20, probe_positions=(8, 28), spin=True,
+                            probe_width=6).finalized()
+    params = dict(t=1.0, phi=0.1, zeeman=0.1, onsite=0.0)
+    one = hall_resistances(fsyst, -3.42, params)
+    assert one.by_spin["up"]["r_xy"] == pytest.approx(-1.0, rel=1e-9) and one.by_spin["down"] is None
+    two = hall_resistances(fsyst, -2.8868, params)
+    assert two.r_xy == pytest.approx(-0.5, rel=1e-9)
+    for spin in ("up", "down"):
+        assert two.by_spin[spin]["r_xy"] == pytest.approx(-1.0, rel=1e-9)
+        assert abs(two.by_spin[spin]["r_xx"]) < 1e-9

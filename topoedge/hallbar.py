@@ -241,7 +241,10 @@ def hallbar_builder(
     def hop_bar(site_a, site_b, t, peierls):
         return -t * peierls(site_a, site_b) * unit
 
-    syst = kwant.Builder()
+    # With spin, S_z is conserved: blocks 0 (spin up, -sigma_z = -1) and 1
+    # (spin down) let the S-matrix be split per spin.
+    law = -np.diag([1.0, -1.0]) if spin else None
+    syst = kwant.Builder(conservation_law=law)
     syst[(lat(x, y) for x in range(length) for y in range(width))] = onsite_bar
     syst[lat.neighbors()] = hop_bar
 
@@ -254,7 +257,7 @@ def hallbar_builder(
                 value = value + float(np.asarray(potential(np.array([min(d, span - 1 - d)], float)))[0])
             return _spin_part(value, zeeman)
 
-        builder = kwant.Builder(kwant.TranslationalSymmetry(direction))
+        builder = kwant.Builder(kwant.TranslationalSymmetry(direction), conservation_law=law)
         builder[sites] = onsite_lead
         builder[lat.neighbors()] = hop_bar
         # Every lead needs its own phase function: rename the parameter.
@@ -372,6 +375,10 @@ class HallResult:
         Conductance matrix in ``e^2/h``.
     modes : (n_leads,) ndarray of int
         Open channels (both spins) in each lead at the Fermi energy.
+    by_spin : dict or None
+        With conserved S_z: ``{"up": {"r_xy", "r_xx"}, "down": {...}}`` in
+        ``h/e^2`` for each spin sector as a conductor of its own (None in a
+        sector where some lead has no open channel of that spin).
     """
 
     r_xy: float
@@ -381,6 +388,7 @@ class HallResult:
     voltages: np.ndarray
     conductance: np.ndarray
     modes: np.ndarray
+    by_spin: dict | None = None
 
 
 def hall_resistances(
@@ -458,14 +466,42 @@ def hall_resistances(
             f"(open channels per lead: {modes.tolist()})"
         )
     g = np.asarray(smat.conductance_matrix(), dtype=float)
+    v = _voltages(g, source, drain)
+    r_xy = float(v[hall_probes[0]] - v[hall_probes[1]])
+    r_xx = float(v[long_probes[0]] - v[long_probes[1]])
+    by_spin = None
+    if all(len(info.block_nmodes) == 2 for info in smat.lead_info):
+        by_spin = {}
+        for block, name in enumerate(("up", "down")):
+            g_s = _block_conductance(smat, n, block)
+            if any(info.block_nmodes[block] == 0 for info in smat.lead_info):
+                by_spin[name] = None
+                continue
+            v_s = _voltages(g_s, source, drain)
+            by_spin[name] = {"r_xy": float(v_s[hall_probes[0]] - v_s[hall_probes[1]]),
+                             "r_xx": float(v_s[long_probes[0]] - v_s[long_probes[1]])}
+    return HallResult(r_xy, r_xx, r_xy * VON_KLITZING, r_xx * VON_KLITZING, v, g, modes, by_spin)
+
+
+def _voltages(g: np.ndarray, source: int, drain: int) -> np.ndarray:
+    """Lead voltages per unit current (drain at 0, no net current in the probes)."""
+    n = g.shape[0]
     keep = [i for i in range(n) if i != drain]
     current = np.zeros(n)
     current[source] = 1.0
     v = np.zeros(n)
     v[keep] = np.linalg.solve(g[np.ix_(keep, keep)], current[keep])
-    r_xy = float(v[hall_probes[0]] - v[hall_probes[1]])
-    r_xx = float(v[long_probes[0]] - v[long_probes[1]])
-    return HallResult(r_xy, r_xx, r_xy * VON_KLITZING, r_xx * VON_KLITZING, v, g, modes)
+    return v
+
+
+def _block_conductance(smat, n: int, block: int) -> np.ndarray:
+    """Conductance matrix (e^2/h) of one conserved spin block: G_ii = N_i - R_ii, G_ij = -T_ij."""
+    g = np.empty((n, n))
+    for i in range(n):
+        for j in range(n):
+            t = smat.transmission((i, block), (j, block))
+            g[i, j] = smat.lead_info[i].block_nmodes[block] - t if i == j else -t
+    return g
 
 
 @dataclass(frozen=True)
