@@ -133,8 +133,6 @@ from __future__ import annotations
 import json
 import math
 import os
-import shutil
-import tempfile
 import time
 import warnings
 from dataclasses import dataclass, replace
@@ -711,9 +709,9 @@ def _write_h5(path: Path, result: ButterflyResult, summary: dict) -> None:
 def write_butterfly(out: Path, result: ButterflyResult, summary: dict, *, force: bool = False) -> Path:
     """Write ``summary.json``, ``butterfly.h5``, ``butterfly.png`` and ``butterfly.pdf`` atomically.
 
-    The files are written into a hidden temporary sibling of ``out``, which
-    is renamed into place only when all are complete (as
-    :func:`topoedge.results.write_run` does for ``run``).
+    Through :func:`topoedge.results.write_folder`: the files go into a hidden
+    temporary sibling of ``out``, renamed into place only when all are
+    complete.
 
     Parameters
     ----------
@@ -740,37 +738,15 @@ def write_butterfly(out: Path, result: ButterflyResult, summary: dict, *, force:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from .results import check_destination
+    from .results import write_folder, write_json
 
-    out = Path(out)
-    check_destination(out, force=force)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
+    fig = butterfly_figure(result, min_gap=summary["min_gap"])
     try:
-        umask = os.umask(0)  # mkdtemp makes the folder 0700; give it a plain mkdir's permissions
-        os.umask(umask)
-        tmp.chmod(0o777 & ~umask)
-        (tmp / "summary.json").write_text(json.dumps(summary, indent=2) + "\n")
-        _write_h5(tmp / "butterfly.h5", result, summary)
-        fig = butterfly_figure(result, min_gap=summary["min_gap"])
-        try:
-            fig.savefig(tmp / "butterfly.png", dpi=150)
-            fig.savefig(tmp / "butterfly.pdf")
-        finally:
-            plt.close(fig)
-        if out.exists():
-            old = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
-            os.replace(out, old / out.name)
-            try:
-                os.replace(tmp, out)
-            except BaseException:
-                os.replace(old / out.name, out)  # put the earlier results back
-                old.rmdir()
-                raise
-            shutil.rmtree(old, ignore_errors=True)
-        else:
-            os.replace(tmp, out)
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise
-    return out
+        return write_folder(Path(out), {
+            "summary.json": write_json(summary),
+            "butterfly.h5": lambda path: _write_h5(path, result, summary),
+            "butterfly.png": lambda path: fig.savefig(path, dpi=150),
+            "butterfly.pdf": lambda path: fig.savefig(path),
+        }, force=force)
+    finally:
+        plt.close(fig)
