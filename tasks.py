@@ -5,11 +5,17 @@
     python3 tasks.py test [ARGS...]    set up, then pytest ARGS; fails if no test ran
     python3 tasks.py bench [ARGS...]   set up, then `topoedge bench ARGS`
     python3 tasks.py setup             set up only
+    python3 tasks.py setup --mumps     set up with kwant's MUMPS solver (installs the
+                                       system package libmumps-seq-dev with apt-get
+                                       when missing; needs root) and rebuild kwant
 
 Set-up is idempotent: the virtual environment is created when missing, kwant is
 built from source only when it does not import yet (its released C sources
 predate numpy 2, so Cython regenerates them; about 90 s on 2 cores), and the
 package is (re)installed in editable mode when pyproject.toml changed.
+kwant is linked against the sequential MUMPS library when its headers are
+installed (Debian/Ubuntu: libmumps-seq-dev); otherwise kwant uses SciPy's
+sparse solver, which is correct and on the bars of this project about as fast.
 Needs nothing but python3 (with venv and pip) and a C compiler.
 """
 
@@ -17,6 +23,7 @@ from __future__ import annotations
 
 import hashlib
 import os
+import shutil
 import subprocess
 import sys
 import venv
@@ -28,6 +35,13 @@ PY = VENV / "bin" / "python"
 STAMP = VENV / ".topoedge-setup"
 KWANT = "kwant==1.5.0"
 KWANT_BUILD_DEPS = ["numpy", "scipy", "tinyarray", "cython", "setuptools", "wheel"]
+MUMPS_HEADER = Path("/usr/include/mumps_seq/zmumps_c.h")
+MUMPS_PACKAGE = "libmumps-seq-dev"
+# kwant's build configuration for Debian's sequential MUMPS.
+MUMPS_BUILD_CONF = """[mumps]
+libraries = zmumps_seq mumps_common_seq
+include_dirs = /usr/include/mumps_seq
+"""
 
 
 def _run(*cmd: str | os.PathLike) -> None:
@@ -41,16 +55,46 @@ def _imports(module: str) -> bool:
     ).returncode == 0
 
 
-def setup() -> None:
+def _install_mumps_package() -> None:
+    """apt-get install the sequential MUMPS headers and libraries (root only)."""
+    if shutil.which("apt-get") is None:
+        raise SystemExit(f"tasks.py: --mumps needs {MUMPS_HEADER}; no apt-get here: install the "
+                         f"sequential MUMPS development files ({MUMPS_PACKAGE} on Debian/Ubuntu) by hand")
+    sudo = [] if os.geteuid() == 0 else (["sudo"] if shutil.which("sudo") else None)
+    if sudo is None:
+        raise SystemExit(f"tasks.py: --mumps needs root to run apt-get install {MUMPS_PACKAGE}")
+    _run(*sudo, "apt-get", "update", "-q")
+    _run(*sudo, "env", "DEBIAN_FRONTEND=noninteractive", "apt-get", "install", "-y", "-q",
+         "--no-install-recommends", MUMPS_PACKAGE)
+
+
+def _build_kwant(mumps: bool) -> None:
+    _run(PY, "-m", "pip", "install", "-q", *KWANT_BUILD_DEPS)
+    options = ["--config-settings=--build-option=--cython"]
+    if mumps:
+        conf = VENV / "kwant-build.conf"
+        conf.write_text(MUMPS_BUILD_CONF)
+        options.append(f"--config-settings=--build-option=--configfile={conf}")
+    print(f"building kwant from source{' with MUMPS' if mumps else ''} (about 90 s) ...", flush=True)
+    # No wheel cache: a cached build would ignore the MUMPS configuration.
+    _run(PY, "-m", "pip", "install", "-q", "--no-build-isolation", "--no-cache-dir",
+         "--force-reinstall", "--no-deps", *options, KWANT)
+
+
+def setup(mumps: bool = False) -> None:
     if not PY.exists():
         print(f"creating virtual environment {VENV}", flush=True)
         venv.EnvBuilder(with_pip=True).create(VENV)
         _run(PY, "-m", "pip", "install", "-q", "--upgrade", "pip")
+    if mumps and not MUMPS_HEADER.exists():
+        _install_mumps_package()
     if not _imports("kwant"):
-        _run(PY, "-m", "pip", "install", "-q", *KWANT_BUILD_DEPS)
-        print("building kwant from source (about 90 s) ...", flush=True)
-        _run(PY, "-m", "pip", "install", "-q", "--no-build-isolation",
-             "--config-settings=--build-option=--cython", KWANT)
+        _build_kwant(MUMPS_HEADER.exists())
+    elif mumps and not _imports("kwant.solvers.mumps"):
+        _build_kwant(True)
+    if mumps and not _imports("kwant.solvers.mumps"):
+        raise SystemExit("tasks.py: kwant was built but its MUMPS solver does not import; "
+                         f"check {MUMPS_HEADER} and the libraries zmumps_seq, mumps_common_seq")
     digest = hashlib.sha256((ROOT / "pyproject.toml").read_bytes()).hexdigest()
     if not (STAMP.exists() and STAMP.read_text() == digest and _imports("topoedge")):
         _run(PY, "-m", "pip", "install", "-q", "-e", f"{ROOT}[test]")
@@ -62,8 +106,13 @@ def main(argv: list[str]) -> int:
         print(__doc__, file=sys.stderr)
         return 2
     task, rest = argv[0], [a for a in argv[1:] if a != "--"]
+    mumps = task == "setup" and "--mumps" in rest
+    if task == "setup" and set(rest) - {"--mumps"}:
+        print(f"tasks.py setup: unknown option(s) {' '.join(sorted(set(rest) - {'--mumps'}))}; "
+              "expected nothing or --mumps", file=sys.stderr)
+        return 2
     try:
-        setup()
+        setup(mumps)
     except subprocess.CalledProcessError as err:
         print(f"tasks.py: set-up failed at: {' '.join(map(str, err.cmd))}", file=sys.stderr)
         return 1

@@ -548,10 +548,11 @@ def test_cli_interrupt_while_writing_leaves_nothing(tmp_path, tiny_config, monke
 
 
 def test_bench_json(tmp_path):
-    proc = topoedge_cli("bench", "--width", 20, "--k-points", 5, "--chern-q", 6, "--json", cwd=tmp_path)
+    proc = topoedge_cli("bench", "--width", 20, "--k-points", 5, "--chern-q", 6, "--bars", "80x40",
+                        "--json", cwd=tmp_path)
     assert proc.returncode == 0, proc.stderr
     full = leading_json(proc.stdout)
-    assert full.keys() == {"ribbon", "chern"}
+    assert full.keys() == {"ribbon", "chern", "hallbar"}
     report = full["ribbon"]
     assert {"ratios", "seconds", "max_energy_difference_t"} <= report.keys()
     assert report["width_per_spin"] == 20 and report["k_points"] == 5
@@ -563,7 +564,19 @@ def test_bench_json(tmp_path):
     chern = full["chern"]
     assert chern["flux"] == "1/6" and chern["bands"] == 6
     assert chern["tknn_agree"] is True and chern["refined_agree"] is True
+    bar = full["hallbar"]["sizes"]
+    assert [(b["length"], b["width"]) for b in bar] == [(80, 40)]
+    # Every solver's conductance matrix obeys current conservation and equals
+    # SciPy's (unitarity of the S-matrix; rounding ~1e-14 e^2/h).
+    assert "scipy_sparse" in bar[0]["seconds"]
+    assert all(v < 1e-9 for v in bar[0]["max_conductance_difference"].values())
     assert listing(tmp_path) == []  # bench writes no files
+
+
+def test_bench_rejects_bad_bar_sizes(tmp_path):
+    proc = topoedge_cli("bench", "--parts", "hallbar", "--bars", "40by20", cwd=tmp_path)
+    assert proc.returncode == 2 and proc.stdout == ""
+    assert_one_error_line(proc.stderr, "--bars", "LENGTHxWIDTH")
 
 
 def test_bench_rejects_narrow_ribbon(tmp_path):

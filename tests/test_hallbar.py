@@ -49,17 +49,46 @@ def test_von_klitzing_constant():
 
 def test_gauge_plaquette_phase(spinless):
     # Source: topoedge.builders convention, counter-clockwise plaquette phase +2 pi phi
-    # (Peierls substitution, Hofstadter PRB 14, 2239 (1976)); checked in the bar and in a lead.
+    # (Peierls substitution, Hofstadter PRB 14, 2239 (1976)); checked from the
+    # finalized Hamiltonian in the bar, across the probe columns (where the gauge
+    # is transformed) and at the corners.
     params = hallbar_params(spinless, dict(phi=float(PHI)))
-    lat = spinless.sites[0].family
-    for x, y in [(10, 10), (0, 0), (48, 22)]:
-        a, b, c, d = lat(x, y), lat(x + 1, y), lat(x + 1, y + 1), lat(x, y + 1)
-        p = params["peierls"]
-        loop = p(b, a) * p(c, b) * p(d, c) * p(a, d)
+    ham = spinless.hamiltonian_submatrix(params=params)
+    index = {tuple(np.round(s.pos).astype(int)): i for i, s in enumerate(spinless.sites)}
+    corners = [(10, 10), (0, 0), (48, 22), (11, 5), (12, 5), (17, 20), (31, 0), (37, 22)]
+    for x, y in corners:
+        a, b, c, d = (index[p] for p in [(x, y), (x + 1, y), (x + 1, y + 1), (x, y + 1)])
+        # Hopping a -> b is the matrix element H[b, a] = -t exp(i theta_ba).
+        loop = (-ham[b, a]) * (-ham[c, b]) * (-ham[d, c]) * (-ham[a, d])
         assert np.angle(loop) == pytest.approx(2 * np.pi * float(PHI), abs=1e-10)
-    lead = spinless.leads[3]
-    a, b = lead.sites[0], lead.sites[1]
-    assert abs(params["peierls_lead3"](a, b)) == pytest.approx(1.0)
+
+
+def test_column_gauge_matches_kwant_magnetic_gauge():
+    # Outside reference: kwant.physics.magnetic_gauge builds a lead-compatible
+    # gauge by itself; the project's column gauge must give the same
+    # conductance matrix (gauge invariance), with spin, Zeeman splitting, an
+    # edge ramp and disorder, on a plateau and in a transition.
+    ramp = EDGE_PROFILES["linear"]
+
+    def potential(d):
+        return ramp(np.asarray(d, dtype=float), width=3.0, height=1.0, table=())
+
+    geometry = dict(lead_width=24, probe_positions=(8, 30), probe_width=10, spin=True, potential=potential)
+    ours = hallbar_builder(48, 24, **geometry).finalized()
+    theirs = hallbar_builder(48, 24, gauge="kwant", **geometry).finalized()
+    assert "peierls" in theirs.parameters and "peierls" not in ours.parameters
+    params = dict(phi=PHI, zeeman=ZEEMAN, disorder=0.4, seed=3)
+    for energy in (-2.9, -2.5):
+        a = hall_resistances(ours, energy, params)
+        b = hall_resistances(theirs, energy, params)
+        assert np.abs(a.conductance - b.conductance).max() < 1e-9
+        assert a.r_xy == pytest.approx(b.r_xy, rel=1e-9, abs=1e-12)
+
+
+def test_column_gauge_needs_free_end_columns():
+    with pytest.raises(ValueError, match="touch the first or last column"):
+        hallbar_builder(50, 24, spin=False, lead_width=24, probe_positions=(0, 32), probe_width=6)
+    hallbar_builder(50, 24, spin=False, lead_width=24, probe_positions=(0, 32), probe_width=6, gauge="kwant")
 
 
 @pytest.mark.parametrize("nu", [1, 2], ids=["nu1", "nu2"])
@@ -250,3 +279,103 @@ def test_per_spin_resistances_with_conserved_sz():
     for spin in ("up", "down"):
         assert two.by_spin[spin]["r_xy"] == pytest.approx(-1.0, rel=1e-9)
         assert abs(two.by_spin[spin]["r_xx"]) < 1e-9
+
+
+def test_conductance_sum_rules_and_solvers_agree(spinless):
+    # Current conservation and no current at equal voltages: every row and
+    # column of the conductance matrix sums to zero (Buttiker, PRL 57, 1761
+    # (1986)). Every solver available here gives the same matrix.
+    from topoedge.hallbar import solvers, sum_rule_violation
+
+    params = hallbar_params(spinless, dict(phi=PHI))
+    matrices = {name: np.asarray(smatrix(spinless, -2.9, params=params).conductance_matrix())
+                for name, smatrix in solvers().items()}
+    assert "scipy" in matrices
+    for g in matrices.values():
+        assert sum_rule_violation(g) < 1e-9
+        assert np.abs(g - matrices["scipy"]).max() < 1e-9
+    broken = matrices["scipy"].copy()
+    broken[1, 1] += 0.2
+    assert sum_rule_violation(broken) == pytest.approx(0.2, rel=1e-6)
+
+
+def test_disorder_average_keeps_per_spin_values():
+    fsyst = hallbar_builder(44, 20, lead_width=20, probe_positions=(8, 28), spin=True,
+                            probe_width=6).finalized()
+    params = dict(t=1.0, phi=0.1, zeeman=0.1, onsite=0.0, disorder=0.3)
+    avg = disorder_average(fsyst, -2.8868, params, seeds=[0, 1])
+    # Each spin sector on its nu = 1 plateau (Buttiker, PRB 38, 9375 (1988)).
+    for spin in ("up", "down"):
+        assert avg.by_spin[spin]["r_xy"] == pytest.approx(-1.0, rel=1e-6)
+        expected = np.mean([s.by_spin[spin]["r_xy"] for s in avg.samples])
+        assert avg.by_spin[spin]["r_xy"] == expected
+
+
+def test_run_reports_per_spin_hall_bar_values():
+    from topoedge.config import parse_scenario
+    from topoedge.pipeline import run_scenario
+
+    scenario = parse_scenario({
+        "lattice": {"flux": "1/10"}, "spin": {"enabled": True, "zeeman": 0.1}, "ribbon": {"width": 60},
+        "fermi": {"gap": 2}, "spectrum": {"k_points": 16}, "chern": {"refine": False},
+        "hallbar": {"enabled": True, "length": 48, "width": 24},
+    })
+    summary = run_scenario(scenario).summary
+    bar = summary["hall"]["hallbar"]
+    # Spin Chern numbers (1, 1) below the gap: each spin sector alone has
+    # sigma_xy = 1 e^2/h (R_xy = -h/e^2 with this module's sign).
+    for spin in ("up", "down"):
+        assert bar["by_spin"][spin]["sigma_xy"] == pytest.approx(1.0, rel=1e-6)
+        assert summary["bulk"]["spin_chern_below_fermi"][spin] == 1
+
+
+def _field_scenario(tmp_path):
+    # GaAs with a coarse 8 nm lattice: flux about 1/13 per plaquette at 5 T, so
+    # the bulk Chern numbers of every field are quick (l_B < 3a warns; fine here).
+    config = tmp_path / "field.toml"
+    config.write_text('[material]\npreset = "gaas"\nlattice_constant_nm = 8.0\n'
+                      '[field]\nb_tesla = 5.0\nfermi_mev = 10.0\nq_max = 30\n'
+                      '[ribbon]\nwidth = 60\n[hallbar]\nlength = 48\nwidth = 24\n')
+    return config
+
+
+def test_field_scan_follows_the_landau_levels_through_e_f(tmp_path):
+    # At fixed E_F = 10 meV above the band bottom the spin-degenerate GaAs
+    # levels leave E_F one after the other as B grows. Expected fillings from
+    # the continuum levels hbar omega_c (n + 1/2) (hbar omega_c = 1.728 meV/T,
+    # textbook) lowered by the lattice term (pi^2 t phi^2 / 2)(2n^2 + 2n + 1)
+    # (derived for this project, see tests/test_spectrum.py), t = 8.89 meV:
+    # 2 T: n = 2 at 8.1 meV, n = 3 at 11.0 meV -> 6; 3 T: n = 1 at 7.4 meV,
+    # n = 2 at 11.8 meV -> 4; 8 T: n = 0 at 6.8 meV, n = 1 at 17 meV -> 2.
+    # Hall bar and bulk Chern sum agree at every field (R_K from scipy.constants).
+    from topoedge.config import load_scenario
+    from topoedge.pipeline import hallbar_field_scan
+
+    scan = hallbar_field_scan(load_scenario(_field_scenario(tmp_path)), [2.0, 3.0, 8.0], jobs=1)
+    assert scan["fermi_mev"] == pytest.approx(10.0, rel=1e-9)
+    assert scan["chern"] == [6, 4, 2]
+    for r_xy, c in zip(scan["r_xy"], scan["chern"]):
+        assert r_xy == pytest.approx(-1.0 / c, rel=1e-6)
+    for spin in ("up", "down"):
+        assert scan[f"r_xy_{spin}"][-1] == pytest.approx(-1.0, rel=1e-6)
+    assert all(abs(b - u) / b < 0.1 for b, u in zip(scan["b_tesla"], scan["b_used_tesla"]))
+
+
+def test_field_scan_needs_physical_units_and_one_axis(tmp_path):
+    import subprocess
+    import sys
+
+    lattice = tmp_path / "lattice.toml"
+    lattice.write_text('[lattice]\nflux = "1/10"\n[spin]\nenabled = false\n[ribbon]\nwidth = 60\n')
+    cases = [
+        ([str(lattice), "--fields", "1:2:3"], "hallbar --fields: the scenario has no [field] section"),
+        ([str(_field_scenario(tmp_path)), "--fields", "1:2:3", "--energies", "0:1:3"],
+         "got both --energies and --fields"),
+        ([str(_field_scenario(tmp_path)), "--fields=-1:2:3"], "expected a range of one sign"),
+    ]
+    for args, message in cases:
+        out = tmp_path / "never"
+        proc = subprocess.run([sys.executable, "-m", "topoedge", "hallbar", *args, "--out", str(out)],
+                              capture_output=True, text=True, cwd=tmp_path)
+        assert proc.returncode == 2 and proc.stderr.count("\n") == 1 and message in proc.stderr, proc.stderr
+        assert not out.exists()

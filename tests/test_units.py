@@ -15,6 +15,7 @@ Sources:
 from __future__ import annotations
 
 import math
+from fractions import Fraction
 
 import numpy as np
 import pytest
@@ -69,6 +70,26 @@ def test_gaas_at_5_tesla_has_filling_two():
     assert derived.zeeman_t == pytest.approx(zeeman_mev(-0.44, derived.b_used_tesla) / derived.hopping_mev,
                                              rel=1e-12)
     assert derived.warnings == ()
+
+
+def test_density_puts_fermi_energy_above_whole_landau_levels_when_p_exceeds_one():
+    # With q_max = 200 the GaAs field 5 T rounds to flux 2/135: every lattice
+    # Landau level is p = 2 Hofstadter sub-bands (Hofstadter, Phys. Rev. B 14,
+    # 2239 (1976)), so filling 2 is the gap above 4 bands, where the Chern sum
+    # is 2 (TKNN: 4 = 135 s + 2 t has t = 2, s = 0; Phys. Rev. Lett. 49, 405 (1982)).
+    from topoedge.pipeline import bulk_chern, fermi_level
+
+    s = parse_scenario({**GAAS, "field": {**GAAS["field"], "q_max": 200}, "chern": {"grid": [270, 8],
+                                                                                   "refine": False}})
+    lattice, d = lattice_scenario(s)
+    assert lattice.lattice.flux == Fraction(2, 135)
+    assert lattice.fermi.gap == 4
+    chern, _, _ = bulk_chern(lattice)
+    ef, gap = fermi_level(lattice, chern)
+    assert gap.chern == 2 and gap.below == 4
+    # E_F lies between the spin-split lowest level and the next one (meV above the band bottom).
+    hw = cyclotron_mev(0.067, d.b_used_tesla)
+    assert 0.5 * hw < (ef + 4.0) * d.hopping_mev < 1.5 * hw
 
 
 def test_lattice_landau_levels_of_the_gaas_scenario():

@@ -7,6 +7,10 @@ same finalized ribbon and momenta.
 diagonalisation, gap search, link variables) against the bare batched
 diagonalisation of the same grid.
 
+``bench_hallbar``: the S-matrix of the scenario's Hall bar with kwant's MUMPS
+solver (when kwant was built with it) against SciPy's sparse solver, at
+several bar sizes.
+
 Both sides of each comparison run in one process, one after the other; the
 ratios are what matters, since the machines are shared and absolute times are
 noisy.
@@ -27,7 +31,7 @@ from .pipeline import build_bulk, fermi_level, scenario_potential
 from .builders import model_params, ribbon_builder
 from .spectrum import k_grid, ribbon_spectrum
 
-__all__ = ["bench_ribbon", "bench_chern"]
+__all__ = ["bench_ribbon", "bench_chern", "bench_hallbar", "mumps_available"]
 
 
 def _timed(func):
@@ -180,3 +184,90 @@ def bench_chern(q: int = 50, *, repeats: int = 2) -> dict:
         "tknn_agree": bool(tknn),
         "refined_agree": [g.chern for g in result.gaps] == [g.chern for g in refined.gaps],
     }
+
+
+def mumps_available() -> bool:
+    """Whether this kwant build has its MUMPS solver (``kwant.solvers.mumps``)."""
+    try:
+        import kwant.solvers.mumps  # noqa: F401
+    except ImportError:
+        return False
+    return True
+
+
+def bench_hallbar(scenario: Scenario, sizes=None, *, repeats: int = 1) -> dict:
+    """Time the Hall-bar S-matrix with kwant's MUMPS and SciPy sparse solvers.
+
+    Parameters
+    ----------
+    scenario : Scenario
+        Model and Fermi energy (the E_F of ``run``); its Hall bar
+        (``hallbar.length``, ``hallbar.width``) is the first size.
+    sizes : sequence of (int, int), optional
+        Bars ``(length, width)`` in sites to time (default: the scenario's
+        bar and the bars 2x and 4x larger in each direction).
+    repeats : int
+        Each solver is timed this many times per size; the fastest counts.
+
+    Returns
+    -------
+    dict
+        Per size: orbitals, seconds per solver (``scipy_sparse`` always;
+        when this kwant build has MUMPS, ``mumps_amd`` as the Hall bar uses
+        it and ``mumps_kwant_ordering`` with kwant's default ordering), the
+        ratio scipy / mumps_amd, per solver the sum-rule violation of the
+        conductance matrix and its largest difference from SciPy's (e^2/h),
+        and R_xy (h/e^2) as :func:`topoedge.hallbar.hall_resistances`
+        reports it; and whether MUMPS is available.
+    """
+    import kwant
+    import kwant.solvers.sparse as sparse
+
+    from .hallbar import hall_resistances, hallbar_params, sum_rule_violation
+    from .pipeline import _hallbar_system, fermi_level, bulk_chern, replace_chern_refine
+
+    scenario, _ = lattice_scenario(scenario)
+    if scenario.fermi.energy is not None:
+        ef = float(scenario.fermi.energy)
+    else:
+        ef = fermi_level(scenario, bulk_chern(replace_chern_refine(scenario))[0])[0]
+    bar = scenario.hallbar
+    if sizes is None:
+        sizes = [(bar.length * f, bar.width * f) for f in (1, 2, 4)]
+    solvers = {"scipy_sparse": sparse.smatrix}
+    have_mumps = mumps_available()
+    if have_mumps:
+        import kwant.solvers.mumps as mumps
+
+        amd = mumps.Solver()
+        amd.options(ordering="amd")
+        solvers["mumps_amd"] = amd.smatrix
+        solvers["mumps_kwant_ordering"] = mumps.smatrix
+    rows = []
+    for length, width in sizes:
+        at = replace(scenario, hallbar=replace(bar, length=int(length), width=int(width)))
+        fsyst, params = _hallbar_system(at)
+        full = hallbar_params(fsyst, params)
+        row = {"length": int(length), "width": int(width),
+               "orbitals": int(sum(s.family.norbs for s in fsyst.sites)), "seconds": {}}
+        row["sum_rule_violation"] = {}
+        row["max_conductance_difference"] = {}
+        reference = None
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            for name, smatrix in solvers.items():
+                times = []
+                for _ in range(repeats):
+                    dt, smat = _timed(lambda: smatrix(fsyst, ef, params=full))
+                    times.append(dt)
+                row["seconds"][name] = min(times)
+                g = np.asarray(smat.conductance_matrix(), dtype=float)
+                reference = g if reference is None else reference
+                row["sum_rule_violation"][name] = sum_rule_violation(g)
+                row["max_conductance_difference"][name] = float(np.abs(g - reference).max())
+            row["r_xy"] = hall_resistances(fsyst, ef, params).r_xy
+        if have_mumps:
+            row["ratio_scipy_over_mumps_amd"] = row["seconds"]["scipy_sparse"] / row["seconds"]["mumps_amd"]
+        rows.append(row)
+    return {"fermi_energy_t": ef, "flux": str(scenario.lattice.flux), "mumps_available": have_mumps,
+            "default_solver": type(kwant.solvers.default.smatrix.__self__).__module__, "sizes": rows}

@@ -48,7 +48,9 @@ def _parser() -> argparse.ArgumentParser:
                      help="results folder (default: results/<scenario>-<date-time>)")
     run.add_argument("--force", action="store_true", help="replace an existing results folder")
 
-    bench = sub.add_parser("bench", parents=[common], help="time the ribbon spectrum against kwant.physics.Bands")
+    bench = sub.add_parser("bench", parents=[common],
+                           help="side-by-side timings: ribbon spectrum vs kwant.physics.Bands, Chern numbers "
+                                "vs bare diagonalisation, Hall bar with MUMPS vs SciPy")
     bench.add_argument("config", nargs="?", default=None, help="scenario TOML file (default: the shipped default)")
     bench.add_argument("--width", type=int, default=400, help="sites across the ribbon per spin (default 400)")
     bench.add_argument("--k-points", type=int, default=200, help="number of momenta (default 200)")
@@ -56,14 +58,22 @@ def _parser() -> argparse.ArgumentParser:
                        help="half-width of the energy window around E_F, units of t (default 0.5)")
     bench.add_argument("--chern-q", type=int, default=50,
                        help="Chern benchmark at flux 1/q, spinless (default 50)")
-    bench.add_argument("--parts", default="ribbon,chern",
-                       help="comma-separated benchmarks to run: ribbon, chern (default both)")
+    bench.add_argument("--parts", default="ribbon,chern,hallbar",
+                       help="comma-separated benchmarks to run: ribbon, chern, hallbar (default all)")
+    bench.add_argument("--bars", default=None, metavar="LxW,...",
+                       help="Hall-bar sizes in sites for the hallbar part (default: the scenario's "
+                            "bar and the bars 2x and 4x larger)")
 
     bar = sub.add_parser("hallbar", parents=[common],
                          help="Hall and longitudinal resistance of the scenario's Hall bar over a range of E_F")
     bar.add_argument("config", nargs="?", default=None, help="scenario TOML file (default: the shipped default)")
     bar.add_argument("--energies", default=None, metavar="LO:HI:N",
                      help="E_F from LO to HI (t) in N steps (default: from the band bottom to 1.5 (E_F - bottom) above it, 41 steps)")
+    bar.add_argument("--fields", default=None, metavar="LO:HI:N",
+                     help="instead of E_F, scan the field from LO to HI tesla in N steps at fixed E_F "
+                          "(scenarios with [material] and [field])")
+    bar.add_argument("--jobs", type=int, default=None,
+                     help="with --fields: worker processes for the bulk Chern numbers (default: all cores)")
     bar.add_argument("--out", type=Path, default=None, help="results folder (default: results/hallbar-<date-time>)")
     bar.add_argument("--force", action="store_true", help="replace an existing results folder")
 
@@ -142,9 +152,18 @@ def _cmd_bench(args) -> int:
     from .bench import bench_chern, bench_ribbon
 
     parts = [p.strip() for p in args.parts.split(",") if p.strip()]
-    unknown = sorted(set(parts) - {"ribbon", "chern"})
+    unknown = sorted(set(parts) - {"ribbon", "chern", "hallbar"})
     if unknown or not parts:
-        raise ConfigError(f"bench --parts: got {args.parts!r}; expected a comma-separated subset of ribbon, chern")
+        raise ConfigError(f"bench --parts: got {args.parts!r}; expected a comma-separated subset of "
+                          "ribbon, chern, hallbar")
+    bars = None
+    if args.bars is not None:
+        try:
+            bars = [tuple(int(n) for n in item.lower().split("x")) for item in args.bars.split(",")]
+            assert bars and all(len(b) == 2 and b[0] >= 16 and b[1] >= 8 for b in bars)
+        except (ValueError, AssertionError):
+            raise ConfigError(f"bench --bars: got {args.bars!r}; expected comma-separated LENGTHxWIDTH "
+                              "sizes in sites, length >= 16 and width >= 8 (e.g. 80x40,160x80)") from None
     if args.width < 2 or args.k_points < 2 or not args.window > 0 or args.chern_q < 2:
         raise ConfigError(
             f"bench: got --width {args.width}, --k-points {args.k_points}, --window {args.window}, "
@@ -178,12 +197,35 @@ def _cmd_bench(args) -> int:
         _say(args, f"  bare diagonalisation {s['bare_diagonalisation']:.3f} s, whole Chern computation "
                    f"{s['chern_whole']:.3f} s: ratio {c['ratio_whole_over_bare']:.2f}")
         _say(args, f"  (convergence check on the 1.5x finer grid: {s['chern_refined_grid']:.3f} s)")
+    if "hallbar" in parts:
+        from .bench import bench_hallbar
+
+        _say(args, "Hall-bar benchmark: S-matrix with kwant's MUMPS solver against SciPy's sparse solver "
+                   "(same bar, same E_F) ...")
+        try:
+            report["hallbar"] = h = bench_hallbar(scenario, bars)
+        except ValueError as err:
+            raise ConfigError(f"bench hallbar: {err}") from None
+        _say(args, f"  flux {h['flux']}, E_F = {h['fermi_energy_t']:.4f} t; kwant's default solver: "
+                   f"{h['default_solver']}")
+        if not h["mumps_available"]:
+            _say(args, "  MUMPS: not in this kwant build (python3 tasks.py setup --mumps adds it); "
+                       "SciPy's solver timed alone")
+        _say(args, f"  {'bar (sites)':14s} {'orbitals':>8s}  solver                seconds  sum rule  max |dG - dG_scipy|")
+        for row in h["sizes"]:
+            for i, (name, sec) in enumerate(row["seconds"].items()):
+                size = f"{row['length']:>5d} x {row['width']:<6d} {row['orbitals']:8d}" if i == 0 else " " * 23
+                _say(args, f"  {size}  {name:20s} {sec:8.3f}  {row['sum_rule_violation'][name]:8.1e}  "
+                           f"{row['max_conductance_difference'][name]:8.1e}")
+            ratio = (f"; scipy / mumps_amd = {row['ratio_scipy_over_mumps_amd']:.2f}x"
+                     if "ratio_scipy_over_mumps_amd" in row else "")
+            _say(args, f"  {'':23s}  R_xy = {row['r_xy']:.8f} h/e^2{ratio}")
     if args.json:
         print(json.dumps(report, indent=2))
     return 0
 
 
-def _energies(text: str | None) -> tuple[float, float, int] | None:
+def _scan_range(text: str | None, option: str, unit: str) -> tuple[float, float, int] | None:
     if text is None:
         return None
     parts = text.split(":")
@@ -191,32 +233,53 @@ def _energies(text: str | None) -> tuple[float, float, int] | None:
         lo, hi, n = float(parts[0]), float(parts[1]), int(parts[2])
         assert len(parts) == 3 and lo < hi and n >= 2
     except (ValueError, IndexError, AssertionError):
-        raise ConfigError(f"hallbar --energies: got {text!r}; expected LO:HI:N with LO < HI (t) and N >= 2 steps")
+        raise ConfigError(f"hallbar {option}: got {text!r}; expected LO:HI:N with LO < HI ({unit}) and N >= 2 steps")
     return lo, hi, n
 
 
 def _cmd_hallbar(args) -> int:
-    """Scan of the Hall bar over E_F into a results folder (summary, HDF5, figure)."""
+    """Scan of the Hall bar over E_F or B into a results folder (summary, HDF5, figure)."""
     import numpy as np
 
-    window = _energies(args.energies)
+    if args.energies is not None and args.fields is not None:
+        raise ConfigError("hallbar: got both --energies and --fields; expected one scan axis")
+    window = _scan_range(args.energies, "--energies", "t")
+    fields = _scan_range(args.fields, "--fields", "tesla")
     scenario = load_scenario(args.config, args.overrides)
+    if fields is not None:
+        if scenario.field.b_tesla is None:
+            raise ConfigError("hallbar --fields: the scenario has no [field] section; expected a scenario "
+                              "in physical units ([material] and [field], e.g. configs/gaas-5T.toml)")
+        if args.jobs is not None and args.jobs < 1:
+            raise ConfigError(f"hallbar --jobs: got {args.jobs}; expected at least 1 worker")
+        if fields[0] * fields[1] <= 0:
+            raise ConfigError(f"hallbar --fields: got {args.fields!r}; expected a range of one sign without 0 T")
     out = args.out if args.out is not None else _default_out(f"hallbar-{Path(args.config or DEFAULT_SCENARIO).stem}")
     from .results import check_destination, write_folder, write_json
 
     check_destination(out, force=args.force)
-    from .pipeline import bulk_chern, fermi_level, hallbar_scan, replace_chern_refine
+    from .pipeline import bulk_chern, fermi_level, hallbar_field_scan, hallbar_scan, replace_chern_refine
 
     model, _ = lattice_scenario(scenario)
-    if window is None:
-        chern, _, _ = bulk_chern(replace_chern_refine(model))
-        ef, _ = fermi_level(model, chern)
-        bottom = min(b.energy_min for b in chern.bands)
-        window = (bottom, ef + 1.5 * (ef - bottom), 41)
-    energies = np.linspace(*window)
-    scan = hallbar_scan(scenario, energies, progress=sys.stdout.isatty() and not args.quiet)
+    progress = sys.stdout.isatty() and not args.quiet
+    if fields is not None:
+        try:
+            scan = hallbar_field_scan(scenario, np.linspace(*fields), jobs=args.jobs, progress=progress)
+        except ValueError as err:
+            raise ConfigError(f"hallbar --fields: {err}") from None
+        axis, units = "b_tesla", ("B in tesla (b_used_tesla: the field of the rounded flux); E_F fixed "
+                                  "(fermi_t in t, fermi_mev above the band bottom)")
+    else:
+        if window is None:
+            chern, _, _ = bulk_chern(replace_chern_refine(model))
+            ef, _ = fermi_level(model, chern)
+            bottom = min(b.energy_min for b in chern.bands)
+            window = (bottom, ef + 1.5 * (ef - bottom), 41)
+        scan = hallbar_scan(scenario, np.linspace(*window), progress=progress)
+        axis, units = "energy", "E_F in t"
     summary = {"title": scenario.title, "source": scenario.source, "config": scenario.to_dict(),
-               "units": "energy in t; r_xy, r_xx in h/e^2; r_xy_bulk = -1/C from the bulk Chern sum", **scan}
+               "units": f"{units}; r_xy, r_xx in h/e^2 (per spin: r_xy_up, ...); r_xy_bulk = -1/C "
+                        "from the bulk Chern sum", **scan}
     summary = json.loads(json.dumps(summary).replace("NaN", "null"))
 
     import matplotlib
@@ -227,9 +290,12 @@ def _cmd_hallbar(args) -> int:
 
     from .plotting import hallbar_figure
 
+    where = (f"flux {model.lattice.flux}" if fields is None
+             else f"E_F = {scan['fermi_mev']:.3f} meV above the band bottom")
+
     def figure(path: Path) -> None:
-        fig = hallbar_figure(scan, title=f"{scenario.title or 'Hall bar'}: {model.hallbar.length}x"
-                             f"{model.hallbar.width} sites, flux {model.lattice.flux}")
+        fig = hallbar_figure(scan, axis=axis, title=f"{scenario.title or 'Hall bar'}: {model.hallbar.length}x"
+                             f"{model.hallbar.width} sites, {where}")
         try:
             fig.savefig(path, dpi=150)
         finally:
@@ -237,18 +303,35 @@ def _cmd_hallbar(args) -> int:
 
     def h5(path: Path) -> None:
         with h5py.File(path, "w") as f:
-            for key in ("energy", "r_xy", "r_xx", "r_xy_sem", "r_xx_sem"):
-                f.create_dataset(key, data=np.asarray(scan[key], dtype=float))
-            f.create_dataset("chern", data=np.array([np.nan if c is None else c for c in scan["chern"]], dtype=float))
+            for key, value in scan.items():
+                if key == "errors" or not isinstance(value, list):
+                    continue
+                if key == "flux":
+                    f.create_dataset(key, data=np.array(value, dtype="S"))
+                else:
+                    f.create_dataset(key, data=np.array([np.nan if v is None else v for v in value], dtype=float))
+            for key in ("fermi_t", "fermi_mev"):
+                if key in scan:
+                    f.attrs[key] = scan[key]
             f.attrs["scenario_json"] = json.dumps(scenario.to_dict(), sort_keys=True)
             f.attrs["units"] = summary["units"]
 
     write_folder(out, {"summary.json": write_json(summary), "hallbar.h5": h5, "hallbar.png": figure}, force=args.force)
     if args.json:
         print(json.dumps(summary, indent=2))
-    ok = [(e, r) for e, r in zip(scan["energy"], scan["r_xy"]) if r == r]
-    _say(args, f"topoedge hallbar: {len(energies)} Fermi energies from {energies[0]:.4f} to {energies[-1]:.4f} t, "
-               f"{len(ok)} solved, {len(scan['errors'])} without open channels in every lead")
+    xs = scan[axis]
+    ok = sum(1 for r in scan["r_xy"] if r == r)
+    what = "Fermi energies" if fields is None else "fields"
+    unit = "t" if fields is None else "T"
+    _say(args, f"topoedge hallbar: {len(xs)} {what} from {xs[0]:.4f} to {xs[-1]:.4f} {unit}"
+               + ("" if fields is None else f" at {where}")
+               + f", {ok} solved, {len(scan['errors'])} without open channels in every lead")
+    if fields is not None:
+        off = [(b, u) for b, u in zip(scan["b_tesla"], scan["b_used_tesla"]) if abs(u - b) > 0.02 * abs(b)]
+        if off:
+            b, u = max(off, key=lambda p: abs(p[1] - p[0]) / abs(p[0]))
+            _say(args, f"  warning      {len(off)} field(s) differ from the flux actually used by more than 2 % "
+                       f"(worst: {b:g} T -> {u:.4g} T); raise field.q_max (now {scenario.field.q_max})")
     _say(args, f"  results      {out}/ (summary.json, hallbar.h5, hallbar.png)")
     return 0
 

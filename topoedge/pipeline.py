@@ -45,7 +45,7 @@ from .streda import StredaResult, streda_slope
 
 __all__ = [
     "RunResult", "VON_KLITZING", "build_bulk", "build_ribbon", "bulk_chern", "bulk_edge_check",
-    "fermi_level", "hallbar_route", "hallbar_scan", "run_scenario", "scenario_potential", "summarize",
+    "fermi_level", "hallbar_field_scan", "hallbar_route", "hallbar_scan", "run_scenario", "scenario_potential", "summarize",
 ]
 
 
@@ -197,11 +197,19 @@ def hallbar_route(scenario: Scenario, ef: float) -> tuple[dict | None, str | Non
         result = disorder_average(fsyst, ef, params, seeds=range(bar.seeds))
     except ValueError as err:
         return None, str(err)
+    by_spin = None
+    if result.by_spin is not None:
+        by_spin = {
+            name: None if value is None else {
+                **value, "sigma_xy": -1.0 / value["r_xy"] if value["r_xy"] else None}
+            for name, value in result.by_spin.items()
+        }
     return {
         "r_xy": result.r_xy, "r_xy_sem": result.r_xy_sem,
         "r_xx": result.r_xx, "r_xx_sem": result.r_xx_sem,
         "r_xy_ohm": result.r_xy_ohm, "r_xx_ohm": result.r_xx_ohm,
         "sigma_xy": -1.0 / result.r_xy if result.r_xy else None,
+        "by_spin": by_spin,
         "length": bar.length, "width": bar.width, "disorder": bar.disorder, "seeds": bar.seeds,
     }, None
 
@@ -217,7 +225,17 @@ def _hallbar_system(scenario: Scenario):
     def potential(d):
         return shape(np.asarray(d, dtype=float), width=edge.width, height=edge.height, table=edge.table)
 
+    # Voltage probes: a quarter of the bar, at least 6 columns, and with a
+    # flat middle of at least 12 columns between the edge potentials of their
+    # two side walls (where it has decayed below a hundredth of its edge
+    # value), so that the lowest Landau levels fit in them.
     probe = max(6, bar.width // 4)
+    if edge.profile != "none":
+        d = np.arange(bar.length, dtype=float)
+        v = np.abs(potential(d))
+        flat = np.nonzero(v <= 1e-2 * v[0])[0]
+        if flat.size:
+            probe = max(probe, 2 * int(flat[0]) + 12)
     builder = hallbar_builder(
         bar.length, bar.width, lead_width=bar.width, spin=scenario.spin.enabled, probe_width=probe,
         probe_positions=(bar.length // 4 - probe // 2, 3 * bar.length // 4 - probe // 2),
@@ -226,42 +244,180 @@ def _hallbar_system(scenario: Scenario):
     return builder.finalized(), dict(_params(scenario), disorder=bar.disorder, seed=0)
 
 
+_SCAN_KEYS = ("r_xy", "r_xx", "r_xy_sem", "r_xx_sem", "r_xy_up", "r_xx_up", "r_xy_down", "r_xx_down")
+
+
+def _bulk_point(chern: ChernResult, energy: float) -> dict:
+    """Bulk prediction at ``energy``: Chern sum, spin Chern numbers and -1/C (None in a band)."""
+    from .chern import GapClosedError
+
+    try:
+        gap = chern.gap_at(energy)
+        c, spin_c = gap.chern, gap.spin_chern
+    except GapClosedError:
+        c, spin_c = None, None
+    return {"chern": c, "r_xy_bulk": -1.0 / c if c else None,
+            "chern_up": spin_c.get("up") if spin_c else None,
+            "chern_down": spin_c.get("down") if spin_c else None}
+
+
+def _hall_point(fsyst, params: dict, energy: float, seeds: int) -> tuple[dict, str | None]:
+    """Resistances of one scan point (h/e^2; NaN and the reason when the bar cannot be solved)."""
+    from .hallbar import disorder_average
+
+    try:
+        r = disorder_average(fsyst, energy, params, seeds=range(seeds))
+    except ValueError as err:
+        return {key: float("nan") for key in _SCAN_KEYS}, str(err)
+    point = dict(r_xy=r.r_xy, r_xx=r.r_xx, r_xy_sem=r.r_xy_sem, r_xx_sem=r.r_xx_sem)
+    for name in ("up", "down"):
+        value = (r.by_spin or {}).get(name)
+        point[f"r_xy_{name}"] = value["r_xy"] if value else float("nan")
+        point[f"r_xx_{name}"] = value["r_xx"] if value else float("nan")
+    return point, None
+
+
 def hallbar_scan(scenario: Scenario, energies, *, progress: bool = False) -> dict:
     """R_xy and R_xx of the scenario's Hall bar over a range of Fermi energies.
 
     Returns a JSON-able dict of lists: ``energy`` (t), ``r_xy``, ``r_xx``
     (h/e^2, NaN where some lead has no open channel), their standard errors
-    ``r_xy_sem``, ``r_xx_sem``, the bulk prediction ``chern`` (Chern sum below
-    E, None inside a bulk band) and ``r_xy_bulk = -1/C`` (None for C = 0 or in
-    a band), and ``errors`` (energy, message) where the bar could not be solved.
+    ``r_xy_sem``, ``r_xx_sem``, per spin sector ``r_xy_up``, ``r_xx_up``,
+    ``r_xy_down``, ``r_xx_down`` (each sector as a conductor of its own; NaN
+    without spin or without an open channel of that spin in every lead), the
+    bulk prediction ``chern`` (Chern sum below E, None inside a bulk band),
+    ``chern_up``, ``chern_down`` (spin Chern numbers) and ``r_xy_bulk = -1/C``
+    (None for C = 0 or in a band), and ``errors`` (energy, message) where the
+    bar could not be solved.
     """
     from tqdm.auto import tqdm
-
-    from .chern import GapClosedError
-    from .hallbar import disorder_average
 
     scenario, _ = lattice_scenario(scenario)
     chern, _, _ = bulk_chern(replace_chern_refine(scenario))
     fsyst, params = _hallbar_system(scenario)
-    out = {key: [] for key in ("energy", "r_xy", "r_xx", "r_xy_sem", "r_xx_sem", "chern", "r_xy_bulk")}
+    out: dict = {"energy": []}
     errors = []
     for energy in tqdm(np.asarray(energies, dtype=float), disable=not progress, desc="Hall bar", leave=False):
-        try:
-            gap = chern.gap_at(float(energy))
-            c = gap.chern
-        except GapClosedError:
-            c = None
-        try:
-            r = disorder_average(fsyst, float(energy), params, seeds=range(scenario.hallbar.seeds))
-            values = (r.r_xy, r.r_xx, r.r_xy_sem, r.r_xx_sem)
-        except ValueError as err:
-            values = (float("nan"),) * 4
-            errors.append([float(energy), str(err)])
+        values, error = _hall_point(fsyst, params, float(energy), scenario.hallbar.seeds)
+        point = {**_bulk_point(chern, float(energy)), **values}
         out["energy"].append(float(energy))
-        for key, value in zip(("r_xy", "r_xx", "r_xy_sem", "r_xx_sem"), values):
-            out[key].append(value)
-        out["chern"].append(c)
-        out["r_xy_bulk"].append(-1.0 / c if c else None)
+        for key, value in point.items():
+            out.setdefault(key, []).append(value)
+        if error:
+            errors.append([float(energy), error])
+    out["errors"] = errors
+    return out
+
+
+def _field_bulk(model: Scenario) -> ChernResult:
+    """Chern numbers of a field-scan point's bulk (a process-pool task)."""
+    from .butterfly import butterfly_grid
+
+    return chern_numbers(build_bulk(model), grid=butterfly_grid(model.lattice.flux.denominator),
+                         gap_min=model.chern.gap_min)
+
+
+def hallbar_field_scan(scenario: Scenario, fields_tesla, *, jobs: int | None = None,
+                       progress: bool = False) -> dict:
+    """R_xy and R_xx of the scenario's Hall bar over the magnetic field at fixed E_F.
+
+    The scenario must be in physical units (``[material]`` and ``[field]``).
+    At every field ``B`` the lattice model is derived anew (flux rounded to
+    ``p/q`` with ``q <= field.q_max``, Zeeman splitting ``-g mu_B B``), while
+    the Fermi energy is held fixed: ``field.fermi_mev`` above the band
+    bottom, or, for a scenario given by its density, the E_F that the density
+    gives at the scenario's own field (the middle of the gap above the
+    nearest integer filling). The bar's geometry does not change. The bulk
+    prediction at each field is the Chern sum below E_F on the momentum grid
+    of :func:`topoedge.butterfly.butterfly_grid`, computed once per distinct
+    flux in ``jobs`` worker processes while this process solves the bars.
+
+    Parameters
+    ----------
+    scenario : Scenario
+    fields_tesla : array_like
+        Fields B in tesla (one sign, no zero).
+    jobs : int, optional
+        Worker processes for the bulk Chern numbers (default: all cores; 1
+        computes them here).
+    progress : bool
+        Show a progress bar.
+
+    Returns
+    -------
+    dict
+        ``b_tesla`` (requested), ``b_used_tesla`` (the field of the rounded
+        flux), ``flux`` (``"p/q"``), ``filling`` (``n h / (e B)`` for a
+        density, else None), ``fermi_t`` and ``fermi_mev`` (fixed), and the
+        lists of :func:`hallbar_scan` (without ``energy``), ``errors`` as
+        ``[B, message]``.
+
+    Raises
+    ------
+    ValueError
+        If the scenario has no ``[field]`` section, or a field cannot be
+        represented (the message names it).
+    """
+    import multiprocessing
+    import os
+    from concurrent.futures import ProcessPoolExecutor
+    from dataclasses import replace
+
+    from tqdm.auto import tqdm
+
+    if scenario.field.b_tesla is None:
+        raise ValueError("a field scan needs a scenario in physical units: add [material] and [field] "
+                         "(field.b_tesla and field.fermi_mev or field.density_cm2)")
+    base, base_units = lattice_scenario(scenario)
+    if base.fermi.energy is not None:
+        fermi_t = float(base.fermi.energy)
+    else:
+        chern, _, _ = bulk_chern(replace_chern_refine(base))
+        fermi_t, _ = fermi_level(base, chern)
+    fields = [float(b) for b in np.asarray(fields_tesla, dtype=float)]
+    models = []
+    for b in fields:
+        try:
+            models.append(lattice_scenario(replace(scenario, field=replace(scenario.field, b_tesla=b))))
+        except ValueError as err:
+            raise ValueError(f"field scan at B = {b:g} T: {err}") from None
+    fsyst, _ = _hallbar_system(base)
+    # One bulk computation per distinct lattice model (fields rounding to the
+    # same flux share it), started first so that it runs beside the bars.
+    distinct = {}
+    for model, _ in models:
+        distinct.setdefault((model.lattice.flux, model.spin.zeeman), model)
+    workers = min(jobs or os.cpu_count() or 1, len(distinct))
+    pool = None
+    if workers > 1:
+        from .butterfly import _init_worker
+
+        pool = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("spawn"),
+                                   initializer=_init_worker)
+    try:
+        bulk = {key: pool.submit(_field_bulk, model) if pool else None for key, model in distinct.items()}
+        bars = []
+        for b, (model, _) in tqdm(list(zip(fields, models)), disable=not progress, desc="Hall bars",
+                                  leave=False):
+            params = dict(_params(model), disorder=model.hallbar.disorder, seed=0)
+            bars.append(_hall_point(fsyst, params, fermi_t, model.hallbar.seeds))
+        chern = {key: future.result() if pool else _field_bulk(distinct[key]) for key, future in bulk.items()}
+    finally:
+        if pool is not None:
+            pool.shutdown(cancel_futures=True)
+    out: dict = {"b_tesla": [], "b_used_tesla": [], "flux": [], "filling": [],
+                 "fermi_t": fermi_t, "fermi_mev": (fermi_t + 4.0) * base_units.hopping_mev}
+    errors = []
+    for b, (model, units), (values, error) in zip(fields, models, bars):
+        point = {**_bulk_point(chern[(model.lattice.flux, model.spin.zeeman)], fermi_t), **values}
+        out["b_tesla"].append(b)
+        out["b_used_tesla"].append(units.b_used_tesla)
+        out["flux"].append(str(model.lattice.flux))
+        out["filling"].append(units.filling)
+        for key, value in point.items():
+            out.setdefault(key, []).append(value)
+        if error:
+            errors.append([b, error])
     out["errors"] = errors
     return out
 

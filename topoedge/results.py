@@ -311,6 +311,12 @@ def _topology_lines(summary: dict) -> list[str]:
         lines.append(f"  Hall bar     {hb['length']}x{hb['width']} sites, W_dis = {hb['disorder']:g} t, "
                      f"{hb['seeds']} seed(s): R_xy = {hb['r_xy']:.8f} h/e^2 ({hb['r_xy_ohm']:.3f} ohm), "
                      f"R_xx = {hb['r_xx']:.2e} h/e^2")
+        if hb.get("by_spin"):
+            parts = []
+            for name, value in hb["by_spin"].items():
+                parts.append(f"{name}: no open channel in some lead" if value is None else
+                             f"{name}: R_xy = {value['r_xy']:.6f}, R_xx = {value['r_xx']:.1e} h/e^2")
+            lines.append(f"               per spin  {'; '.join(parts)}")
     if h.get("hallbar_error"):
         lines.append(f"               Hall bar: {h['hallbar_error']}")
     agree = "yes" if c["bulk_edge_agree"] else "NO"
