@@ -549,10 +549,15 @@ def test_cli_interrupt_while_writing_leaves_nothing(tmp_path, tiny_config, monke
 
 def test_bench_json(tmp_path):
     proc = topoedge_cli("bench", "--width", 20, "--k-points", 5, "--chern-q", 6, "--bars", "80x40",
-                        "--json", cwd=tmp_path)
+                        "--hf-size", "40x16", "--json", cwd=tmp_path)
     assert proc.returncode == 0, proc.stderr
     full = leading_json(proc.stdout)
-    assert full.keys() == {"ribbon", "chern", "hallbar"}
+    assert full.keys() == {"ribbon", "chern", "hallbar", "hf"}
+    hf = full["hf"]
+    # Both mixings reach the same self-consistent state (rounding of the
+    # energy ~1e-12 t; 1e-8 t catches a different state).
+    assert hf["runs"]["diis"]["converged"] and hf["runs"]["linear"]["converged"]
+    assert hf["energy_difference_t"] < 1e-8
     report = full["ribbon"]
     assert {"ratios", "seconds", "max_energy_difference_t"} <= report.keys()
     assert report["width_per_spin"] == 20 and report["k_points"] == 5
@@ -571,6 +576,12 @@ def test_bench_json(tmp_path):
     assert "scipy_sparse" in bar[0]["seconds"]
     assert all(v < 1e-9 for v in bar[0]["max_conductance_difference"].values())
     assert listing(tmp_path) == []  # bench writes no files
+
+
+def test_bench_rejects_bad_hf_size(tmp_path):
+    proc = topoedge_cli("bench", "--parts", "hf", "--hf-size", "40x15", cwd=tmp_path)
+    assert proc.returncode == 2 and proc.stdout == ""
+    assert_one_error_line(proc.stderr, "--hf-size", "multiple of 4")
 
 
 def test_bench_rejects_bad_bar_sizes(tmp_path):

@@ -183,6 +183,8 @@ def test_python_example_runs():
     # (band Chern numbers -2, 3, -2, 3, -2 and gap sums t_r of r = 5 s + 2 t;
     # TKNN, PRL 49, 405 (1982)).
     text = out.getvalue()
+    # The Hartree-Fock example prints what the README says it prints.
+    assert "True 6 1.0" in text.splitlines(), text
     for quoted in ("edge net: bottom +2, top -2",
                    "band C: [-2, 3, -2, 3, -2] gap C: [-2, 1, -1, 2]"):
         assert quoted in text, text

@@ -130,12 +130,12 @@ def test_fock_term_by_fft_equals_the_real_space_sum():
             assert np.abs(fk - fock_k[s, j]).max() < 1e-12
 
 
-def _nu_one(width=60, q=40, ramp=4.0, coulomb=0.1):
+def _nu_one(width=60, q=40, ramp=4.0, coulomb=0.1, k_points=32):
     phi = Fraction(1, q)
     up, down = _blocks(width, phi, 0.02)
     background = background_density(width, float(phi), ramp, setback=2)
     inter = Interaction(coulomb=coulomb, onsite=coulomb * CELL_AVERAGE)
-    return HartreeFockRibbon(up, down, background, inter, k_points=32), phi
+    return HartreeFockRibbon(up, down, background, inter, k_points=k_points), phi
 
 
 def test_self_consistent_filling_one_is_neutral_and_polarised():
@@ -201,3 +201,63 @@ def test_pair_kernel_uses_nearest_images():
     assert v[0, 0, 0] == 2.0 and v[0, 0, 1] == pytest.approx(1 / 3)
     assert v[1, 0, 0] == pytest.approx(1.0) and v[7, 0, 0] == pytest.approx(1.0)
     assert v[4, 0, 0] == pytest.approx(1 / 4)
+
+
+def test_effective_hamiltonian_reproduces_the_self_consistent_bands():
+    # The self-consistent Hamiltonian as a ribbon with far hoppings equals the
+    # loop's H_s(k) on its momentum grid (Fourier series, to rounding), and
+    # its spectrum from the ribbon solvers gives the same bands.
+    from topoedge.spectrum import ribbon_spectrum
+
+    hf, _ = _nu_one(width=40)
+    result = hf.solve("polarised", tol=1e-9)
+    eff = hf.effective(result)
+    h, _, _ = hf.hamiltonian(result.density_matrix)
+    bloch = eff.bloch(hf.k)
+    w = hf.width
+    assert np.abs(bloch[:, :w, :w] - h[0]).max() < 1e-12
+    assert np.abs(bloch[:, w:, w:] - h[1]).max() < 1e-12
+    assert np.abs(bloch[:, :w, w:]).max() == 0
+    spec = ribbon_spectrum(eff, hf.k)
+    both = np.sort(np.concatenate([result.energies[0], result.energies[1]], axis=1), axis=1)
+    assert np.abs(np.sort(spec.energy, axis=1) - both).max() < 1e-9
+
+
+def test_self_consistent_edge_of_filling_one_has_one_mode_per_edge():
+    # A sharp background edge at nu = 1 with the Coulomb energy of the order
+    # of the cyclotron energy (U_C = 0.4 t: E_C = 0.16 t, hbar omega_c =
+    # 0.157 t) keeps a single chiral spin-up mode per edge (Chamon and Wen,
+    # PRB 49, 8227 (1994): the sharp nu = 1 edge is stable); net chirality
+    # +1 / -1 = the Chern number of the filled level.
+    from topoedge.edges import count_edge_modes
+
+    # 40 momenta make the electrons per grid (1.4 per cell x 40) an integer,
+    # so the last level is full and E_F lies between it and the next one.
+    hf, _ = _nu_one(width=60, ramp=0.0, k_points=40, coulomb=0.4)
+    result = hf.solve("polarised", tol=1e-9)
+    levels = np.sort(result.energies.ravel())
+    filled = round(hf.electrons * hf.nk)
+    assert abs(filled - hf.electrons * hf.nk) < 1e-9
+    fermi = 0.5 * (levels[filled - 1] + levels[filled])
+    edges = count_edge_modes(hf.effective(result), fermi, k_points=200)
+    assert edges.in_gap, edges.message
+    assert edges.bottom.net == 1 and edges.top.net == -1
+    assert edges.bottom.counter_pairs == 0 and edges.top.counter_pairs == 0
+    assert edges.bottom.by_spin["up"]["net"] == 1 and edges.bottom.by_spin["down"]["net"] == 0
+
+
+def test_far_hoppings_velocity_is_the_derivative_of_the_bloch_matrix():
+    # dH/dk against a central finite difference (step 1e-5: error ~1e-10 t).
+    rng = np.random.default_rng(7)
+    n = 5
+
+    def rand():
+        return rng.normal(size=(n, n)) + 1j * rng.normal(size=(n, n))
+
+    h0 = rand()
+    ham = RibbonHamiltonian(h0=h0 + h0.conj().T, h1=rand(), position=np.arange(n, dtype=float),
+                            far=(rand(), rand()))
+    for k in (0.0, 0.7, 2.9):
+        numeric = (ham.bloch(k + 1e-5) - ham.bloch(k - 1e-5)) / 2e-5
+        assert np.abs(ham.velocity(k) - numeric).max() < 1e-8
+    assert ham.bandwidth() == n - 1

@@ -11,6 +11,10 @@ diagonalisation of the same grid.
 solver (when kwant was built with it) against SciPy's sparse solver, at
 several bar sizes.
 
+``bench_hf``: one Hartree-Fock iteration and whole self-consistent runs with
+DIIS and with linear mixing on the same ribbon, and the scaling of the
+exchange term with N_k and W.
+
 Both sides of each comparison run in one process, one after the other; the
 ratios are what matters, since the machines are shared and absolute times are
 noisy.
@@ -31,7 +35,7 @@ from .pipeline import build_bulk, fermi_level, scenario_potential
 from .builders import model_params, ribbon_builder
 from .spectrum import k_grid, ribbon_spectrum
 
-__all__ = ["bench_ribbon", "bench_chern", "bench_hallbar", "mumps_available"]
+__all__ = ["bench_ribbon", "bench_chern", "bench_hallbar", "bench_hf", "mumps_available"]
 
 
 def _timed(func):
@@ -271,3 +275,69 @@ def bench_hallbar(scenario: Scenario, sizes=None, *, repeats: int = 1) -> dict:
         rows.append(row)
     return {"fermi_energy_t": ef, "flux": str(scenario.lattice.flux), "mumps_available": have_mumps,
             "default_solver": type(kwant.solvers.default.smatrix.__self__).__module__, "sizes": rows}
+
+
+def bench_hf(*, width: int = 200, k_points: int = 256, flux: str = "1/40", coulomb: float = 0.4,
+             ramp: float = 10.0, tol: float = 1e-6, max_iter: int = 200) -> dict:
+    """Time the self-consistent Hartree-Fock ribbon: one iteration, whole runs, DIIS against linear mixing.
+
+    The model: square-lattice ribbon of ``width`` rows per spin at ``flux``,
+    Zeeman 0.01 t, filling 1 (background ``phi`` per site falling linearly
+    over ``ramp`` rows, 2 rows of setback), Coulomb ``U_C = coulomb`` t with
+    the cell-averaged on-site value, ``k_points`` momenta, starting fully
+    polarised.
+
+    Returns
+    -------
+    dict
+        Seconds of one iteration split into building ``H`` (Hartree and the
+        FFT exchange) and diagonalising it (with the new density matrix);
+        iterations and seconds of a whole converged run with DIIS and with
+        linear mixing (alpha = 0.3), their ratio, and the time of building
+        ``H`` at (N_k, W), (2 N_k, W)... for the scaling of the exchange.
+    """
+    from fractions import Fraction
+
+    from .hartree_fock import HartreeFockRibbon, Interaction, background_density
+    from .hamiltonian import RibbonHamiltonian
+
+    phi = Fraction(flux)
+
+    def problem(w, nk):
+        ham = RibbonHamiltonian.from_kwant(ribbon_builder(w, spin=True),
+                                           params=model_params(phi=phi, zeeman=0.01))
+        up, down = (ham.block(i) for i in ham.spin_blocks())
+        inter = Interaction(coulomb=coulomb, onsite=coulomb * 4 * np.log(1 + np.sqrt(2)))
+        return HartreeFockRibbon(up, down, background_density(w, float(phi), ramp, setback=2), inter,
+                                 k_points=nk)
+
+    hf = problem(width, k_points)
+    g = hf.initial("polarised")
+    t_build, (h, _, _) = _timed(lambda: hf.hamiltonian(g))
+    t_diag, _ = _timed(lambda: hf.solve_fixed(h))
+    runs = {}
+    for mixing in ("diis", "linear"):
+        seconds, result = _timed(lambda: hf.solve("polarised", mixing=mixing, alpha=0.3, tol=tol,
+                                                  max_iter=max_iter))
+        runs[mixing] = {"seconds": seconds, "iterations": result.iterations, "converged": result.converged,
+                        "energy_t": result.energy}
+    del hf, g, h
+    scaling = []
+    for w, nk in ((width // 2, k_points // 2), (width // 2, k_points), (width, k_points // 2), (width, k_points)):
+        small = problem(w, nk)
+        gs = small.initial("polarised")
+        seconds = min(_timed(lambda: small.hamiltonian(gs))[0] for _ in range(2))
+        scaling.append({"width": w, "k_points": nk, "build_seconds": seconds,
+                        "model_nk_log_nk_w2": nk * np.log2(nk) * w * w})
+    base = scaling[0]
+    for row in scaling:
+        row["time_ratio"] = row["build_seconds"] / base["build_seconds"]
+        row["model_ratio"] = row["model_nk_log_nk_w2"] / base["model_nk_log_nk_w2"]
+    return {
+        "width": width, "k_points": k_points, "flux": flux, "coulomb_t": coulomb,
+        "one_iteration_seconds": {"build_hamiltonian": t_build, "diagonalise_and_density": t_diag},
+        "runs": runs,
+        "iteration_ratio_linear_over_diis": runs["linear"]["iterations"] / runs["diis"]["iterations"],
+        "energy_difference_t": abs(runs["linear"]["energy_t"] - runs["diis"]["energy_t"]),
+        "exchange_scaling": scaling,
+    }

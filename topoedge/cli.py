@@ -58,8 +58,10 @@ def _parser() -> argparse.ArgumentParser:
                        help="half-width of the energy window around E_F, units of t (default 0.5)")
     bench.add_argument("--chern-q", type=int, default=50,
                        help="Chern benchmark at flux 1/q, spinless (default 50)")
-    bench.add_argument("--parts", default="ribbon,chern,hallbar",
-                       help="comma-separated benchmarks to run: ribbon, chern, hallbar (default all)")
+    bench.add_argument("--parts", default="ribbon,chern,hallbar,hf",
+                       help="comma-separated benchmarks to run: ribbon, chern, hallbar, hf (default all)")
+    bench.add_argument("--hf-size", default="200x256", metavar="WxNK",
+                       help="Hartree-Fock benchmark: rows per spin x momenta (default 200x256)")
     bench.add_argument("--bars", default=None, metavar="LxW,...",
                        help="Hall-bar sizes in sites for the hallbar part (default: the scenario's "
                             "bar and the bars 2x and 4x larger)")
@@ -152,10 +154,16 @@ def _cmd_bench(args) -> int:
     from .bench import bench_chern, bench_ribbon
 
     parts = [p.strip() for p in args.parts.split(",") if p.strip()]
-    unknown = sorted(set(parts) - {"ribbon", "chern", "hallbar"})
+    unknown = sorted(set(parts) - {"ribbon", "chern", "hallbar", "hf"})
     if unknown or not parts:
         raise ConfigError(f"bench --parts: got {args.parts!r}; expected a comma-separated subset of "
-                          "ribbon, chern, hallbar")
+                          "ribbon, chern, hallbar, hf")
+    try:
+        hf_width, hf_nk = (int(n) for n in args.hf_size.lower().split("x"))
+        assert hf_width >= 8 and hf_nk >= 8 and hf_nk % 4 == 0
+    except (ValueError, AssertionError):
+        raise ConfigError(f"bench --hf-size: got {args.hf_size!r}; expected WxNK with W >= 8 rows and "
+                          "NK >= 8 momenta, a multiple of 4 (e.g. 200x256)") from None
     bars = None
     if args.bars is not None:
         try:
@@ -220,6 +228,24 @@ def _cmd_bench(args) -> int:
             ratio = (f"; scipy / mumps_amd = {row['ratio_scipy_over_mumps_amd']:.2f}x"
                      if "ratio_scipy_over_mumps_amd" in row else "")
             _say(args, f"  {'':23s}  R_xy = {row['r_xy']:.8f} h/e^2{ratio}")
+    if "hf" in parts:
+        from .bench import bench_hf
+
+        _say(args, f"Hartree-Fock benchmark: W = {hf_width} rows per spin, {hf_nk} k points, flux 1/40, "
+                   "nu = 1, U_C = 0.4 t; DIIS against linear mixing ...")
+        report["hf"] = r = bench_hf(width=hf_width, k_points=hf_nk)
+        one = r["one_iteration_seconds"]
+        _say(args, f"  one iteration: build H (Hartree + FFT exchange) {one['build_hamiltonian']:.3f} s, "
+                   f"diagonalise + density matrix {one['diagonalise_and_density']:.3f} s")
+        for name, run in r["runs"].items():
+            _say(args, f"  {name:7s} {run['iterations']:4d} iterations, {run['seconds']:8.2f} s, "
+                       f"converged: {run['converged']}, E = {run['energy_t']:.10f} t per cell")
+        _say(args, f"  iterations linear / DIIS = {r['iteration_ratio_linear_over_diis']:.2f}; "
+                   f"|E_linear - E_DIIS| = {r['energy_difference_t']:.1e} t")
+        _say(args, "  exchange build time against N_k log N_k W^2:")
+        for row in r["exchange_scaling"]:
+            _say(args, f"    W = {row['width']:4d}, N_k = {row['k_points']:4d}: {row['build_seconds']:7.3f} s, "
+                       f"time ratio {row['time_ratio']:5.2f}, model ratio {row['model_ratio']:5.2f}")
     if args.json:
         print(json.dumps(report, indent=2))
     return 0

@@ -287,8 +287,8 @@ class _Sector:
     def __init__(self, ham: RibbonHamiltonian):
         self.ham = ham
         self.size = ham.size
-        # Lipschitz constant of every sorted band: ||dH/dk|| <= 2 ||h1||.
-        self.lipschitz = 2.0 * _norm2_bound(ham.h1)
+        # Lipschitz constant of every sorted band: ||dH/dk|| <= sum_D 2 D ||h_D||.
+        self.lipschitz = sum(2.0 * d * _norm2_bound(h) for d, h in enumerate(ham.hoppings, start=1))
 
     def scan(self, k, e_low, e_high):
         """Index range and (energies, velocities) of the states in a window.
@@ -449,7 +449,7 @@ def _sectors(ham: RibbonHamiltonian) -> list[_Sector]:
     for idx in blocks:
         block = ham.block(idx)
         b = block.bandwidth()
-        if block.size >= 2 and b <= 1:
+        if block.size >= 2 and b <= 1 and not block.far:
             out.append(_TridiagonalSector(block))
         elif block.size >= 8 and b <= block.size // 4:
             out.append(_BandedSector(block))

@@ -2,14 +2,16 @@
 
 A ribbon (any system periodic in one direction) is fully described by its
 cell Hamiltonian ``h0`` and the hopping ``h1`` from one cell into the next one
-along the period vector. The Bloch Hamiltonian at crystal momentum ``k``
-(units of 1/period, Bloch waves ``exp(i k x)``) is::
+along the period vector (and, for effective Hamiltonians such as the
+Hartree-Fock one, the hoppings ``h_D`` into the cell ``D >= 2`` ahead, kept in
+``far``). The Bloch Hamiltonian at crystal momentum ``k`` (units of 1/period,
+Bloch waves ``exp(i k x)``) is::
 
-    H(k) = h0 + h1 exp(-i k) + h1^dagger exp(i k)
+    H(k) = h0 + sum_D (h_D exp(-i k D) + h_D^dagger exp(i k D))
 
 which is the convention of :class:`kwant.physics.Bands`, so energies agree
 point by point. The velocity operator (Hellmann-Feynman) is
-``dH/dk = -i h1 exp(-i k) + i h1^dagger exp(i k)``.
+``dH/dk = sum_D (-i D h_D exp(-i k D) + i D h_D^dagger exp(i k D))``.
 
 This module is the numerical-object stage: it knows nothing of scenarios or
 files and is used by the solvers in :mod:`topoedge.spectrum`.
@@ -65,12 +67,16 @@ class RibbonHamiltonian:
     sz : (N,) float ndarray or None
         ``S_z`` of each orbital (+1/2 or -1/2) when the orbitals are spin
         eigenstates, else None.
+    far : tuple of (N, N) complex ndarray
+        Hoppings ``h_2, h_3, ...`` into the cells 2, 3, ... ahead (empty for
+        a nearest-cell model such as every kwant ribbon).
     """
 
     h0: np.ndarray
     h1: np.ndarray
     position: np.ndarray
     sz: np.ndarray | None = None
+    far: tuple = ()
 
     def __post_init__(self):
         n = self.h0.shape[0]
@@ -85,6 +91,13 @@ class RibbonHamiltonian:
             raise ValueError(f"position must have shape ({n},), got {self.position.shape}")
         if self.sz is not None and self.sz.shape != (n,):
             raise ValueError(f"sz must have shape ({n},), got {self.sz.shape}")
+        if any(m.shape != (n, n) for m in self.far):
+            raise ValueError(f"every far hopping must have shape ({n}, {n})")
+
+    @property
+    def hoppings(self) -> tuple:
+        """``(h1, h2, ...)``: the hopping into the cell ``D`` ahead is ``hoppings[D - 1]``."""
+        return (self.h1, *self.far)
 
     @property
     def size(self) -> int:
@@ -153,14 +166,14 @@ class RibbonHamiltonian:
 
     def bloch(self, k) -> np.ndarray:
         """``H(k)`` for an array of momenta, shape ``k.shape + (N, N)``."""
-        phase = np.exp(-1j * np.asarray(k, dtype=float))[..., None, None]
-        hk = self.h1 * phase
+        k = np.asarray(k, dtype=float)[..., None, None]
+        hk = sum(h * np.exp(-1j * k * d) for d, h in enumerate(self.hoppings, start=1))
         return self.h0 + hk + np.swapaxes(hk, -1, -2).conj()
 
     def velocity(self, k) -> np.ndarray:
         """Velocity operator ``dH/dk`` for an array of momenta."""
-        phase = np.exp(-1j * np.asarray(k, dtype=float))[..., None, None]
-        hk = -1j * self.h1 * phase
+        k = np.asarray(k, dtype=float)[..., None, None]
+        hk = sum(-1j * d * h * np.exp(-1j * k * d) for d, h in enumerate(self.hoppings, start=1))
         return hk + np.swapaxes(hk, -1, -2).conj()
 
     def spin_blocks(self, tol: float = 1e-14) -> list[np.ndarray] | None:
@@ -172,8 +185,8 @@ class RibbonHamiltonian:
         if self.sz is None:
             return None
         up = self.sz > 0
-        scale = tol * max(np.abs(self.h0).max(initial=0.0), np.abs(self.h1).max(initial=0.0), 1e-300)
-        for m in (self.h0, self.h1):
+        scale = tol * max(max(np.abs(m).max(initial=0.0) for m in (self.h0, *self.hoppings)), 1e-300)
+        for m in (self.h0, *self.hoppings):
             if np.abs(m[np.ix_(up, ~up)]).max(initial=0.0) > scale:
                 return None
             if np.abs(m[np.ix_(~up, up)]).max(initial=0.0) > scale:
@@ -189,10 +202,13 @@ class RibbonHamiltonian:
             h1=self.h1[ix],
             position=self.position[order],
             sz=None if self.sz is None else self.sz[order],
+            far=tuple(m[ix] for m in self.far),
         )
 
     def bandwidth(self, tol: float = 0.0) -> int:
         """Half-bandwidth of ``H(k)`` in the current orbital order."""
-        nz = (np.abs(self.h0) > tol) | (np.abs(self.h1) > tol) | (np.abs(self.h1.T) > tol)
+        nz = np.abs(self.h0) > tol
+        for m in self.hoppings:
+            nz |= (np.abs(m) > tol) | (np.abs(m.T) > tol)
         i, j = np.nonzero(nz)
         return int(np.abs(i - j).max(initial=0))

@@ -312,6 +312,9 @@ class HartreeFockRibbon:
             raise ValueError(f"k_points: got {k_points}; expected an even number >= 4")
         if temperature < 0:
             raise ValueError(f"temperature: got {temperature!r}; expected >= 0 (t)")
+        if up.far or down.far:
+            raise ValueError("the non-interacting blocks must couple nearest cells only (no far hoppings)")
+        self.blocks = (up, down)
         self.nk = int(k_points)
         self.k = 2 * np.pi * np.arange(self.nk) / self.nk
         self.h0 = np.stack([up.bloch(self.k), down.bloch(self.k)])  # (2, Nk, W, W)
@@ -377,7 +380,10 @@ class HartreeFockRibbon:
         """Diagonalise ``h`` and return energies, vectors, occupations, mu, new ``G``."""
         w, v = eigh_stack(h)
         occ, mu = self.occupations(w)
-        p = np.einsum("sknm,skm,skjm->sknj", v, occ, v.conj(), optimize=True)
+        # Levels come sorted at every k: only the first m columns carry charge.
+        m = int(np.max(np.nonzero(occ.max(axis=(0, 1)) > 0)[0], initial=-1)) + 1
+        vo = v[..., :m]
+        p = (vo * occ[..., None, :m]) @ np.swapaxes(vo.conj(), -1, -2)
         g = np.fft.ifft(p, axis=1)
         return w, v, occ, mu, g
 
@@ -388,6 +394,51 @@ class HartreeFockRibbon:
         exchange = 0.5 * np.real(np.einsum("skij,skji->", p, f)) / self.nk
         charge = self.density_of(g).sum(axis=0) - self.background
         return float(kinetic + 0.5 * charge @ vh + exchange)
+
+    def effective(self, result: HFResult):
+        """The self-consistent Hamiltonian as a spinful ribbon at any momentum.
+
+        The Fock term of the density matrix ``G_s(D)`` is a hopping into the
+        cell ``D`` ahead for ``0 < D < N_k/2`` (half of it at ``D = N_k/2``,
+        the ring's farthest cell), added to the non-interacting ``h0``,
+        ``h1`` with the Hartree potential on the diagonal. On the grid
+        ``2 pi j / N_k`` its Bloch matrices equal ``H_s(k)`` of the loop;
+        between grid points it is the Fourier interpolation. Orbitals are
+        ordered spin up block, spin down block, with ``sz`` = +-1/2.
+
+        Returns
+        -------
+        RibbonHamiltonian
+            With ``far`` hoppings, for :func:`topoedge.spectrum.ribbon_spectrum`
+            and :func:`topoedge.edges.count_edge_modes`.
+        """
+        from .hamiltonian import RibbonHamiltonian
+
+        f_real = -self.pair[None] * result.density_matrix  # (2, Nk, W, W): F_s(D) in FFT order
+        half = self.nk // 2
+        w = self.width
+        n = 2 * w
+
+        def spinful(parts):
+            out = np.zeros((n, n), dtype=complex)
+            out[:w, :w], out[w:, w:] = parts
+            return out
+
+        idx = np.arange(w)
+        h0 = []
+        h1 = []
+        for s, block in enumerate(self.blocks):
+            m = block.h0 + f_real[s, 0]
+            m[idx, idx] += result.hartree
+            h0.append(m)
+            h1.append(block.h1 + f_real[s, 1])
+        far = [spinful((f_real[0, d], f_real[1, d])) for d in range(2, half)]
+        far.append(spinful((f_real[0, half], f_real[1, half])) / 2)
+        h0 = spinful(h0)
+        h0 = (h0 + h0.conj().T) / 2  # Hermitian to rounding
+        position = np.concatenate([self.y, self.y])
+        sz = np.concatenate([np.full(w, 0.5), np.full(w, -0.5)])
+        return RibbonHamiltonian(h0=h0, h1=spinful(h1), position=position, sz=sz, far=tuple(far))
 
     # ------------------------------------------------------------ starts
     def initial(self, start: str, *, seed: int = 0, edge_rows: float | None = None) -> np.ndarray:

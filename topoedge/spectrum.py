@@ -237,10 +237,14 @@ def _uniform_shift(a: RibbonHamiltonian, b: RibbonHamiltonian) -> float | None:
         return None
     if b.sz is not None and np.ptp(b.sz) != 0:
         return None
-    tol = 1e-14 * max(np.abs(a.h0).max(initial=0.0), np.abs(a.h1).max(initial=0.0), 1.0)
+    if len(a.far) != len(b.far):
+        return None
+    tol = 1e-14 * max(max(np.abs(m).max(initial=0.0) for m in (a.h0, *a.hoppings)), 1.0)
     diff = b.h0 - a.h0
     c = float(np.real(diff[0, 0]))
-    if np.abs(b.h1 - a.h1).max(initial=0.0) > tol or np.abs(diff - c * np.eye(a.size)).max(initial=0.0) > tol:
+    if any(np.abs(mb - ma).max(initial=0.0) > tol for ma, mb in zip(a.hoppings, b.hoppings)):
+        return None
+    if np.abs(diff - c * np.eye(a.size)).max(initial=0.0) > tol:
         return None
     return c
 
@@ -249,7 +253,7 @@ def _choose(block: RibbonHamiltonian, solver: str) -> str:
     if solver == "dense":
         return "dense"
     b = block.bandwidth()
-    if b <= 1:
+    if b <= 1 and not block.far:  # the tridiagonal solver knows h0 and h1 only
         return "tridiagonal"
     if solver == "banded" or b <= block.size // 4:
         return "banded"
