@@ -261,3 +261,36 @@ def test_far_hoppings_velocity_is_the_derivative_of_the_bloch_matrix():
         numeric = (ham.bloch(k + 1e-5) - ham.bloch(k - 1e-5)) / 2e-5
         assert np.abs(ham.velocity(k) - numeric).max() < 1e-8
     assert ham.bandwidth() == n - 1
+
+
+def _edge_of_filling_one(ramp):
+    """Lowest-energy solution (polarised or edge start) of a 100-row nu = 1 ribbon and its edge count."""
+    from topoedge.edges import count_edge_modes
+
+    hf, _ = _nu_one(width=100, ramp=ramp, k_points=40, coulomb=0.4)
+    best, runs = hf.solve_all(("polarised", "edge"), tol=1e-7)
+    assert best is not None and len(runs) == 2
+    levels = np.sort(best.energies.ravel())
+    filled = round(hf.electrons * hf.nk)
+    assert abs(filled - hf.electrons * hf.nk) < 1e-9   # the grid holds an integer number of electrons
+    edges = count_edge_modes(hf.effective(best), 0.5 * (levels[filled - 1] + levels[filled]), k_points=300)
+    return best, runs, edges
+
+
+def test_smooth_background_edge_reconstructs_at_filling_one():
+    # Edge reconstruction of a nu = 1 edge (Chamon and Wen, PRB 49, 8227
+    # (1994)): a smooth enough background makes the Hartree-Fock edge detach
+    # a strip of electrons, adding a counter-propagating pair of spin-up
+    # modes while the net chirality stays the Chern number 1. With
+    # E_C ~ hbar omega_c (U_C = 0.4 t at flux 1/40, l_B = 2.52 a) a ramp of
+    # 8 rows (3.2 l_B) keeps one mode per edge and a ramp of 30 rows
+    # (11.9 l_B) reconstructs (measured here: no pair up to 24 rows = 9.5 l_B).
+    _, _, narrow = _edge_of_filling_one(8.0)
+    assert narrow.in_gap and narrow.bottom.net == 1 and narrow.bottom.counter_pairs == 0
+    best, runs, wide = _edge_of_filling_one(30.0)
+    assert wide.in_gap, wide.message
+    assert wide.bottom.net == 1 and wide.top.net == -1
+    assert wide.bottom.counter_pairs >= 1 and wide.top.counter_pairs >= 1
+    assert wide.bottom.by_spin["up"]["net"] == 1
+    # The solutions from the two starts differ; the lower energy is kept.
+    assert best.energy == min(r.energy for r in runs if r.converged)

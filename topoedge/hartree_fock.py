@@ -556,6 +556,31 @@ class HartreeFockRibbon:
         )
 
 
+    def solve_all(self, starts=START_STATES, **options) -> tuple[HFResult | None, tuple[HFResult, ...]]:
+        """Solve from several starting states; keep the lowest converged energy.
+
+        Parameters
+        ----------
+        starts : sequence of str
+            Names from :data:`START_STATES`.
+        **options
+            Passed to :meth:`solve`.
+
+        Returns
+        -------
+        best : HFResult or None
+            The converged solution of lowest Hartree-Fock energy (None if no
+            start converged).
+        results : tuple of HFResult
+            Every run, in the order of ``starts`` (converged or not), to be
+            reported with their energies.
+        """
+        results = tuple(self.solve(start, **options) for start in starts)
+        converged = [r for r in results if r.converged]
+        best = min(converged, key=lambda r: r.energy) if converged else None
+        return best, results
+
+
 def _pulay(xs: list, rs: list, alpha: float) -> np.ndarray:
     """Pulay/Anderson step: the residual-minimising combination of the iterates."""
     m = len(xs)
