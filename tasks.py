@@ -35,7 +35,9 @@ PY = VENV / "bin" / "python"
 STAMP = VENV / ".topoedge-setup"
 KWANT = "kwant==1.5.0"
 KWANT_BUILD_DEPS = ["numpy", "scipy", "tinyarray", "cython", "setuptools", "wheel"]
-MUMPS_HEADER = Path("/usr/include/mumps_seq/zmumps_c.h")
+# Debian/Ubuntu: the MUMPS C header (libmumps-headers-dev) and the MPI stub of
+# the sequential build (libmumps-seq-dev).
+MUMPS_HEADERS = (Path("/usr/include/zmumps_c.h"), Path("/usr/include/mumps_seq/mpi.h"))
 MUMPS_PACKAGE = "libmumps-seq-dev"
 # kwant's build configuration for Debian's sequential MUMPS.
 MUMPS_BUILD_CONF = """[mumps]
@@ -55,10 +57,14 @@ def _imports(module: str) -> bool:
     ).returncode == 0
 
 
+def _have_mumps_headers() -> bool:
+    return all(path.exists() for path in MUMPS_HEADERS)
+
+
 def _install_mumps_package() -> None:
     """apt-get install the sequential MUMPS headers and libraries (root only)."""
     if shutil.which("apt-get") is None:
-        raise SystemExit(f"tasks.py: --mumps needs {MUMPS_HEADER}; no apt-get here: install the "
+        raise SystemExit(f"tasks.py: --mumps needs {MUMPS_HEADERS[0]}; no apt-get here: install the "
                          f"sequential MUMPS development files ({MUMPS_PACKAGE} on Debian/Ubuntu) by hand")
     sudo = [] if os.geteuid() == 0 else (["sudo"] if shutil.which("sudo") else None)
     if sudo is None:
@@ -86,15 +92,16 @@ def setup(mumps: bool = False) -> None:
         print(f"creating virtual environment {VENV}", flush=True)
         venv.EnvBuilder(with_pip=True).create(VENV)
         _run(PY, "-m", "pip", "install", "-q", "--upgrade", "pip")
-    if mumps and not MUMPS_HEADER.exists():
+    if mumps and not _have_mumps_headers():
         _install_mumps_package()
     if not _imports("kwant"):
-        _build_kwant(MUMPS_HEADER.exists())
+        _build_kwant(_have_mumps_headers())
     elif mumps and not _imports("kwant.solvers.mumps"):
         _build_kwant(True)
     if mumps and not _imports("kwant.solvers.mumps"):
         raise SystemExit("tasks.py: kwant was built but its MUMPS solver does not import; "
-                         f"check {MUMPS_HEADER} and the libraries zmumps_seq, mumps_common_seq")
+                         f"check {' and '.join(map(str, MUMPS_HEADERS))} and the libraries "
+                         "zmumps_seq, mumps_common_seq")
     digest = hashlib.sha256((ROOT / "pyproject.toml").read_bytes()).hexdigest()
     if not (STAMP.exists() and STAMP.read_text() == digest and _imports("topoedge")):
         _run(PY, "-m", "pip", "install", "-q", "-e", f"{ROOT}[test]")
