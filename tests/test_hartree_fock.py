@@ -294,3 +294,25 @@ def test_smooth_background_edge_reconstructs_at_filling_one():
     assert wide.bottom.by_spin["up"]["net"] == 1
     # The solutions from the two starts differ; the lower energy is kept.
     assert best.energy == min(r.energy for r in runs if r.converged)
+
+
+def test_hartree_fock_figure_draws_the_profiles_of_the_result():
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from topoedge.plotting import hartree_fock_figure
+
+    hf, phi = _nu_one(width=40)
+    result = hf.solve("polarised")
+    fig = hartree_fock_figure(result, flux=float(phi), title="test")
+    try:
+        dens, bands, pot, hist = fig.axes[:4]
+        lines = {line.get_label(): line.get_ydata() for line in dens.get_lines()}
+        assert np.allclose(lines["spin up"], result.density[0] / float(phi))
+        assert np.allclose(lines["background $n_b/\\phi$"], result.background / float(phi))
+        assert np.allclose(pot.get_lines()[0].get_ydata(), result.hartree)
+        assert np.allclose(hist.get_lines()[0].get_ydata(), result.history["residual"])
+    finally:
+        plt.close(fig)

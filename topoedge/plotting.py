@@ -16,7 +16,8 @@ from .spectrum import RibbonSpectrum
 
 __all__ = [
     "plot_ribbon_spectrum", "plot_edge_modes", "edge_mode_legend", "plot_bulk_bands",
-    "default_energy_range", "ribbon_figure", "bulk_figure", "hallbar_figure", "RUN_FIGURES",
+    "default_energy_range", "ribbon_figure", "bulk_figure", "hallbar_figure", "hartree_fock_figure",
+    "RUN_FIGURES",
 ]
 
 _SPIN_MARKERS = {"up": "^", "down": "v", "none": "o"}
@@ -298,6 +299,67 @@ def hallbar_figure(scan: dict, *, axis: str = "energy", title: str = ""):
         bottom.legend(fontsize=8)
     bottom.set_xlabel(r"$E_F$ ($t$)" if axis == "energy" else r"$B$ (T)")
     top.set_title(title, fontsize=9)
+    return fig
+
+
+def hartree_fock_figure(result, *, flux: float, spectrum: RibbonSpectrum | None = None, edges=None,
+                        fermi_energy: float | None = None, title: str = ""):
+    """Self-consistent ribbon: filling profiles, Hartree potential, bands and convergence.
+
+    Parameters
+    ----------
+    result : topoedge.hartree_fock.HFResult
+    flux : float
+        Flux per plaquette ``phi``: densities are shown as the local filling
+        ``n / phi`` (1 = one full Landau level of one spin).
+    spectrum : RibbonSpectrum, optional
+        Spectrum of :meth:`topoedge.hartree_fock.HartreeFockRibbon.effective`
+        with observables (bands coloured by position); without it the bands of
+        the self-consistent grid are drawn by spin.
+    edges : topoedge.edges.EdgeCount, optional
+        Crossings to mark on the bands.
+    fermi_energy : float, optional
+        E_F in t (default: ``result.mu``).
+    title : str
+    """
+    import matplotlib.pyplot as plt
+
+    ef = result.mu if fermi_energy is None else fermi_energy
+    width = result.density.shape[1]
+    y = np.arange(width)
+    fig, axes = plt.subplots(2, 2, figsize=(10.0, 7.0), layout="constrained")
+    (dens, bands), (pot, hist) = axes
+    dens.plot(y, result.background / flux, "k--", lw=1.2, label=r"background $n_b/\phi$")
+    dens.plot(y, result.density[0] / flux, "-", color="C3", lw=1.2, label="spin up")
+    dens.plot(y, result.density[1] / flux, "-", color="C0", lw=1.2, label="spin down")
+    dens.plot(y, result.density.sum(axis=0) / flux, ":", color="0.3", lw=1.0, label="total")
+    dens.set_xlabel("$y$ (sites)")
+    dens.set_ylabel(r"local filling $n/\phi$")
+    dens.legend(fontsize=8)
+    pot.plot(y, result.hartree, color="C2")
+    pot.set_xlabel("$y$ (sites)")
+    pot.set_ylabel("Hartree potential $V_H$ ($t$)")
+    pot.axhline(0, color="0.85", lw=0.6, zorder=0)
+    if spectrum is not None:
+        plot_ribbon_spectrum(spectrum, ax=bands, width=width, fermi_energy=ef,
+                             energy_range=(ef - 0.4, ef + 0.4))
+        if edges is not None:
+            plot_edge_modes(edges, ax=bands)
+    else:
+        k = (result.k + np.pi) % (2 * np.pi) - np.pi
+        order = np.argsort(k)
+        for s, color in ((0, "C3"), (1, "C0")):
+            bands.plot(k[order], result.energies[s][order], ".", ms=2, color=color)
+        bands.axhline(ef, ls="--", color="k", lw=0.8)
+        bands.set_ylim(ef - 0.4, ef + 0.4)
+        bands.set_xlabel("$k$ (1/a)")
+        bands.set_ylabel("$E$ ($t$)")
+    residual = result.history.get("residual", [])
+    hist.semilogy(np.arange(1, len(residual) + 1), residual, "o-", ms=3)
+    hist.set_xlabel("iteration")
+    hist.set_ylabel(r"max $|G_{out} - G_{in}|$")
+    hist.set_title(result.message, fontsize=8)
+    fig.suptitle(title, fontsize=10)
     return fig
 
 
