@@ -12,12 +12,15 @@ from topoedge.hartree_fock import (
 )
 
 #: On-site value of 1/r averaged over a unit square around the site,
-#: 4 ln(1 + sqrt 2) (elementary integral; the lattice stand-in for r -> 0).
+#: 4 ln(1 + sqrt 2) (elementary integral, derived for this project; the
+#: lattice stand-in for r -> 0).
 CELL_AVERAGE = 4 * np.log(1 + np.sqrt(2))
 #: Exchange self-energy of a filled lowest Landau level, in e^2/(eps l_B):
 #: -sqrt(pi/2) (G. F. Giuliani and G. Vignale, Quantum Theory of the Electron
 #: Liquid (CUP 2005), Hartree-Fock in the lowest Landau level; also Kallin and
-#: Halperin, PRB 30, 5655 (1984)).
+#: Halperin, PRB 30, 5655 (1984)). Both citations are from memory; the value
+#: itself is the exchange integral X_00 = sqrt(pi/2), recomputed by quadrature
+#: in ../shared/REFERENCES.md (section 8).
 X00 = np.sqrt(np.pi / 2)
 
 
@@ -74,7 +77,8 @@ def test_exchange_self_energy_of_the_filled_lowest_level_approaches_the_continuu
 
 def test_exchange_enhanced_spin_gap_at_filling_one():
     # Spin gap at nu = 1: Delta_Z + sqrt(pi/2) e^2/(eps l_B) (Hartree-Fock,
-    # Giuliani & Vignale; Ando & Uemura, JPSJ 37, 1044 (1974)); the Hartree
+    # Giuliani & Vignale; Ando & Uemura, JPSJ 37, 1044 (1974); citations from
+    # memory, formula as in ../shared/REFERENCES.md section 8); the Hartree
     # potential is the same for both spins and drops out. Flux 1/80 (l_B = 3.6 a).
     _, _, gap, zeeman = _filled_lowest_level(80)
     assert gap == pytest.approx(zeeman + X00, rel=0.02)

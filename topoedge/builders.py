@@ -50,6 +50,7 @@ __all__ = [
     "ribbon_builder",
     "bulk_builder",
     "model_params",
+    "landau_hopping",
 ]
 
 _PAULI_Z = np.diag([1.0, -1.0])
@@ -79,7 +80,12 @@ def model_params(
     return dict(t=float(t), phi=float(phi), zeeman=float(zeeman), onsite=float(onsite))
 
 
-def _peierls_hopping(spin: bool):
+def landau_hopping(spin: bool):
+    """Hopping value function ``-t exp(-2 pi i phi y_j (x_i - x_j))`` (Landau gauge ``A = (-B y, 0)``).
+
+    ``phi`` is the flux per plaquette in ``h/e``; with spin the value is
+    ``t`` times the 2 x 2 identity.
+    """
     unit = np.eye(2) if spin else 1.0
 
     def hopping(site_i, site_j, t, phi):
@@ -139,7 +145,7 @@ def ribbon_builder(
     lat = square_lattice(spin=spin)
     syst = kwant.Builder(kwant.TranslationalSymmetry((1, 0)))
     syst[(lat(0, y) for y in range(width))] = _onsite(spin, potential)
-    syst[lat.neighbors()] = _peierls_hopping(spin)
+    syst[lat.neighbors()] = landau_hopping(spin)
     return syst
 
 
@@ -165,5 +171,5 @@ def bulk_builder(phi: Fraction, *, spin: bool = True) -> kwant.Builder:
     lat = square_lattice(spin=spin)
     syst = kwant.Builder(kwant.TranslationalSymmetry((1, 0), (0, q)))
     syst[(lat(0, y) for y in range(q))] = _onsite(spin, None)
-    syst[lat.neighbors()] = _peierls_hopping(spin)
+    syst[lat.neighbors()] = landau_hopping(spin)
     return syst

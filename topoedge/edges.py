@@ -295,17 +295,45 @@ class _Sector:
 
         Returns ``lo``, ``hi`` (int arrays of shape (Nk,), inclusive band
         indices; ``hi < lo`` for an empty window) and lists of energies and
-        velocities per momentum.
+        velocities per momentum. This generic version makes one LAPACK call
+        for all eigenvalues and one for the states in the window per
+        momentum (:meth:`_eigenvalues`, :meth:`_eigenpairs`).
         """
+        lo = np.empty(len(k), dtype=int)
+        hi = np.empty(len(k), dtype=int)
+        energies, velocities = [], []
+        for i in range(len(k)):
+            w_all = self._eigenvalues(k[i])
+            lo[i] = np.searchsorted(w_all, e_low, side="left")
+            hi[i] = np.searchsorted(w_all, e_high, side="right") - 1
+            if hi[i] < lo[i]:
+                energies.append(np.empty(0))
+                velocities.append(np.empty(0))
+                continue
+            w, v = self._eigenpairs(k[i], lo[i], hi[i])
+            energies.append(w)
+            velocities.append(np.real(np.einsum("im,im->m", v.conj(), self.ham.velocity(k[i]) @ v)))
+        return lo, hi, energies, velocities
+
+    def state(self, n, k):
+        """``(E_n(k), |psi|^2, dE_n/dk)`` of band ``n`` at ``k``."""
+        w, v = self._eigenpairs(k, n, n)
+        psi = v[:, 0]
+        vel = float(np.real(psi.conj() @ self.ham.velocity(k) @ psi))
+        return float(w[0]), np.abs(psi) ** 2, vel
+
+    def _eigenvalues(self, k):
+        """All eigenvalues of ``H(k)``, ascending."""
+        raise NotImplementedError
+
+    def _eigenpairs(self, k, lo, hi):
+        """Eigenpairs ``lo .. hi`` (inclusive) of ``H(k)``."""
         raise NotImplementedError
 
     def energy(self, n: int, k: float) -> float:
         """``E_n(k)``."""
         raise NotImplementedError
 
-    def state(self, n: int, k: float):
-        """``(E_n(k), |psi|^2, dE_n/dk)`` of band ``n`` at ``k``."""
-        raise NotImplementedError
 
 
 class _TridiagonalSector(_Sector):
@@ -373,74 +401,44 @@ class _BandedSector(_Sector):
     def __init__(self, ham):
         super().__init__(ham)
         self.bandwidth = ham.bandwidth()
+        self._last = None
 
     def _storage(self, k):
+        """Lower band storage of ``H(k)``; the last one is kept (scan asks twice per ``k``)."""
+        if self._last is not None and self._last[0] == k:
+            return self._last[1]
         hk = self.ham.bloch(k)
         n, b = self.size, self.bandwidth
         ab = np.zeros((b + 1, n), dtype=complex)
         for o in range(b + 1):
             ab[o, : n - o] = np.diagonal(hk, offset=-o)
+        self._last = (k, ab)
         return ab
 
-    def scan(self, k, e_low, e_high):
-        lo = np.empty(len(k), dtype=int)
-        hi = np.empty(len(k), dtype=int)
-        energies, velocities = [], []
-        for i in range(len(k)):  # one LAPACK call per momentum
-            ab = self._storage(k[i])
-            w_all = sla.eig_banded(ab, lower=True, eigvals_only=True)
-            lo[i] = np.searchsorted(w_all, e_low, side="left")
-            hi[i] = np.searchsorted(w_all, e_high, side="right") - 1
-            if hi[i] < lo[i]:
-                energies.append(np.empty(0))
-                velocities.append(np.empty(0))
-                continue
-            w, v = sla.eig_banded(ab, lower=True, select="i", select_range=(lo[i], hi[i]))
-            vel = np.real(np.einsum("im,im->m", v.conj(), self.ham.velocity(k[i]) @ v))
-            energies.append(w)
-            velocities.append(vel)
-        return lo, hi, energies, velocities
+    def _eigenvalues(self, k):
+        return sla.eig_banded(self._storage(k), lower=True, eigvals_only=True)
+
+    def _eigenpairs(self, k, lo, hi):
+        return sla.eig_banded(self._storage(k), lower=True, select="i", select_range=(lo, hi))
 
     def energy(self, n, k):
         w = sla.eig_banded(self._storage(k), lower=True, eigvals_only=True, select="i", select_range=(n, n))
         return float(w[0])
 
-    def state(self, n, k):
-        w, v = sla.eig_banded(self._storage(k), lower=True, select="i", select_range=(n, n))
-        psi = v[:, 0]
-        vel = float(np.real(psi.conj() @ self.ham.velocity(k) @ psi))
-        return float(w[0]), np.abs(psi) ** 2, vel
 
 
 class _DenseSector(_Sector):
     """Any sector: dense Hermitian eigensolvers."""
 
-    def scan(self, k, e_low, e_high):
-        lo = np.empty(len(k), dtype=int)
-        hi = np.empty(len(k), dtype=int)
-        energies, velocities = [], []
-        for i in range(len(k)):  # one LAPACK call (two with states) per momentum
-            hk = self.ham.bloch(k[i])
-            w_all = sla.eigh(hk, eigvals_only=True)
-            lo[i] = np.searchsorted(w_all, e_low, side="left")
-            hi[i] = np.searchsorted(w_all, e_high, side="right") - 1
-            if hi[i] < lo[i]:
-                energies.append(np.empty(0))
-                velocities.append(np.empty(0))
-                continue
-            w, v = sla.eigh(hk, subset_by_index=(lo[i], hi[i]))
-            energies.append(w)
-            velocities.append(np.real(np.einsum("im,im->m", v.conj(), self.ham.velocity(k[i]) @ v)))
-        return lo, hi, energies, velocities
+    def _eigenvalues(self, k):
+        return sla.eigh(self.ham.bloch(k), eigvals_only=True)
+
+    def _eigenpairs(self, k, lo, hi):
+        return sla.eigh(self.ham.bloch(k), subset_by_index=(lo, hi))
 
     def energy(self, n, k):
         return float(sla.eigh(self.ham.bloch(k), eigvals_only=True, subset_by_index=(n, n))[0])
 
-    def state(self, n, k):
-        w, v = sla.eigh(self.ham.bloch(k), subset_by_index=(n, n))
-        psi = v[:, 0]
-        vel = float(np.real(psi.conj() @ self.ham.velocity(k) @ psi))
-        return float(w[0]), np.abs(psi) ** 2, vel
 
 
 def _sectors(ham: RibbonHamiltonian) -> list[_Sector]:

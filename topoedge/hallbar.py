@@ -71,7 +71,7 @@ import kwant
 import numpy as np
 from scipy.spatial import cKDTree
 
-from .builders import square_lattice
+from .builders import landau_hopping, square_lattice
 from .units import VON_KLITZING
 
 __all__ = [
@@ -271,16 +271,12 @@ def hallbar_builder(
         """Gauge function: 2 pi phi x y on the probe columns, 0 elsewhere."""
         return 2 * np.pi * phi * x * y if 0 <= x < length and probe_columns[x] else 0.0
 
-    def hop_columns(site_a, site_b, t, phi):
-        (xa_, ya_), (xb_, yb_) = site_a.pos, site_b.pos
-        theta = -2 * np.pi * phi * yb_ * (xa_ - xb_)
-        ia, ja, ib, jb = int(round(xa_)), int(round(ya_)), int(round(xb_)), int(round(yb_))
-        theta += _lambda(ia, ja, phi) - _lambda(ib, jb, phi)
-        return -t * np.exp(1j * theta) * unit
+    hop_landau = landau_hopping(spin)  # the ribbon's gauge, x-independent
 
-    def hop_landau(site_a, site_b, t, phi):
-        (xa_, _), (xb_, yb_) = site_a.pos, site_b.pos
-        return -t * np.exp(-2j * np.pi * phi * yb_ * (xa_ - xb_)) * unit
+    def hop_columns(site_a, site_b, t, phi):
+        (xa_, ya_), (xb_, yb_) = (np.rint(s.pos).astype(int) for s in (site_a, site_b))
+        gauge = np.exp(1j * (_lambda(xa_, ya_, phi) - _lambda(xb_, yb_, phi)))
+        return hop_landau(site_a, site_b, t, phi) * gauge
 
     # With spin, S_z is conserved: blocks 0 (spin up, -sigma_z = -1) and 1
     # (spin down) let the S-matrix be split per spin.
@@ -553,6 +549,7 @@ def sum_rule_violation(g: np.ndarray) -> float:
     return float(max(np.abs(g.sum(axis=0)).max(), np.abs(g.sum(axis=1)).max()))
 
 
+@lru_cache(maxsize=1)
 def solvers() -> dict:
     """kwant's scattering solvers usable here, fastest first: ``{"mumps": ..., "scipy": ...}``.
 
@@ -560,7 +557,7 @@ def solvers() -> dict:
     degree ordering: with the ordering kwant chooses, this build of MUMPS
     returned conductance matrices off by up to 0.3 e^2/h on a 320 x 160
     spinful bar (found by :func:`sum_rule_violation`; SciPy and MUMPS with
-    AMD agree there to 1e-13).
+    AMD agree there to 1e-13). Built once (cached).
     """
     import kwant.solvers.sparse
 

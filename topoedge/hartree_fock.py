@@ -122,11 +122,10 @@ def _harmonic_tail(y: np.ndarray, terms: int = 4096) -> np.ndarray:
     with ``f(x) = 1/sqrt(x^2 + y^2) - 1/x``: ``int_M^inf f + f(M)/2 - f'(M)/12``.
     """
     y = np.asarray(y, dtype=float)
+    flat = y.ravel()
     x = np.arange(1, terms + 1, dtype=float)
-    head = np.zeros(y.shape)
-    for chunk in np.array_split(np.arange(y.size), max(1, y.size // 64)):
-        yy = y.ravel()[chunk][:, None]
-        head.ravel()[chunk] = (1.0 / np.sqrt(x**2 + yy**2) - 1.0 / x).sum(axis=1)
+    head = np.concatenate([(1.0 / np.sqrt(x**2 + part[:, None] ** 2) - 1.0 / x).sum(axis=1)
+                           for part in np.array_split(flat, max(1, flat.size // 64))]).reshape(y.shape)
     m = float(terms)
     integral = np.log(2 * m) - np.log(m + np.sqrt(m**2 + y**2))  # int_M^inf (1/sqrt(x^2+y^2) - 1/x)
     f_m = 1.0 / np.sqrt(m**2 + y**2) - 1.0 / m
@@ -355,7 +354,7 @@ class HartreeFockRibbon:
         total = self.electrons * self.nk
         if self.temperature == 0:
             full = int(np.floor(total + 1e-9))
-            mu = flat[min(full, flat.size - 1)] if full < flat.size else flat[-1]
+            mu = flat[min(full, flat.size - 1)]
             occ = (energies < mu).astype(float)
             # Levels at mu (degenerate within 1e-10 t) share the remaining charge.
             at = np.abs(energies - mu) <= 1e-10
