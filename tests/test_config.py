@@ -110,8 +110,8 @@ BAD = {
     "unknown section": ({"xyzzy": {}},
                         r"^xyzzy: unknown key; expected one of the top-level keys: "
                         r"'title', 'lattice', 'spin', 'ribbon', 'spectrum', 'fermi', 'chern', 'edges', "
-                        r"'material', 'field', 'hallbar'$"),
-    "unknown key, nothing close": (nested("ribbon.edge.colour", 1),
+                        r"'material', 'field', 'hallbar', 'interaction'$"),
+    "unknown key, nothing close": (nested("ribbon.edge.xyzzy", 1),
                                    r"keys of \[ribbon\.edge\]: 'profile', 'width', "),
     "section not a table": ({"lattice": 3}, r"^lattice: got 3 \(integer\); expected a table"),
     "string for int": (nested("ribbon.width", "120"),
@@ -259,6 +259,8 @@ def test_to_dict_values():
     unset = {"fermi.gap", "material.preset", "material.effective_mass", "material.g_factor",
              "material.permittivity", "material.lattice_constant_nm", "field.b_tesla",
              "field.fermi_mev", "field.density_cm2"}
+    # Without interaction the whole [interaction] section is left out.
+    unset |= {p for p in leaf_paths(Scenario) if p.startswith("interaction.")}
     assert set(flat_paths(d)) == set(leaf_paths(Scenario)) - unset  # unset keys are left out
 
 
@@ -306,7 +308,7 @@ def test_key_docs_cover_every_key():
     assert len(paths) == len(set(paths))
     # FULL sets fermi.energy, which excludes fermi.gap, and lattice units, which
     # exclude the physical-unit keys (tests/test_units.py covers those).
-    physical = {p for p in leaf_paths(Scenario) if p.startswith(("material.", "field."))}
+    physical = {p for p in leaf_paths(Scenario) if p.startswith(("material.", "field.", "interaction."))}
     assert set(paths) == set(leaf_paths(Scenario)) == set(flat_paths(FULL)) | {"fermi.gap"} | physical
     assert all(len(row) == 5 and all(isinstance(x, str) and x for x in row) for row in rows)
     docs = {row[0]: row for row in rows}

@@ -1,6 +1,6 @@
 """The ``topoedge`` command line.
 
-``topoedge run [CONFIG]``    ribbon spectrum of a scenario, results folder
+``topoedge run [CONFIG]``    ribbon spectrum of a scenario (self-consistent with [interaction]), results folder
 ``topoedge bench``           side-by-side timings against kwant
 ``topoedge butterfly``       flux-energy spectrum with gap Chern numbers, results folder
 
@@ -21,6 +21,8 @@ from . import __version__
 from .config import DEFAULT_SCENARIO, ConfigError, lattice_scenario, load_scenario
 
 EXIT_BAD_INPUT = 2
+#: A self-consistent run that wrote its results but did not converge everywhere.
+EXIT_NOT_CONVERGED = 1
 
 
 class _Parser(argparse.ArgumentParser):
@@ -47,6 +49,12 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("--out", type=Path, default=None,
                      help="results folder (default: results/<scenario>-<date-time>)")
     run.add_argument("--force", action="store_true", help="replace an existing results folder")
+    run.add_argument("--checkpoint-every", type=float, default=20.0, metavar="SECONDS",
+                     help="with [interaction]: store the self-consistent states in <out>.checkpoint.h5 at most "
+                          "this often while iterating, and after every start (default 20)")
+    run.add_argument("--restart", type=Path, default=None, metavar="FILE",
+                     help="with [interaction]: continue from a restart.h5 of a results folder or the "
+                          "<out>.checkpoint.h5 of an interrupted run")
 
     bench = sub.add_parser("bench", parents=[common],
                            help="side-by-side timings: ribbon spectrum vs kwant.physics.Bands, Chern numbers "
@@ -116,14 +124,60 @@ def _default_out(config_path: str | None) -> Path:
 
 
 def _cmd_run(args) -> int:
-    from .results import check_destination, format_summary, write_run
+    from .results import check_destination, format_summary, read_restart, write_run
 
+    if not (args.checkpoint_every >= 0 and args.checkpoint_every < float("inf")):
+        raise ConfigError(f"run --checkpoint-every: got {args.checkpoint_every:g}; expected a finite number of "
+                          "seconds >= 0")
     scenario = load_scenario(args.config, args.overrides)
+    restart = restart_model = None
+    if args.restart is not None:
+        if not scenario.interaction.enabled:
+            raise ConfigError("--restart: the scenario has no [interaction] section; expected a "
+                              "self-consistent scenario (a restart file continues a Hartree-Fock run)")
+        restart, restart_model = read_restart(args.restart)
     out = args.out if args.out is not None else _default_out(args.config)
     check_destination(out, force=args.force)
-    from .pipeline import run_scenario  # imports kwant: only once the input is valid
     progress = sys.stdout.isatty() and not args.quiet
-    result = run_scenario(scenario, progress=progress)
+    checkpoint_path = None
+    if scenario.interaction.enabled:
+        from .interacting import run_interacting  # imports kwant: only once the input is valid
+        from .results import write_restart
+
+        checkpoint_path = out.with_name(out.name + ".checkpoint.h5")
+        continuing = args.restart is not None and checkpoint_path.exists() and checkpoint_path.samefile(args.restart)
+        if checkpoint_path.exists() and not (args.force or continuing):
+            raise ConfigError(f"checkpoint '{checkpoint_path}' of an earlier interrupted run exists; continue it "
+                              f"with --restart {checkpoint_path}, or pass --force to replace it")
+        checkpoint_path.parent.mkdir(parents=True, exist_ok=True)
+
+        def checkpoint(states, model):
+            write_restart(checkpoint_path, states, model)
+
+        def again(restart_file):
+            import shlex
+
+            words = ["topoedge", "run", str(args.config or DEFAULT_SCENARIO)]
+            words += [w for item in args.overrides for w in ("--set", item)]
+            return shlex.join(words + ["--restart", str(restart_file)])
+
+        try:
+            result = run_interacting(scenario, restart=restart, restart_model=restart_model,
+                                     checkpoint=checkpoint, checkpoint_every=args.checkpoint_every,
+                                     progress=progress)
+        except KeyboardInterrupt:
+            if checkpoint_path.exists():
+                print(f"topoedge: interrupted; no results folder was written. Continue with: "
+                      f"{again(checkpoint_path)}", file=sys.stderr)
+            else:
+                print("topoedge: interrupted before the first checkpoint; nothing was written", file=sys.stderr)
+            return 130
+        except ValueError as err:  # a restart file made for another model, of the wrong shape or charge
+            raise ConfigError(str(err)) from None
+    else:
+        from .pipeline import run_scenario  # imports kwant: only once the input is valid
+
+        result = run_scenario(scenario, progress=progress)
 
     import matplotlib
 
@@ -142,12 +196,54 @@ def _cmd_run(args) -> int:
 
         return save
 
-    write_run(out, result, {name: saver(make) for name, make in RUN_FIGURES.items()}, force=args.force)
+    figures = dict(RUN_FIGURES) if result.spectrum is not None else {}
+    if result.interacting is not None:
+        figures.update(_interacting_figures(result))
+    write_run(out, result, {name: saver(make) for name, make in figures.items()}, force=args.force)
+    if checkpoint_path is not None:
+        checkpoint_path.unlink(missing_ok=True)  # its states are in the folder's restart.h5
     if args.json:
         print(json.dumps(result.summary, indent=2))
     _say(args, format_summary(result.summary))
-    _say(args, f"  results      {out}/ (summary.json, spectrum.h5, {', '.join(RUN_FIGURES)})")
+    files = ["summary.json"] + (["spectrum.h5"] if result.spectrum is not None else [])
+    if result.interacting is not None:
+        files += ["hartree_fock.h5", "restart.h5"]
+    _say(args, f"  results      {out}/ ({', '.join(files + list(figures))})")
+    if result.interacting is not None:
+        failed = [f"{sc.width:g}" for sc in (result.interacting.main, *result.interacting.scan) if sc.best is None]
+        if failed:
+            print(f"topoedge: not converged for background width(s) {', '.join(failed)} a; continue with: "
+                  f"{again(out / 'restart.h5')} (and a larger interaction.max_iter if needed)", file=sys.stderr)
+            return EXIT_NOT_CONVERGED
     return 0
+
+
+def _interacting_figures(result) -> dict:
+    """Figure makers of a self-consistent run: profiles and convergence, and the width scan."""
+    from .plotting import edge_scan_figure, hartree_fock_figure
+
+    run = result.interacting
+    title = (f"{result.scenario.title or 'scenario'}: flux {result.scenario.lattice.flux}, "
+             f"U_C = {run.interaction.coulomb:.3g} t, background w = {run.main.width:g} a")
+    figures = {}
+    main = run.main
+    best = main.best or min(main.runs, key=lambda r: r.history["residual"][-1])
+
+    def profiles(_):
+        return hartree_fock_figure(best, flux=abs(float(result.scenario.lattice.flux)), spectrum=result.spectrum,
+                                   edges=result.edges, fermi_energy=main.fermi_energy, title=title,
+                                   runs=main.runs)
+
+    figures["hartree_fock.png"] = profiles
+    if run.scan:
+        def scan(_):
+            return edge_scan_figure(result.summary["interaction"]["scan"], magnetic_length=run.magnetic_length,
+                                    title=f"{result.scenario.title or 'scenario'}\nself-consistent bottom edge "
+                                          f"against the background width (flux {result.scenario.lattice.flux}, "
+                                          f"U_C = {run.interaction.coulomb:.3g} t)")
+
+        figures["edge_scan.png"] = scan
+    return figures
 
 
 def _cmd_bench(args) -> int:
@@ -410,12 +506,12 @@ def main(argv: list[str] | None = None) -> int:
     # ribbon and bulk calculations do not use that solver.
     warnings.filterwarnings("ignore", message="MUMPS is not available")
     from .chern import GapClosedError
-    from .results import ResultsExistError
+    from .results import RestartFileError, ResultsExistError
 
     try:
         commands = {"run": _cmd_run, "bench": _cmd_bench, "butterfly": _cmd_butterfly, "hallbar": _cmd_hallbar}
         return commands[args.command](args)
-    except (ConfigError, ResultsExistError, GapClosedError) as err:
+    except (ConfigError, ResultsExistError, GapClosedError, RestartFileError) as err:
         print(f"topoedge: error: {err}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except OSError as err:  # e.g. an --out whose parent is a file or read-only

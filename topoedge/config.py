@@ -2,7 +2,8 @@
 
 A scenario file has a top-level ``title`` and the sections ``[lattice]``,
 ``[spin]``, ``[ribbon]``, ``[ribbon.edge]``, ``[spectrum]``, ``[fermi]``,
-``[chern]``, ``[edges]``, ``[material]`` and ``[field]``. With
+``[chern]``, ``[edges]``, ``[material]``, ``[field]``, ``[hallbar]``,
+``[interaction]`` and ``[interaction.background]``. With
 ``field.b_tesla`` the flux, the Zeeman splitting and (from ``fermi_mev`` or
 ``density_cm2``) the Fermi level are derived from the material
 (:mod:`topoedge.units`) and must not be given in lattice units as well.
@@ -41,7 +42,7 @@ __all__ = [
     "DEFAULT_SCENARIO", "EDGE_PROFILES", "PRESETS_DIR", "SOLVERS", "ConfigError",
     "derive_units", "lattice_scenario",
     "EdgeConfig", "FermiConfig", "LatticeConfig", "RibbonConfig", "Scenario",
-    "SpectrumConfig", "SpinConfig", "apply_overrides", "key_docs",
+    "SpectrumConfig", "SpinConfig", "InteractionConfig", "BackgroundConfig", "START_STATES", "apply_overrides", "key_docs",
     "load_scenario", "parse_scenario",
 ]
 
@@ -277,6 +278,90 @@ class HallbarConfig:
     seeds: int = 1
 
 
+#: Starting states of the self-consistent loop (the names of
+#: topoedge.hartree_fock.START_STATES; repeated here so that reading a
+#: scenario does not import the solvers).
+START_STATES = ("unpolarised", "polarised", "edge", "random")
+MIXINGS = ("diis", "linear")
+BACKGROUND_PROFILES = ("linear", "erf")
+
+
+@dataclass(frozen=True)
+class BackgroundConfig:
+    """Positive background charge that neutralises the electrons and makes the edge.
+
+    Attributes
+    ----------
+    profile : str
+        One of `BACKGROUND_PROFILES`: the fall from the bulk value to zero.
+    width : float
+        Width w of the fall at each edge, in lattice constants a (0: sharp).
+    setback : float
+        Rows next to each boundary kept free of background, in a.
+    """
+
+    profile: str = "linear"
+    width: float = 0.0
+    setback: float = 0.0
+
+
+@dataclass(frozen=True)
+class InteractionConfig:
+    """Coulomb interaction; with it, ``run`` is self-consistent Hartree-Fock.
+
+    Attributes
+    ----------
+    enabled : bool
+        Self-consistent run; true when the ``[interaction]`` section is
+        present unless it says otherwise.
+    coulomb : float or None
+        ``U_C = e^2 / (4 pi eps0 eps_r a)``, in t; unset: from
+        ``[material]`` and ``[field]``.
+    onsite : float or None
+        ``V(0)``, in t; unset: ``4 ln(1 + sqrt 2) U_C`` (1/r averaged over
+        the unit cell).
+    gate_distance : float or None
+        Metal gate at this distance, in a (image charge); unset: no gate.
+    background : BackgroundConfig
+    k_points : int or None
+        Momenta ``N_k`` of the self-consistent loop (even); unset: the
+        smallest even number >= max(32, 16 l_B / a) that holds a whole
+        number of electrons.
+    temperature : float
+        Smearing ``k_B T``, in t (0: zero temperature).
+    mixing : str
+        "diis" (Pulay/Anderson) or "linear".
+    alpha : float
+        Mixing weight of the new residual.
+    history : int
+        DIIS depth.
+    tol : float
+        Converged when the density matrix changes by less than this.
+    max_iter : int
+        Iterations per start before a run is reported as not converged.
+    starts : tuple of str
+        Starting states; the lowest converged energy is kept.
+    scan_widths : tuple of float
+        Background widths w (a) of the edge-structure scan reported beside
+        the main run (empty: no scan).
+    """
+
+    enabled: bool = False
+    coulomb: float | None = None
+    onsite: float | None = None
+    gate_distance: float | None = None
+    background: BackgroundConfig = BackgroundConfig()
+    k_points: int | None = None
+    temperature: float = 0.0
+    mixing: str = "diis"
+    alpha: float = 0.3
+    history: int = 8
+    tol: float = 1e-7
+    max_iter: int = 300
+    starts: tuple[str, ...] = ("polarised", "edge", "unpolarised")
+    scan_widths: tuple[float, ...] = ()
+
+
 @dataclass(frozen=True)
 class Scenario:
     """A complete validated scenario; build it with `parse_scenario`.
@@ -296,6 +381,7 @@ class Scenario:
     material: MaterialConfig = MaterialConfig()
     field: FieldConfig = FieldConfig()
     hallbar: HallbarConfig = HallbarConfig()
+    interaction: InteractionConfig = InteractionConfig()
     source: str | None = dataclasses.field(default=None, compare=False)
 
     def to_dict(self) -> dict[str, Any]:
@@ -308,6 +394,8 @@ class Scenario:
         """
         derived = ({"lattice.flux", "spin.zeeman", "fermi.energy", "fermi.gap"}
                    if self.field.b_tesla is not None else set())
+        if self.interaction == InteractionConfig():  # no interaction: leave the section out
+            derived |= {path for path in _KEYS if path.startswith("interaction.")}
         out: dict[str, Any] = {}
         for path in _KEYS:
             value = _plain(_lookup(self, path))
@@ -327,6 +415,7 @@ _SECTIONS: dict[str, type] = {
     "chern": ChernConfig, "edges": EdgesConfig,
     "material": MaterialConfig, "field": FieldConfig,
     "hallbar": HallbarConfig,
+    "interaction": InteractionConfig, "interaction.background": BackgroundConfig,
 }
 
 
@@ -420,6 +509,51 @@ _KEYS: dict[str, _Key] = {key.path: key for key in (
          "a strength >= 0 in t", lambda w: w >= 0),
     _Key("hallbar.seeds", "integer", "-", "Number of disorder realisations averaged.",
          "an integer >= 1", lambda n: n >= 1),
+    _Key("interaction.enabled", "boolean", "-",
+         "Self-consistent Hartree-Fock run (true when the [interaction] section is present).",
+         "true or false"),
+    _Key("interaction.coulomb", "float", "t",
+         "U_C = e^2/(4 pi eps0 eps_r a); unset: from [material] and [field].",
+         "a strength >= 0 in t", lambda u: u >= 0, optional=True),
+    _Key("interaction.onsite", "float", "t",
+         "On-site interaction V(0); unset: 4 ln(1+sqrt 2) U_C (1/r averaged over the cell).",
+         "an energy >= 0 in t", lambda u: u >= 0, optional=True),
+    _Key("interaction.gate_distance", "float", "a",
+         "Distance of a metal gate (image-charge screening); unset: no gate.",
+         "a distance > 0 in lattice constants (leave the key out for no gate)", _positive,
+         optional=True),
+    _Key("interaction.background.profile", "choice", "-",
+         "Fall of the neutralising background charge at each edge.",
+         "one of " + ", ".join(map(repr, BACKGROUND_PROFILES)), choices=BACKGROUND_PROFILES),
+    _Key("interaction.background.width", "float", "a",
+         "Width w of the fall of the background (0 = sharp edge).",
+         "a width >= 0 in lattice constants", lambda w: w >= 0),
+    _Key("interaction.background.setback", "float", "a",
+         "Rows next to each boundary kept free of background.",
+         "a distance >= 0 in lattice constants", lambda w: w >= 0),
+    _Key("interaction.k_points", "integer", "-",
+         "Momenta N_k of the self-consistent loop; unset: smallest even N_k >= max(32, 16 l_B) "
+         "holding a whole number of electrons.",
+         "an even integer >= 4", lambda n: n >= 4 and n % 2 == 0, optional=True),
+    _Key("interaction.temperature", "float", "t", "Smearing temperature k_B T (0: zero temperature).",
+         "a temperature >= 0 in t", lambda x: x >= 0),
+    _Key("interaction.mixing", "choice", "-", "Pulay/Anderson (DIIS) or plain linear mixing.",
+         "one of " + ", ".join(map(repr, MIXINGS)), choices=MIXINGS),
+    _Key("interaction.alpha", "float", "-", "Mixing weight of the new residual.",
+         "a weight with 0 < alpha <= 1", lambda a: 0 < a <= 1),
+    _Key("interaction.history", "integer", "-", "Iterates kept by DIIS.",
+         "an integer >= 1", lambda n: n >= 1),
+    _Key("interaction.tol", "float", "-",
+         "Converged when no element of the density matrix changes by more than this.",
+         "a tolerance > 0", _positive),
+    _Key("interaction.max_iter", "integer", "-", "Iterations per start before giving up (restartable).",
+         "an integer >= 1", lambda n: n >= 1),
+    _Key("interaction.starts", "starts", "-",
+         "Starting states; the lowest converged Hartree-Fock energy is kept.",
+         "a non-empty array of distinct names from " + ", ".join(map(repr, START_STATES))),
+    _Key("interaction.scan_widths", "widths", "a",
+         "Background widths w of an edge-structure scan beside the main run (empty: none).",
+         "an array of distinct widths >= 0 in lattice constants"),
 )}
 
 _TOML_TYPES = {bool: "boolean", int: "integer", float: "float", str: "string",
@@ -533,9 +667,34 @@ def _to_grid(key: _Key, value: Any) -> tuple[int, int]:
     return int(value[0]), int(value[1])
 
 
+def _to_starts(key: _Key, value: Any) -> tuple[str, ...]:
+    if not isinstance(value, (list, tuple)) or not value:
+        raise _type_error(key, value)
+    for item in value:
+        if item not in START_STATES:
+            close = difflib.get_close_matches(str(item), START_STATES, n=1)
+            hint = f" (did you mean {close[0]!r}?)" if close else ""
+            raise ConfigError(f"{key.path}: got {_show(item)}; expected {key.expect}{hint}")
+    if len(set(value)) < len(value):
+        raise ConfigError(f"{key.path}: got {_show(list(value))} with a repeated name; expected {key.expect}")
+    return tuple(value)
+
+
+def _to_widths(key: _Key, value: Any) -> tuple[float, ...]:
+    if not isinstance(value, (list, tuple)):
+        raise _type_error(key, value)
+    for item in value:
+        if not (_is_real(item) and math.isfinite(item) and item >= 0):
+            raise ConfigError(f"{key.path}: got {_show(item)} in the array; expected {key.expect}")
+    if len(set(value)) < len(value):
+        raise ConfigError(f"{key.path}: got {_show(list(value))} with a repeated width; expected {key.expect}")
+    return tuple(float(x) for x in value)
+
+
 _CONVERTERS: dict[str, Callable[[_Key, Any], Any]] = {
     "string": _to_str, "float": _to_float, "integer": _to_int, "boolean": _to_bool,
     "choice": _to_choice, "flux": _to_flux, "pairs": _to_pairs, "grid": _to_grid,
+    "starts": _to_starts, "widths": _to_widths,
 }
 
 
@@ -627,10 +786,51 @@ def _check_combinations(s: Scenario) -> None:
     if s.fermi.energy is not None and s.fermi.gap is not None:
         raise ConfigError(f"fermi.gap: got {s.fermi.gap} together with fermi.energy = "
                           f"{s.fermi.energy!r}; expected only one of them")
+    if s.interaction.enabled:
+        _check_interaction(s)
     if s.spin.zeeman != 0 and not s.spin.enabled:
         raise ConfigError(f"spin.zeeman: got {s.spin.zeeman!r} with spin.enabled = false; "
                           f"expected 0 without spin (spin.zeeman = {s.spin.zeeman!r} needs "
                           "spin.enabled = true)")
+
+
+def _check_interaction(s: Scenario) -> None:
+    """A self-consistent scenario: spinful, filling given, edge from the background only."""
+    inter, width = s.interaction, s.ribbon.width
+    physical = s.field.b_tesla is not None
+    if not s.spin.enabled:
+        raise ConfigError("spin.enabled: false with [interaction]; expected true (the self-consistent "
+                          "run has both spins)")
+    if s.ribbon.edge.profile != "none":
+        raise ConfigError(f"ribbon.edge.profile: got {s.ribbon.edge.profile!r} with [interaction], where the "
+                          "edge is the potential of the background charge (interaction.background.*); "
+                          "expected 'none'")
+    if s.hallbar.enabled:
+        raise ConfigError("hallbar.enabled: true with [interaction]; expected false (the Hall bar is "
+                          "not interacting)")
+    if s.fermi.energy is not None or s.field.fermi_mev is not None:
+        key = "field.fermi_mev" if physical else "fermi.energy"
+        raise ConfigError(f"{key}: given with [interaction], where the electron number equals the "
+                          "background charge; expected fermi.gap (bands filled in the bulk) or "
+                          "field.density_cm2 instead")
+    if s.fermi.gap is None and s.field.density_cm2 is None:
+        raise ConfigError("fermi.gap: missing with [interaction]; expected the number of bulk bands "
+                          "filled (e.g. fermi.gap = 1 for nu = 1 at flux 1/q), or field.density_cm2")
+    if inter.coulomb is None and not physical:
+        raise ConfigError("interaction.coulomb: missing; expected U_C in t, or [material] and [field] "
+                          "to derive it from the permittivity")
+    if inter.coulomb is not None and physical:
+        raise ConfigError("interaction.coulomb: given together with [material] and [field], which set it "
+                          "(e^2/(4 pi eps0 eps_r a)); expected only one of them")
+    for w in (inter.background.width, *inter.scan_widths):
+        key = "interaction.background.width" if w == inter.background.width else "interaction.scan_widths"
+        if w > width / 2:
+            raise ConfigError(f"{key}: got {w!r}, wider than half the ribbon (ribbon.width = {width}); "
+                              f"expected at most {width / 2:g}")
+    if inter.background.setback >= width / 2:
+        raise ConfigError(f"interaction.background.setback: got {inter.background.setback!r}, which leaves "
+                          f"no background in a ribbon of {width} rows, so nothing can neutralise the "
+                          f"electrons; expected less than {width / 2:g}")
 
 
 _MATERIAL_KEYS = ("effective_mass", "g_factor", "permittivity", "lattice_constant_nm")
@@ -729,6 +929,8 @@ def parse_scenario(data: Mapping[str, Any], *, source: str | None = None) -> Sce
                     or values.get("field.density_cm2") is not None):
                 raise ConfigError(f"{path}: given together with {by}, which sets it; expected only one "
                                   "of them (remove the lattice-unit key)")
+    if isinstance(data.get("interaction"), Mapping) and "interaction.enabled" not in values:
+        values["interaction.enabled"] = True  # the section turns the interaction on
     scenario = _build("", values, source=source)
     _check_combinations(scenario)
     return scenario
@@ -869,7 +1071,8 @@ def key_docs() -> list[tuple[str, str, str, str, str]]:
     for path, key in _KEYS.items():
         kind = {"choice": "string: " + " | ".join(f'"{c}"' for c in key.choices),
                 "flux": 'string "p/q"', "pairs": "array of [float, float]",
-                "grid": "array of two integers"}.get(key.kind, key.kind)
+                "grid": "array of two integers", "starts": "array of strings",
+                "widths": "array of floats"}.get(key.kind, key.kind)
         default = _plain(_lookup(defaults, path))
         rows.append((path, kind, key.unit, "unset" if default is None else json.dumps(default),
                      key.doc))

@@ -517,6 +517,10 @@ class HartreeFockRibbon:
         if g.shape != (2, self.nk, self.width, self.width):
             raise ValueError(f"start density matrix: got shape {g.shape}; expected "
                              f"{(2, self.nk, self.width, self.width)}")
+        held = float(self.density_of(g).sum())
+        if abs(held - self.electrons) > 1e-6 * max(1.0, self.electrons):
+            raise ValueError(f"start density matrix: holds {held:.6g} electrons per cell against a background "
+                             f"of {self.electrons:.6g}; expected a neutral state (the same background)")
         xs, rs = [], []
         residuals, energies = [], []
         converged = False

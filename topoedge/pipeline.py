@@ -67,6 +67,9 @@ class RunResult:
     summary: dict
     units: Derived | None = None
     streda: StredaResult | None = None
+    #: The self-consistent solutions of a run with [interaction]
+    #: (topoedge.interacting.InteractingRun), else None.
+    interacting: object | None = None
 
 
 def _params(scenario: Scenario) -> dict:
@@ -141,6 +144,8 @@ def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
     topoedge.chern.GapClosedError
         Before the ribbon is computed, when E_F is not in an open bulk gap.
     """
+    if scenario.interaction.enabled:
+        raise ValueError("the scenario has [interaction]: run it with topoedge.interacting.run_interacting")
     start = time.perf_counter()
     given = scenario
     scenario, units = lattice_scenario(scenario)

@@ -48,7 +48,8 @@ if TYPE_CHECKING:  # the writers only read a RunResult; importing it would load 
     from .pipeline import RunResult
 
 __all__ = [
-    "ResultsExistError", "check_destination", "write_folder", "write_json", "write_run", "format_summary",
+    "ResultsExistError", "RestartFileError", "check_destination", "read_restart", "write_restart",
+    "write_hartree_fock_h5", "write_folder", "write_json", "write_run", "format_summary",
 ]
 
 
@@ -123,6 +124,111 @@ def write_spectrum_h5(path: Path, result: RunResult) -> None:
         group = f.create_group("config")
         for key, value in _flatten("", config).items():
             group.attrs[key] = json.dumps(value) if isinstance(value, (list, tuple)) else value
+
+
+def write_hartree_fock_h5(path: Path, result: RunResult) -> None:
+    """Write the self-consistent solutions of an interacting run to HDF5.
+
+    Layout: one group per background width ``w=<w>`` (the main width and the
+    scan) with ``background``, ``y`` (rows), ``k`` and attributes ``width_a``,
+    ``k_points``, ``best_start`` (empty when none converged); in it one group
+    per start with ``density`` (2, W: spin up, down), ``hartree`` (W, t),
+    ``energies`` (2, N_k, W, t), ``residual`` and ``energy`` per iteration and
+    attributes ``converged``, ``iterations``, ``energy_t``, ``mu_t``,
+    ``message``. Root attributes: ``model_json`` (what defines the problem),
+    ``summary_json`` (the ``interaction`` block of the summary).
+    """
+    run = result.interacting
+    with h5py.File(path, "w") as f:
+        f.attrs["topoedge_version"] = __version__
+        f.attrs["model_json"] = json.dumps(run.model, sort_keys=True)
+        f.attrs["summary_json"] = json.dumps(result.summary.get("interaction"), sort_keys=True)
+        f.attrs["units"] = "energies in t, positions in lattice constants, densities in electrons per site"
+        for sc in (run.main, *run.scan):
+            name = f"w={sc.width:g}"
+            if name in f:
+                continue
+            group = f.create_group(name)
+            group.attrs["width_a"] = sc.width
+            group.attrs["k_points"] = sc.k_points
+            group.attrs["best_start"] = sc.best.start if sc.best is not None else ""
+            group.create_dataset("background", data=sc.background)
+            group.create_dataset("y", data=np.arange(sc.background.size, dtype=float))
+            for hf in sc.runs:
+                g = group.create_group(hf.start)
+                g.create_dataset("density", data=hf.density)
+                g.create_dataset("hartree", data=hf.hartree)
+                g.create_dataset("energies", data=hf.energies, compression="gzip", compression_opts=4)
+                g.create_dataset("k", data=hf.k)
+                g.create_dataset("residual", data=np.asarray(hf.history.get("residual", []), dtype=float))
+                g.create_dataset("energy", data=np.asarray(hf.history.get("energy", []), dtype=float))
+                g.attrs.update(converged=hf.converged, iterations=hf.iterations, energy_t=hf.energy,
+                               mu_t=hf.mu, message=hf.message, restarted=hf.start in sc.restarted)
+
+
+class RestartFileError(ValueError):
+    """A restart file that cannot be used; ``str(err)`` is one line."""
+
+
+def write_restart(path: Path, states: dict, model: dict) -> None:
+    """Store self-consistent states atomically (a temporary file renamed into place).
+
+    ``states`` maps a state key ``"w=<w>/<start>"`` to ``{"density_matrix",
+    "converged", "iterations"}``; ``model`` is what defines the problem
+    (:func:`topoedge.interacting.model_key`). Layout: ``/states/w=<w>/<start>``
+    datasets ``G_s(D)`` (2, N_k, W, W) with attributes ``converged`` and
+    ``iterations``; root attributes ``model_json`` and ``topoedge_version``.
+    """
+    path = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.partial-", dir=path.parent)
+    os.close(fd)
+    try:
+        with h5py.File(tmp, "w") as f:
+            f.attrs["topoedge_version"] = __version__
+            f.attrs["model_json"] = json.dumps(model, sort_keys=True)
+            group = f.create_group("states")
+            for key, state in states.items():
+                g = np.array(state["density_matrix"], dtype=complex)
+                g[np.abs(g) < 1e-15] = 0  # rounding noise; lets the zeros compress
+                d = group.create_dataset(key, data=g, compression="gzip", compression_opts=4, shuffle=True)
+                d.attrs["converged"] = bool(state["converged"])
+                d.attrs["iterations"] = int(state["iterations"])
+        umask = os.umask(0)  # mkstemp creates the file 0600; give it a plain file's permissions
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+def read_restart(path: Path) -> tuple[dict, dict]:
+    """The states (key -> density matrix) and the model of a restart file.
+
+    Raises
+    ------
+    RestartFileError
+        When the file is missing, unreadable or not a restart file.
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise RestartFileError(f"--restart: {str(path)!r} not found; expected a restart.h5 of a results "
+                               "folder or the .checkpoint.h5 of an interrupted run")
+    try:
+        with h5py.File(path, "r") as f:
+            model = json.loads(f.attrs["model_json"])
+            states = {}
+
+            def visit(name, obj):
+                if isinstance(obj, h5py.Dataset):
+                    states[name] = obj[()]
+
+            f["states"].visititems(visit)
+    except (OSError, KeyError, ValueError) as err:
+        raise RestartFileError(f"--restart: {str(path)!r} is not a topoedge restart file ({err}); expected "
+                               "a restart.h5 of a results folder or the .checkpoint.h5 of an interrupted run"
+                               ) from None
+    return states, model
 
 
 def write_folder(out: Path, files: dict[str, Callable[[Path], None]], *, force: bool = False) -> Path:
@@ -200,13 +306,23 @@ def write_run(
     force : bool
         Replace an existing folder.
     """
-    files = {"summary.json": write_json(result.summary),
-             "spectrum.h5": lambda path: write_spectrum_h5(path, result), **figures}
-    return write_folder(out, files, force=force)
+    files = {"summary.json": write_json(result.summary)}
+    if result.spectrum is not None:
+        files["spectrum.h5"] = lambda path: write_spectrum_h5(path, result)
+    if result.interacting is not None:
+        files["hartree_fock.h5"] = lambda path: write_hartree_fock_h5(path, result)
+        files["restart.h5"] = lambda path: write_restart(path, result.interacting.states(), result.interacting.model)
+    return write_folder(out, {**files, **figures}, force=force)
 
 
 def format_summary(summary: dict) -> str:
     """Short human-readable summary of a run."""
+    if "model" not in summary:  # a self-consistent run in which no start converged
+        lines = [f"topoedge {summary['topoedge_version']}: {summary.get('title') or 'scenario'}"
+                 + (f" ({summary['source']})" if summary.get("source") else "")]
+        lines += _interaction_lines(summary)
+        lines.append(f"  time         {summary['seconds']:.2f} s")
+        return "\n".join(lines)
     m, s = summary["model"], summary["spectrum"]
     lines = [
         f"topoedge {summary['topoedge_version']}: {summary.get('title') or 'scenario'}"
@@ -220,9 +336,10 @@ def format_summary(summary: dict) -> str:
         )
     spin = f"spin 1/2, Zeeman {m['zeeman_t']:g} t" if m["spin"] else "spinless"
     lines.append(f"  spin         {spin}")
+    potential = "max Hartree potential" if summary.get("interaction") else "max edge potential"
     lines.append(
         f"  ribbon       W = {m['ribbon_width_sites']} sites, edge '{m['edge_profile']}', "
-        f"max edge potential {m['edge_potential_max_t']:.4g} t"
+        f"{potential} {m['edge_potential_max_t']:.4g} t"
     )
     window = f", window [{s['window'][0]:.4g}, {s['window'][1]:.4g}] t" if s["window"] else ""
     lines.append(
@@ -232,8 +349,74 @@ def format_summary(summary: dict) -> str:
         lines.append(f"               energies {s['energy_min']:.5f} .. {s['energy_max']:.5f} t")
     lines += _units_lines(summary)
     lines += _topology_lines(summary)
+    lines += _interaction_lines(summary)
     lines.append(f"  time         {summary['seconds']:.2f} s")
     return "\n".join(lines)
+
+
+def _modes_text(order: list[dict]) -> str:
+    return ", ".join(f"{m['spin'] or '?'} {m['direction']} at {m['distance_a']:.1f} a ({m['distance_lB']:.2f} l_B)"
+                     for m in order) or "none"
+
+
+def _interaction_lines(summary: dict) -> list[str]:
+    """The self-consistent part: strengths, starts, neutrality, edge order, scan."""
+    i = summary.get("interaction")
+    if not i:
+        return []
+    gate = f"gate at {i['gate_distance_a']:g} a" if i["gate_distance_a"] is not None else "no gate"
+    bg = i["background"]
+    temperature = "T = 0" if not i["temperature_t"] else f"k_B T = {i['temperature_t']:g} t"
+    lines = [
+        f"  interaction  U_C = {i['coulomb_t']:.4g} t (E_C = U_C/l_B = {i['coulomb_energy_t']:.4f} t = "
+        f"{i['coulomb_over_cyclotron']:.2f} hbar*omega_c), on-site {i['onsite_t']:.4g} t, {gate}",
+        f"  background   {bg['profile']}, w = {bg['width_a']:g} a = {bg['width_lB']:.2f} l_B, setback "
+        f"{bg['setback_a']:g} a, filling {i['filling']:g} ({bg['density_per_site']:.5g} per site); "
+        f"N_k = {i['k_points']}, {temperature}, "
+        f"{i['mixing']} mixing, tol {i['tol']:g}",
+    ]
+    for n, r in enumerate(i["starts"]):
+        state = (f"converged in {r['iterations']} iterations" if r["converged"]
+                 else f"NOT converged after {r['iterations']} iterations")
+        mark = "  <- lowest" if r["start"] == i["best_start"] else ""
+        again = " (restarted)" if r["restarted"] else ""
+        lines.append(f"  {'starts' if n == 0 else '':12s} {r['start'] + again:24s} E = {r['energy_t']:.10f} t per "
+                     f"cell, {state}{mark}")
+    if not i["converged"]:
+        lines.append(f"  warning      {i['message']}")
+        return lines
+    lines.append(f"  neutrality   electrons - background = {i['neutrality_error']:.1e} per cell; V_H at the "
+                 f"centre {i['hartree_centre_t']:.2e} t ({100 * i['hartree_centre_over_coulomb_energy']:.2f} % of E_C)")
+    half = i["half_filling_distance_a"]
+
+    def at(v):
+        return "-" if v is None else f"{v:.2f} a"
+
+    lines.append(f"  filling      centre: up {i['filling_centre']['up']:.4f}, down {i['filling_centre']['down']:.4f}; "
+                 f"half of the centre value reached at up {at(half['up'])}, down {at(half['down'])}, "
+                 f"background {at(half['background'])} from the boundary")
+    lines.append(f"  edge order   bottom: {_modes_text(i['bottom']['order'])}")
+    lines.append(f"               top:    {_modes_text(i['top']['order'])}")
+    if i.get("scan"):
+        lines.append("  scan         w (a)  w/l_B  best start    bottom edge net/pairs, modes from the boundary inwards")
+        for row in i["scan"]:
+            if not row["converged"]:
+                lines.append(f"               {row['width_a']:5.1f}  {row['width_lB']:5.2f}  no start converged")
+                continue
+            b = row["bottom"]
+            gap = "" if row["in_gap"] else "  (E_F not in a gap: " + str(row["edges_message"]) + ")"
+            lines.append(f"               {row['width_a']:5.1f}  {row['width_lB']:5.2f}  {row['best_start']:12s}  "
+                         f"{b['net']:+d}/{b['counter_pairs']}  {_modes_text(b['order'])}{gap}")
+        rec = i.get("reconstruction")
+        if rec and rec["found"]:
+            below = ("" if rec["widest_without_a"] is None else
+                     f"; none at w = {rec['widest_without_a']:g} a ({rec['widest_without_lB']:.2f} l_B)")
+            lines.append(f"  reconstruction first counter-propagating pair at w = {rec['first_with_pair_a']:g} a "
+                         f"({rec['first_with_pair_lB']:.2f} l_B){below}")
+        elif rec:
+            lines.append(f"  reconstruction no counter-propagating pair up to w = {rec['widest_without_a']:g} a "
+                         f"({rec['widest_without_lB']:.2f} l_B)")
+    return lines
 
 
 def _units_lines(summary: dict) -> list[str]:
@@ -287,7 +470,9 @@ def _topology_lines(summary: dict) -> list[str]:
     lines = [
         f"  bulk         {len(b['bands'])} bands, {len(b['gaps'])} open gaps on a "
         f"{b['grid'][0]}x{b['grid'][1]} grid{conv}",
-        f"  Fermi energy {f['energy']:.5f} t in the gap above {f['gap_below']} bands ({window})",
+        f"  Fermi energy {f['energy']:.5f} t in the gap above {f['gap_below']} bands "
+        + (f"({window})" if "note" not in f else "(self-consistent: mid-way between the highest occupied "
+           "and the lowest empty level)"),
         f"  Chern sum    C = {b['chern_below_fermi']}{spin}",
         "  edge      net  pairs   net/pairs by spin      modes from the boundary inwards",
         _edge_line("bottom", e["bottom"]),
