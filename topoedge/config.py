@@ -325,7 +325,7 @@ class InteractionConfig:
     background : BackgroundConfig
     k_points : int or None
         Momenta ``N_k`` of the self-consistent loop (even); unset: the
-        smallest even number >= max(32, 16 l_B / a) that holds a whole
+        smallest even number >= max(32, 12 l_B / a) that holds a whole
         number of electrons.
     temperature : float
         Smearing ``k_B T``, in t (0: zero temperature).
@@ -532,7 +532,7 @@ _KEYS: dict[str, _Key] = {key.path: key for key in (
          "Rows next to each boundary kept free of background.",
          "a distance >= 0 in lattice constants", lambda w: w >= 0),
     _Key("interaction.k_points", "integer", "-",
-         "Momenta N_k of the self-consistent loop; unset: smallest even N_k >= max(32, 16 l_B) "
+         "Momenta N_k of the self-consistent loop; unset: smallest even N_k >= max(32, 12 l_B) "
          "holding a whole number of electrons.",
          "an even integer >= 4", lambda n: n >= 4 and n % 2 == 0, optional=True),
     _Key("interaction.temperature", "float", "t", "Smearing temperature k_B T (0: zero temperature).",

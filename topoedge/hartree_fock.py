@@ -521,7 +521,7 @@ class HartreeFockRibbon:
         if abs(held - self.electrons) > 1e-6 * max(1.0, self.electrons):
             raise ValueError(f"start density matrix: holds {held:.6g} electrons per cell against a background "
                              f"of {self.electrons:.6g}; expected a neutral state (the same background)")
-        xs, rs = [], []
+        pulay = _Pulay(history)
         residuals, energies = [], []
         converged = False
         for it in range(1, max_iter + 1):
@@ -540,12 +540,7 @@ class HartreeFockRibbon:
             if mixing == "linear":
                 g = g + alpha * r
                 continue
-            xs.append(g)
-            rs.append(r)
-            if len(xs) > history:
-                xs.pop(0)
-                rs.pop(0)
-            g = _pulay(xs, rs, alpha)
+            g = pulay.step(g, r, alpha)
         h, vh, f = self.hamiltonian(g)
         w, _, _, mu, _ = self.solve_fixed(h)
         message = (f"converged in {it} iterations (max |dG| = {residuals[-1]:.2e} < {tol:g})" if converged else
@@ -584,24 +579,47 @@ class HartreeFockRibbon:
         return best, results
 
 
-def _pulay(xs: list, rs: list, alpha: float) -> np.ndarray:
-    """Pulay/Anderson step: the residual-minimising combination of the iterates."""
-    m = len(xs)
-    b = np.empty((m + 1, m + 1))
-    for i in range(m):
-        for j in range(i, m):
-            b[i, j] = b[j, i] = np.real(np.vdot(rs[i], rs[j]))
-    b[m, :m] = b[:m, m] = -1.0
-    b[m, m] = 0.0
-    rhs = np.zeros(m + 1)
-    rhs[m] = -1.0
-    scale = np.abs(np.diag(b)[:m]).max()
-    b[:m, :m] /= scale if scale > 0 else 1.0
-    try:
-        c = np.linalg.lstsq(b, rhs, rcond=1e-12)[0][:m]
-    except np.linalg.LinAlgError:
-        c = np.zeros(m)
-        c[-1] = 1.0
-    x = sum(ci * xi for ci, xi in zip(c, xs))
-    r = sum(ci * ri for ci, ri in zip(c, rs))
-    return x + alpha * r
+class _Pulay:
+    """Pulay/Anderson extrapolation over the last ``depth`` iterates.
+
+    The overlaps ``<r_i, r_j>`` of the residuals are kept between steps, so
+    a step costs ``depth`` inner products of new against old residuals (not
+    ``depth^2``).
+    """
+
+    def __init__(self, depth: int):
+        self.depth = int(depth)
+        self.xs: list = []
+        self.rs: list = []
+        self.overlap = np.zeros((0, 0))
+
+    def step(self, x: np.ndarray, r: np.ndarray, alpha: float) -> np.ndarray:
+        """Store ``(x, r)`` and return the next iterate ``sum c_i (x_i + alpha r_i)``."""
+        new = np.array([np.real(np.vdot(ri, r)) for ri in self.rs] + [np.real(np.vdot(r, r))])
+        m = len(self.rs) + 1
+        b = np.zeros((m, m))
+        b[:m - 1, :m - 1] = self.overlap
+        b[m - 1, :] = b[:, m - 1] = new
+        self.xs.append(x)
+        self.rs.append(r)
+        if m > self.depth:
+            self.xs.pop(0)
+            self.rs.pop(0)
+            b = b[1:, 1:]
+            m -= 1
+        self.overlap = b
+        a = np.zeros((m + 1, m + 1))
+        scale = np.abs(np.diag(b)).max()
+        a[:m, :m] = b / (scale if scale > 0 else 1.0)
+        a[m, :m] = a[:m, m] = -1.0
+        rhs = np.zeros(m + 1)
+        rhs[m] = -1.0
+        try:
+            c = np.linalg.lstsq(a, rhs, rcond=1e-12)[0][:m]
+        except np.linalg.LinAlgError:
+            c = np.zeros(m)
+            c[-1] = 1.0
+        out = np.zeros_like(x)
+        for ci, xi, ri in zip(c, self.xs, self.rs):
+            out += ci * (xi + alpha * ri)
+        return out

@@ -109,7 +109,7 @@ def choose_k_points(electrons: float, magnetic_length: float, *, given: int | No
     At zero temperature the ``N_k`` cells of the ring must hold a whole
     number of electrons, or the last level is partly filled (a metal where
     there should be a gap; possibly at one edge only). Without ``given`` the
-    smallest even ``N_k >= max(32, 16 l_B / a)`` with ``electrons * N_k``
+    smallest even ``N_k >= max(32, 12 l_B / a)`` with ``electrons * N_k``
     within 1e-9 of an integer is taken (up to ``limit``).
 
     Parameters
@@ -126,7 +126,7 @@ def choose_k_points(electrons: float, magnetic_length: float, *, given: int | No
     def whole(n):
         return abs(electrons * n - round(electrons * n)) < 1e-9
 
-    least = max(32, int(math.ceil(16 * magnetic_length)))
+    least = max(32, int(math.ceil(12 * magnetic_length)))
     least += least % 2
     if given is not None:
         if temperature == 0 and not whole(given):
@@ -317,6 +317,13 @@ def solve_width(scenario: Scenario, blocks, interaction: Interaction, width: flo
             on_state(key, result.density_matrix, result.converged, result.iterations)
         runs.append(result)
     best = _lowest(runs)
+    rival = [r for r in runs if r.converged and r is not best
+             and np.abs(r.density - best.density).max() > 1e-4 and r.energy - best.energy < 1e-3]
+    if rival:
+        close = min(rival, key=lambda r: r.energy)
+        near = (f"the '{close.start}' start ends in a different state only {close.energy - best.energy:.1e} t "
+                f"per cell above the kept '{best.start}' one; check the choice with a larger interaction.k_points")
+        warning = f"{warning}; {near}" if warning else near
     ham = ef = edges = None
     if best is not None:
         ham = hf.effective(best)

@@ -320,6 +320,7 @@ def format_summary(summary: dict) -> str:
     if "model" not in summary:  # a self-consistent run in which no start converged
         lines = [f"topoedge {summary['topoedge_version']}: {summary.get('title') or 'scenario'}"
                  + (f" ({summary['source']})" if summary.get("source") else "")]
+        lines += [f"  warning      {w}" for w in summary.get("warnings", [])]
         lines += _interaction_lines(summary)
         lines.append(f"  time         {summary['seconds']:.2f} s")
         return "\n".join(lines)
@@ -348,6 +349,7 @@ def format_summary(summary: dict) -> str:
     if s["energy_min"] is not None:
         lines.append(f"               energies {s['energy_min']:.5f} .. {s['energy_max']:.5f} t")
     lines += _units_lines(summary)
+    lines += [f"  warning      {w}" for w in summary.get("warnings", [])]
     lines += _topology_lines(summary)
     lines += _interaction_lines(summary)
     lines.append(f"  time         {summary['seconds']:.2f} s")
@@ -437,7 +439,6 @@ def _units_lines(summary: dict) -> list[str]:
     if u["fermi_t"] is not None:
         lines.append(f"               E_F = {summary['config']['field']['fermi_mev']:g} meV above the "
                      f"band bottom = {u['fermi_t']:.5f} t")
-    lines += [f"  warning      {w}" for w in summary.get("warnings", [])]
     return lines
 
 
