@@ -15,6 +15,13 @@ from threadpoolctl import ThreadpoolController
 
 @lru_cache(maxsize=1)
 def _controller() -> ThreadpoolController:
+    # The controller knows only the libraries loaded when it is created:
+    # load NumPy's and SciPy's BLAS first (the wheels bring two separate
+    # OpenBLAS builds), or a worker that imports SciPy later (through kwant)
+    # would run SciPy's BLAS on every core in each worker at once.
+    import numpy.linalg  # noqa: F401
+    import scipy.linalg  # noqa: F401
+
     return ThreadpoolController()
 
 

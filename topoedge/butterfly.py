@@ -132,9 +132,7 @@ from __future__ import annotations
 
 import json
 import math
-import os
 import time
-import warnings
 from dataclasses import dataclass, replace
 from fractions import Fraction
 from functools import partial
@@ -144,6 +142,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from . import __version__
+from ._workers import default_jobs, init_worker, stop_pool
 
 if TYPE_CHECKING:  # importing chern at module level would load kwant in every worker at start-up
     from .chern import Band, Gap
@@ -318,60 +317,6 @@ def mirror_spectrum(entry: FluxSpectrum) -> FluxSpectrum:
     return replace(entry, flux=1 - entry.flux, bands=bands, gaps=gaps, mirrored=True, seconds=0.0)
 
 
-def default_jobs() -> int:
-    """Number of cores this process may run on."""
-    try:
-        return len(os.sched_getaffinity(0))
-    except AttributeError:  # not on Linux
-        return os.cpu_count() or 1
-
-
-_WORKER_LIMIT = None
-
-
-def _init_worker() -> None:
-    """Worker start-up: one BLAS thread, kwant's import notice silenced, Ctrl-C left to the parent.
-
-    A worker also ends itself when its parent is gone (killed without the
-    chance to stop the pool): the task queue would otherwise keep it waiting
-    for ever.
-    """
-    import signal
-    import threading
-
-    global _WORKER_LIMIT
-    signal.signal(signal.SIGINT, signal.SIG_IGN)
-    parent = os.getppid()
-
-    def watch_parent() -> None:
-        while True:
-            time.sleep(1.0)
-            if os.getppid() != parent:
-                os._exit(1)
-
-    threading.Thread(target=watch_parent, name="topoedge-parent-watch", daemon=True).start()
-    warnings.filterwarnings("ignore", message="MUMPS is not available")
-    from ._threads import _controller
-
-    # Kept referenced for the life of the worker: the limit stays in force.
-    _WORKER_LIMIT = _controller().limit(limits=1, user_api="blas")
-
-
-def _stop_pool(pool) -> None:
-    """End the worker processes of ``pool`` now (on an error or Ctrl-C)."""
-    terminate = getattr(pool, "terminate_workers", None)  # Python >= 3.14
-    if terminate is not None:
-        terminate()
-        return
-    processes = list((getattr(pool, "_processes", None) or {}).values())
-    pool.shutdown(wait=False, cancel_futures=True)
-    for process in processes:
-        if process.is_alive():
-            process.terminate()
-    for process in processes:
-        process.join(timeout=10)
-
-
 def compute_butterfly(
     q_max: int = 40,
     *,
@@ -451,14 +396,14 @@ def compute_butterfly(
 
             # "spawn": fresh workers, safe whatever threads this process runs (BLAS, tqdm).
             pool = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("spawn"),
-                                       initializer=_init_worker)
+                                       initializer=init_worker)
             try:
                 futures = {pool.submit(task, flux): flux for flux in todo}
                 for future in as_completed(futures):
                     computed[futures[future]] = future.result()
                     bar.update()
             except BaseException:
-                _stop_pool(pool)
+                stop_pool(pool)
                 raise
             pool.shutdown(wait=True)
     entries = []

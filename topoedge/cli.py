@@ -3,6 +3,7 @@
 ``topoedge run [CONFIG]``    ribbon spectrum of a scenario (self-consistent with [interaction]), results folder
 ``topoedge bench``           side-by-side timings against kwant
 ``topoedge butterfly``       flux-energy spectrum with gap Chern numbers, results folder
+``topoedge sweep SWEEP``     a scenario over a grid of parameters (resumable; local or dask), table and maps
 
 Bad input (configuration, overrides, an existing results folder) ends with
 one line on standard error and exit status 2, before anything is written.
@@ -86,6 +87,18 @@ def _parser() -> argparse.ArgumentParser:
                      help="with --fields: worker processes for the bulk Chern numbers (default: all cores)")
     bar.add_argument("--out", type=Path, default=None, help="results folder (default: results/hallbar-<date-time>)")
     bar.add_argument("--force", action="store_true", help="replace an existing results folder")
+
+    sweep = sub.add_parser("sweep", parents=[common],
+                           help="run a scenario over a grid of parameter values (resumable), with table and maps")
+    sweep.add_argument("sweep_file", metavar="SWEEP", help="sweep TOML file (base scenario and axes)")
+    sweep.add_argument("--out", type=Path, default=None,
+                       help="sweep folder (default: sweeps/<sweep file stem>); running again continues it")
+    sweep.add_argument("--jobs", type=int, default=None, help="worker processes (default: all cores)")
+    sweep.add_argument("--executor", choices=("local", "dask"), default="local",
+                       help="local: worker processes here (default); dask: a dask.distributed LocalCluster")
+    sweep.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                       help="run on the dask.distributed scheduler at ADDRESS (e.g. tcp://10.0.0.5:8786)")
+    sweep.add_argument("--retry-failed", action="store_true", help="run again the points recorded as failed")
 
     fly = sub.add_parser("butterfly", parents=[common],
                          help="flux-energy spectrum with every gap labelled by its Chern number")
@@ -458,6 +471,75 @@ def _cmd_hallbar(args) -> int:
     return 0
 
 
+def _cmd_sweep(args) -> int:
+    """Run the points of a sweep file not run yet, then write the table and figures."""
+    from .sweep import gather, load_sweep, run_sweep, sweep_figures, write_table
+
+    if args.overrides:
+        raise ConfigError("sweep: --set is not used by sweeps; expected the values in the sweep file "
+                          "(its [scenario] or an [[axis]])")
+    if args.jobs is not None and args.jobs < 1:
+        raise ConfigError(f"sweep --jobs: got {args.jobs}; expected at least 1 worker")
+    if args.scheduler is not None and args.executor == "local" and "--executor" in sys.argv[1:]:
+        raise ConfigError("sweep --scheduler: given with --executor local; expected --executor dask or no "
+                          "--executor (a scheduler implies dask)")
+    executor = "dask" if args.scheduler is not None else args.executor
+    sweep = load_sweep(args.sweep_file)
+    out = args.out if args.out is not None else Path("sweeps") / Path(args.sweep_file).stem
+    if out.exists() and not out.is_dir():
+        raise ConfigError(f"sweep --out: '{out}' exists and is not a folder; expected a folder")
+    npoints = len(sweep.points())
+    _say(args, f"topoedge sweep: {sweep.title or args.sweep_file}: {npoints} points "
+               f"({' x '.join(f'{a.key} [{len(a.values)}]' for a in sweep.axes)}, {sweep.mode}), "
+               f"executor {executor}" + (f" at {args.scheduler}" if args.scheduler else ""))
+    progress = sys.stderr.isatty() and not args.quiet
+    try:
+        stats = run_sweep(sweep, out, executor=executor, jobs=args.jobs, scheduler=args.scheduler,
+                          retry_failed=args.retry_failed, progress=progress)
+    except KeyboardInterrupt:
+        print(f"topoedge: interrupted; the finished points are kept in {out / 'points'}; run the same "
+              "command again to compute the rest", file=sys.stderr)
+        return 130
+    except OSError as err:
+        if executor == "dask":
+            raise ConfigError(f"sweep --scheduler: cannot reach {args.scheduler}: {err}") from None
+        raise
+    rows = gather(sweep, out)
+    write_table(sweep, rows, out)
+
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from .sweep import _write_atomic
+
+    names = []
+    for name, fig in sweep_figures(sweep, rows).items():
+        try:
+            for ext in ("png", "pdf"):
+                buffer = __import__("io").BytesIO()
+                fig.savefig(buffer, format=ext, dpi=150)
+                _write_atomic(out / f"{name}.{ext}", buffer.getvalue())
+                names.append(f"{name}.{ext}")
+        finally:
+            plt.close(fig)
+    failed = [r for r in rows if r["status"] == "failed"]
+    report = {**stats, "out": str(out), "failed_points": [{k: r[k] for k in ("key", "error", *(
+        a.key for a in sweep.axes))} for r in failed], "figures": names}
+    if args.json:
+        print(json.dumps(report, indent=2, default=str))
+    _say(args, f"  points       {stats['total']}: {stats['skipped']} finished before, {stats['computed']} computed "
+               f"now ({stats['failed']} failed) in {stats['seconds']:.1f} s")
+    for r in failed[:5]:
+        where = ", ".join(f"{a.key} = {r[a.key]}" for a in sweep.axes)
+        _say(args, f"  failed       {where}: {r['error']}")
+    if len(failed) > 5:
+        _say(args, f"               ... {len(failed) - 5} more (column 'error' of table.csv)")
+    _say(args, f"  results      {out}/ (points/, table.h5, table.csv{''.join(', ' + n for n in names)})")
+    return 0
+
+
 def _cmd_butterfly(args) -> int:
     """Flux-energy spectrum of the scenario's model (spin, Zeeman, on-site) into a results folder."""
     import math
@@ -509,7 +591,8 @@ def main(argv: list[str] | None = None) -> int:
     from .results import RestartFileError, ResultsExistError
 
     try:
-        commands = {"run": _cmd_run, "bench": _cmd_bench, "butterfly": _cmd_butterfly, "hallbar": _cmd_hallbar}
+        commands = {"run": _cmd_run, "bench": _cmd_bench, "butterfly": _cmd_butterfly, "hallbar": _cmd_hallbar,
+                    "sweep": _cmd_sweep}
         return commands[args.command](args)
     except (ConfigError, ResultsExistError, GapClosedError, RestartFileError) as err:
         print(f"topoedge: error: {err}", file=sys.stderr)

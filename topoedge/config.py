@@ -43,7 +43,7 @@ __all__ = [
     "derive_units", "lattice_scenario",
     "EdgeConfig", "FermiConfig", "LatticeConfig", "RibbonConfig", "Scenario",
     "SpectrumConfig", "SpinConfig", "InteractionConfig", "BackgroundConfig", "START_STATES", "apply_overrides", "key_docs",
-    "load_scenario", "parse_scenario",
+    "load_scenario", "parse_scenario", "key_paths", "convert_key",
 ]
 
 DEFAULT_SCENARIO = Path(__file__).resolve().parent.parent / "configs" / "default.toml"
@@ -705,6 +705,37 @@ def _convert(key: _Key, value: Any) -> Any:
     if key.check is not None and not key.check(value):
         raise ConfigError(f"{key.path}: got {_show(value)}; expected {key.expect}")
     return value
+
+
+def key_paths() -> tuple[str, ...]:
+    """Every scenario key path, in schema order."""
+    return tuple(_KEYS)
+
+
+def convert_key(path: str, value: Any, *, ranges: bool = True) -> Any:
+    """Check and convert one value for the scenario key ``path``.
+
+    Parameters
+    ----------
+    path : str
+        A key path such as ``"ribbon.edge.width"``.
+    value : Any
+        A TOML value.
+    ranges : bool
+        Also apply the key's range check (``False``: the type only).
+
+    Raises
+    ------
+    ConfigError
+        For an unknown path (with the nearest valid one), or a value of the
+        wrong type or out of range, in one line naming the key.
+    """
+    if path not in _KEYS:
+        raise _unknown(path)
+    key = _KEYS[path]
+    if not ranges:
+        key = dataclasses.replace(key, check=None)
+    return _convert(key, value)
 
 
 def _join(prefix: str, name: str) -> str:

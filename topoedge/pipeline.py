@@ -395,10 +395,10 @@ def hallbar_field_scan(scenario: Scenario, fields_tesla, *, jobs: int | None = N
     workers = min(jobs or os.cpu_count() or 1, len(distinct))
     pool = None
     if workers > 1:
-        from .butterfly import _init_worker
+        from ._workers import init_worker
 
         pool = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("spawn"),
-                                   initializer=_init_worker)
+                                   initializer=init_worker)
     try:
         bulk = {key: pool.submit(_field_bulk, model) if pool else None for key, model in distinct.items()}
         bars = []
