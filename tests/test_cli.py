@@ -548,11 +548,17 @@ def test_cli_interrupt_while_writing_leaves_nothing(tmp_path, tiny_config, monke
 
 
 def test_bench_json(tmp_path):
+    scenario = write_config(tmp_path)
+    (tmp_path / "sweep.toml").write_text(
+        f'scenario = "{scenario.name}"\n\n[[axis]]\nkey = "spin.zeeman"\nvalues = [0.0, 0.1]\n')
     proc = topoedge_cli("bench", "--width", 20, "--k-points", 5, "--chern-q", 6, "--bars", "80x40",
-                        "--hf-size", "40x16", "--json", cwd=tmp_path)
+                        "--hf-size", "40x16", "--sweep", "sweep.toml", "--json", cwd=tmp_path)
     assert proc.returncode == 0, proc.stderr
     full = leading_json(proc.stdout)
-    assert full.keys() == {"ribbon", "chern", "hallbar", "hf"}
+    assert full.keys() == {"ribbon", "chern", "hallbar", "hf", "sweep"}
+    sweep = full["sweep"]
+    assert sweep["points"] == 2 and sweep["failed"] == 0 and sweep["tables_identical"] is True
+    assert set(sweep["seconds"]) == {"1", "2"} and sweep["ratio"] > 0
     hf = full["hf"]
     # Both mixings reach the same self-consistent state (rounding of the
     # energy ~1e-12 t; 1e-8 t catches a different state).
@@ -575,7 +581,7 @@ def test_bench_json(tmp_path):
     # SciPy's (unitarity of the S-matrix; rounding ~1e-14 e^2/h).
     assert "scipy_sparse" in bar[0]["seconds"]
     assert all(v < 1e-9 for v in bar[0]["max_conductance_difference"].values())
-    assert listing(tmp_path) == []  # bench writes no files
+    assert listing(tmp_path) == ["sweep.toml", "tiny.toml"]  # bench writes no files of its own
 
 
 def test_bench_rejects_bad_hf_size(tmp_path):

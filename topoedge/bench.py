@@ -341,3 +341,37 @@ def bench_hf(*, width: int = 200, k_points: int = 256, flux: str = "1/40", coulo
         "energy_difference_t": abs(runs["linear"]["energy_t"] - runs["diis"]["energy_t"]),
         "exchange_scaling": scaling,
     }
+
+
+def bench_sweep(path, *, workers=(1, 2)) -> dict:
+    """A whole sweep from nothing with 1 and with 2 worker processes, side by side.
+
+    Each run computes every point into a fresh temporary folder (process
+    start-up and the import of kwant in each worker included); the tables of
+    the runs must be identical.
+
+    Returns
+    -------
+    dict
+        ``points``, ``seconds`` per worker count, ``ratio`` (seconds with the
+        fewest workers over seconds with the most), ``tables_identical``.
+    """
+    import tempfile
+    from pathlib import Path
+
+    from .sweep import gather, load_sweep, run_sweep, write_table
+
+    sweep = load_sweep(path)
+    seconds, tables = {}, []
+    for n in workers:
+        with tempfile.TemporaryDirectory(prefix="topoedge-bench-sweep-") as tmp:
+            out = Path(tmp) / "sweep"
+            start = time.perf_counter()
+            stats = run_sweep(sweep, out, jobs=n)
+            seconds[n] = time.perf_counter() - start
+            write_table(sweep, gather(sweep, out), out)
+            tables.append((out / "table.csv").read_text())
+    return {"sweep": str(path), "points": stats["total"], "failed": stats["failed"],
+            "seconds": {str(n): s for n, s in seconds.items()},
+            "ratio": seconds[min(workers)] / seconds[max(workers)],
+            "tables_identical": all(t == tables[0] for t in tables)}

@@ -12,6 +12,7 @@ one line on standard error and exit status 2, before anything is written.
 from __future__ import annotations
 
 import argparse
+import io
 import json
 import sys
 import time
@@ -67,8 +68,11 @@ def _parser() -> argparse.ArgumentParser:
                        help="half-width of the energy window around E_F, units of t (default 0.5)")
     bench.add_argument("--chern-q", type=int, default=50,
                        help="Chern benchmark at flux 1/q, spinless (default 50)")
-    bench.add_argument("--parts", default="ribbon,chern,hallbar,hf",
-                       help="comma-separated benchmarks to run: ribbon, chern, hallbar, hf (default all)")
+    bench.add_argument("--parts", default="ribbon,chern,hallbar,hf,sweep",
+                       help="comma-separated benchmarks to run: ribbon, chern, hallbar, hf, sweep (default all)")
+    bench.add_argument("--sweep", default=None, metavar="SWEEP",
+                       help="sweep file of the sweep part, run with 1 and with 2 workers "
+                            "(default: configs/sweeps/nu2-width-zeeman.toml)")
     bench.add_argument("--hf-size", default="200x256", metavar="WxNK",
                        help="Hartree-Fock benchmark: rows per spin x momenta (default 200x256)")
     bench.add_argument("--bars", default=None, metavar="LxW,...",
@@ -263,10 +267,15 @@ def _cmd_bench(args) -> int:
     from .bench import bench_chern, bench_ribbon
 
     parts = [p.strip() for p in args.parts.split(",") if p.strip()]
-    unknown = sorted(set(parts) - {"ribbon", "chern", "hallbar", "hf"})
+    unknown = sorted(set(parts) - {"ribbon", "chern", "hallbar", "hf", "sweep"})
     if unknown or not parts:
         raise ConfigError(f"bench --parts: got {args.parts!r}; expected a comma-separated subset of "
-                          "ribbon, chern, hallbar, hf")
+                          "ribbon, chern, hallbar, hf, sweep")
+    sweep_file = Path(args.sweep) if args.sweep else DEFAULT_SCENARIO.parent / "sweeps" / "nu2-width-zeeman.toml"
+    if "sweep" in parts:
+        from .sweep import load_sweep
+
+        load_sweep(sweep_file)  # a malformed sweep file is refused before anything runs
     try:
         hf_width, hf_nk = (int(n) for n in args.hf_size.lower().split("x"))
         assert hf_width >= 8 and hf_nk >= 8 and hf_nk % 4 == 0
@@ -355,6 +364,14 @@ def _cmd_bench(args) -> int:
         for row in r["exchange_scaling"]:
             _say(args, f"    W = {row['width']:4d}, N_k = {row['k_points']:4d}: {row['build_seconds']:7.3f} s, "
                        f"time ratio {row['time_ratio']:5.2f}, model ratio {row['model_ratio']:5.2f}")
+    if "sweep" in parts:
+        from .bench import bench_sweep
+
+        _say(args, f"sweep benchmark: {sweep_file} from nothing, 1 worker process against 2 ...")
+        report["sweep"] = r = bench_sweep(sweep_file)
+        _say(args, f"  {r['points']} points ({r['failed']} failed): 1 worker {r['seconds']['1']:.1f} s, "
+                   f"2 workers {r['seconds']['2']:.1f} s: ratio {r['ratio']:.2f}; tables identical: "
+                   f"{r['tables_identical']}")
     if args.json:
         print(json.dumps(report, indent=2))
     return 0
@@ -518,7 +535,7 @@ def _cmd_sweep(args) -> int:
     for name, fig in sweep_figures(sweep, rows).items():
         try:
             for ext in ("png", "pdf"):
-                buffer = __import__("io").BytesIO()
+                buffer = io.BytesIO()
                 fig.savefig(buffer, format=ext, dpi=150)
                 _write_atomic(out / f"{name}.{ext}", buffer.getvalue())
                 names.append(f"{name}.{ext}")

@@ -291,9 +291,16 @@ def load_sweep(path: str | os.PathLike) -> Sweep:
 
 
 def point_key(config: dict) -> str:
-    """Identity of a point: a hash of its resolved scenario (its TOML tables, sorted)."""
-    scenario = parse_scenario(config)
-    text = json.dumps(scenario.to_dict(), sort_keys=True, separators=(",", ":"))
+    """Identity of a point: a hash of its resolved scenario (its TOML tables, sorted).
+
+    A scenario that does not validate (its point will fail) is hashed as
+    written.
+    """
+    try:
+        tables = parse_scenario(config).to_dict()
+    except ConfigError:
+        tables = config
+    text = json.dumps(tables, sort_keys=True, separators=(",", ":"), default=str)
     return hashlib.sha256(text.encode()).hexdigest()[:20]
 
 
@@ -632,6 +639,8 @@ def sweep_figures(sweep: Sweep, rows: list[dict]) -> dict:
             if q in numeric:
                 y = np.array([np.nan if v is None else float(v) for v in values])
                 ax.plot(x, y, "o-", ms=4)
+                if QUANTITIES[q][0] in ("int", "bool"):
+                    ax.yaxis.get_major_locator().set_params(integer=True)
             else:
                 levels = sorted({str(v) for v in values if v is not None}, key=_level_order)
                 y = np.array([np.nan if v is None else levels.index(str(v)) for v in values])
