@@ -453,10 +453,6 @@ def run_sweep(sweep: Sweep, out: Path, *, executor: str = "local", jobs: int | N
     start = time.perf_counter()
     out = Path(out)
     points_dir = out / "points"
-    points_dir.mkdir(parents=True, exist_ok=True)
-    for stale in points_dir.glob(".*.partial-*"):  # left by a process killed while writing
-        stale.unlink(missing_ok=True)
-    _write_atomic(out / "sweep.json", json.dumps(sweep.to_dict(), indent=2, default=str) + "\n")
     todo, skipped = [], 0
     for point in sweep.points():
         key = point_key(point["config"])
@@ -468,11 +464,21 @@ def run_sweep(sweep: Sweep, out: Path, *, executor: str = "local", jobs: int | N
                 continue
         todo.append((key, point))
     computed = failed = 0
+    # Connect to the workers first: a scheduler that cannot be reached leaves nothing behind.
+    workers = max(1, min(jobs or default_jobs(), len(todo)))
+    submit, completed, close = _submitter(executor, workers, scheduler) if todo else (None, None, None)
+    try:
+        points_dir.mkdir(parents=True, exist_ok=True)
+        for stale in points_dir.glob(".*.partial-*"):  # left by a process killed while writing
+            stale.unlink(missing_ok=True)
+        _write_atomic(out / "sweep.json", json.dumps(sweep.to_dict(), indent=2, default=str) + "\n")
+    except BaseException:
+        if close is not None:
+            close()
+        raise
     if todo:
         from tqdm.auto import tqdm
 
-        workers = max(1, min(jobs or default_jobs(), len(todo)))
-        submit, completed, close = _submitter(executor, workers, scheduler)
         bar = tqdm(total=len(todo), disable=not progress, desc="sweep points", unit="point")
         try:
             futures = {submit(point["config"]): (key, point) for key, point in todo}
