@@ -185,6 +185,9 @@ def test_python_example_runs():
     text = out.getvalue()
     # The Hartree-Fock example prints what the README says it prints.
     assert "True 6 1.0" in text.splitlines(), text
+    # The zero-field example: QWZ C = -1, 1, 0 at m = -1, 1, 3 and Haldane C = -1.
+    assert [line.split("C = ")[1] for line in text.splitlines() if line.startswith("QWZ m =")] == ["-1", "1", "0"]
+    assert "Haldane C = -1" in text.splitlines(), text
     for quoted in ("edge net: bottom +2, top -2",
                    "band C: [-2, 3, -2, 3, -2] gap C: [-2, 1, -1, 2]"):
         assert quoted in text, text

@@ -53,7 +53,7 @@ from .bloch import BlochHamiltonian
 
 __all__ = [
     "Band", "BandGroup", "Gap", "ChernResult", "GapClosedError",
-    "chern_numbers", "default_grid", "link_chern", "path_bands",
+    "chern_numbers", "builder_chern", "default_grid", "link_chern", "path_bands",
 ]
 
 
@@ -418,3 +418,39 @@ def path_bands(bloch: BlochHamiltonian, points: int = 200) -> dict:
     parts = {"up": bloch.block(blocks[0]), "down": bloch.block(blocks[1])} if blocks else {None: bloch}
     energies = {spin: np.linalg.eigvalsh(part.at(k[:, 0], k[:, 1])) for spin, part in parts.items()}
     return {"distance": s, "ticks": list(zip(cum, ["Γ", "X", "M", "Γ"])), "energies": energies}
+
+
+def builder_chern(builder, *, params: dict | None = None, grid: tuple[int, int] | None = None,
+                  gap_min: float = 1e-5, spin: bool | None = None) -> ChernResult:
+    """Chern numbers of every band and gap of any kwant builder with two translation symmetries.
+
+    The user's own system goes through the same steps as the built-in
+    lattices: :meth:`BlochHamiltonian.from_kwant` (its Fourier components,
+    once) and :func:`chern_numbers` (link variables on ``grid``, the same
+    open-gap checks).
+
+    Parameters
+    ----------
+    builder : kwant.Builder
+        With exactly two translation symmetries and ``norbs`` declared.
+    params : dict, optional
+        kwant ``params`` of its value functions.
+    grid : (int, int), optional
+        Momentum grid (default :func:`default_grid`).
+    gap_min : float
+        Direct gaps below this (energy unit of the model) count as closed.
+    spin : bool, optional
+        See :meth:`BlochHamiltonian.from_kwant`.
+
+    Returns
+    -------
+    ChernResult
+        ``gap_above(r)`` gives the Chern sum of the ``r`` lowest bands, or
+        raises :class:`GapClosedError` where the grid finds that gap closed.
+
+    References
+    ----------
+    .. [1] T. Fukui, Y. Hatsugai and H. Suzuki, J. Phys. Soc. Jpn. 74, 1674 (2005).
+    """
+    bloch = BlochHamiltonian.from_kwant(builder, params=params, spin=spin)
+    return chern_numbers(bloch, grid=grid, gap_min=gap_min)

@@ -1,0 +1,131 @@
+"""Zero-field Chern insulators and user-built kwant systems (topoedge.models, chern.builder_chern)."""
+
+from __future__ import annotations
+
+from fractions import Fraction
+
+import numpy as np
+import pytest
+
+from topoedge.bloch import BlochHamiltonian
+from topoedge.chern import GapClosedError, builder_chern
+from topoedge.models import haldane_builder, honeycomb_vectors, qwz_builder
+
+SX = np.array([[0, 1], [1, 0]], dtype=complex)
+SY = np.array([[0, -1j], [1j, 0]])
+SZ = np.diag([1.0, -1.0]).astype(complex)
+
+
+def _reciprocal(periods: np.ndarray) -> np.ndarray:
+    """Rows G_i with G_i . period_j = 2 pi delta_ij."""
+    return 2 * np.pi * np.linalg.inv(periods).T
+
+
+# ------------------------------------------------------------------- QWZ model
+
+
+def _qwz(kx, ky, m):
+    # Qi, Wu and Zhang, PRB 74, 085308 (2006), as in ../shared/REFERENCES.md section 6.
+    return np.sin(kx) * SX + np.sin(ky) * SY + (m + np.cos(kx) + np.cos(ky)) * SZ
+
+
+def test_qwz_builder_is_the_published_hamiltonian():
+    # Pointwise spectrum of the published H(k) at -k (the Fourier sign of
+    # kwant's Bloch convention, see topoedge.models), to rounding.
+    rng = np.random.default_rng(3)
+    for m in (-2.5, -1.0, 0.7):
+        bloch = BlochHamiltonian.from_kwant(qwz_builder(), params=dict(m=m))
+        for k1, k2 in rng.uniform(0, 2 * np.pi, (10, 2)):
+            assert np.allclose(np.linalg.eigvalsh(bloch.at(k1, k2)), np.linalg.eigvalsh(_qwz(-k1, -k2, m)),
+                               atol=1e-12)
+
+
+@pytest.mark.parametrize("m, chern", [(-3.0, 0), (-2.4, 0), (-1.6, -1), (-1.0, -1), (-0.3, -1),
+                                      (0.3, 1), (1.0, 1), (1.6, 1), (2.4, 0), (3.0, 0)])
+def test_qwz_chern_number_against_m(m, chern):
+    # Lower-band Chern number 0 for |m| > 2 and, with the link-variable sign
+    # convention, +1 for 0 < m < 2 and -1 for -2 < m < 0 (Qi, Wu, Zhang PRB 74,
+    # 085308 (2006); signs recomputed in ../shared/REFERENCES.md section 6).
+    # A 12 x 12 grid is plenty (6 x 6 suffices at m = 1, same reference).
+    assert builder_chern(qwz_builder(), params=dict(m=m), grid=(12, 12)).gap_above(1).chern == chern
+
+
+@pytest.mark.parametrize("m", [0.0, 2.0, -2.0])
+def test_qwz_gap_closes_at_the_transitions(m):
+    # The gap closes at m = 0 (at (pi, 0) and (0, pi)) and m = +-2 (at M and
+    # Gamma): reported as a closed gap, never as a Chern number. An even grid
+    # contains those momenta.
+    with pytest.raises(GapClosedError, match="the gap above band 0 is closed"):
+        builder_chern(qwz_builder(), params=dict(m=m), grid=(12, 12)).gap_above(1)
+
+
+# --------------------------------------------------------------- Haldane model
+
+
+def _haldane(k, t1, t2, phi, mass):
+    # Haldane, PRL 61, 2015 (1988), in the form of ../shared/REFERENCES.md section 5.
+    a, b = honeycomb_vectors()
+    return (2 * t2 * np.cos(phi) * np.cos(b @ k).sum() * np.eye(2)
+            + t1 * (np.cos(a @ k).sum() * SX + np.sin(a @ k).sum() * SY)
+            + (mass - 2 * t2 * np.sin(phi) * np.sin(b @ k).sum()) * SZ)
+
+
+def test_haldane_builder_is_the_published_hamiltonian():
+    a, b = honeycomb_vectors()
+    g = _reciprocal(b[:2])
+    rng = np.random.default_rng(5)
+    for phi, mass in ((np.pi / 2, 0.3), (0.7, -0.2)):
+        params = dict(t1=1.0, t2=0.1, phi=phi, M=mass)
+        bloch = BlochHamiltonian.from_kwant(haldane_builder(), params=params)
+        for k1, k2 in rng.uniform(0, 2 * np.pi, (10, 2)):
+            k = -(k1 * g[0] + k2 * g[1]) / (2 * np.pi)
+            assert np.allclose(np.linalg.eigvalsh(bloch.at(k1, k2)),
+                               np.linalg.eigvalsh(_haldane(k, 1.0, 0.1, phi, mass)), atol=1e-12)
+
+
+@pytest.mark.parametrize("phi", [np.pi / 2, np.pi / 4, -np.pi / 2])
+def test_haldane_chern_number_inside_and_outside_the_boundary(phi):
+    # |C| = 1 for |M| < 3 sqrt(3) |t2 sin(phi)| and 0 outside (Haldane, PRL 61,
+    # 2015 (1988)); C(-phi) = -C(phi). At t2 = 0.1, phi = pi/2 the lower band
+    # has C = -1 (link-variable sign convention, ../shared/REFERENCES.md
+    # section 5: -1 at M = 0, 0.4, -0.5; 0 at 0.6). Points 0.05 to 0.3 t1
+    # from the boundary; 24 x 24 momenta.
+    t2 = 0.1
+    boundary = 3 * np.sqrt(3) * abs(t2 * np.sin(phi))
+    sign = -int(np.sign(np.sin(phi)))
+    for mass in (0.0, 0.5 * boundary, -0.5 * boundary, boundary - 0.06, -(boundary - 0.06)):
+        result = builder_chern(haldane_builder(), params=dict(t1=1.0, t2=t2, phi=phi, M=mass), grid=(24, 24))
+        assert result.gap_above(1).chern == sign, mass
+    for mass in (boundary + 0.06, -(boundary + 0.06), boundary + 0.3, -(boundary + 0.3)):
+        result = builder_chern(haldane_builder(), params=dict(t1=1.0, t2=t2, phi=phi, M=mass), grid=(24, 24))
+        assert result.gap_above(1).chern == 0, mass
+
+
+# ------------------------------------------------------------- user builders
+
+
+def test_user_builder_path_equals_the_built_in_lattice():
+    # The Hofstadter bulk of the project's builder handed in as a user's
+    # builder gives the run's Chern numbers, and at flux 1/5 the band Chern
+    # numbers 1, 1, -4, 1, 1 (TKNN, PRL 49, 405 (1982); table in
+    # ../shared/REFERENCES.md section 1).
+    from topoedge.builders import bulk_builder, model_params
+    from topoedge.config import parse_scenario
+    from topoedge.pipeline import bulk_chern
+
+    phi = Fraction(1, 5)
+    user = builder_chern(bulk_builder(phi, spin=False), params=model_params(phi=phi, zeeman=0.0))
+    run, _, _ = bulk_chern(parse_scenario({"lattice": {"flux": "1/5"}, "spin": {"enabled": False},
+                                           "chern": {"refine": False}}))
+    assert [(g.below, g.chern) for g in user.gaps] == [(g.below, g.chern) for g in run.gaps]
+    assert [b.chern for b in user.bands] == [1, 1, -4, 1, 1]
+
+
+def test_user_builder_needs_two_symmetries():
+    import kwant
+
+    lat = kwant.lattice.square(norbs=1)
+    ribbon = kwant.Builder(kwant.TranslationalSymmetry((1, 0)))
+    ribbon[lat(0, 0)] = 0
+    with pytest.raises(TypeError, match="exactly two translation symmetries; this builder has 1"):
+        builder_chern(ribbon)
