@@ -30,6 +30,7 @@ root attributes         ``topoedge_version``, ``scenario_json`` (the resolved
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import shutil
@@ -49,7 +50,7 @@ if TYPE_CHECKING:  # the writers only read a RunResult; importing it would load 
 
 __all__ = [
     "ResultsExistError", "RestartFileError", "check_destination", "read_restart", "write_restart",
-    "write_hartree_fock_h5", "write_folder", "write_json", "write_run", "format_summary",
+    "write_hartree_fock_h5", "atomic_file", "write_folder", "write_json", "write_run", "format_summary",
 ]
 
 
@@ -170,6 +171,28 @@ class RestartFileError(ValueError):
     """A restart file that cannot be used; ``str(err)`` is one line."""
 
 
+@contextlib.contextmanager
+def atomic_file(path: Path):
+    """Yield a temporary sibling of ``path`` to write; rename it into place on success.
+
+    The file appears under its name complete or not at all: on any error
+    (or Ctrl-C) the temporary file is removed. It gets the permissions of a
+    plain new file (``mkstemp`` would leave it 0600).
+    """
+    path = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.partial-", dir=path.parent)
+    os.close(fd)
+    try:
+        yield Path(tmp)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
 def write_restart(path: Path, states: dict, model: dict) -> None:
     """Store self-consistent states atomically (a temporary file renamed into place).
 
@@ -179,27 +202,16 @@ def write_restart(path: Path, states: dict, model: dict) -> None:
     datasets ``G_s(D)`` (2, N_k, W, W) with attributes ``converged`` and
     ``iterations``; root attributes ``model_json`` and ``topoedge_version``.
     """
-    path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.partial-", dir=path.parent)
-    os.close(fd)
-    try:
-        with h5py.File(tmp, "w") as f:
-            f.attrs["topoedge_version"] = __version__
-            f.attrs["model_json"] = json.dumps(model, sort_keys=True)
-            group = f.create_group("states")
-            for key, state in states.items():
-                g = np.array(state["density_matrix"], dtype=complex)
-                g[np.abs(g) < 1e-15] = 0  # rounding noise; lets the zeros compress
-                d = group.create_dataset(key, data=g, compression="gzip", compression_opts=4, shuffle=True)
-                d.attrs["converged"] = bool(state["converged"])
-                d.attrs["iterations"] = int(state["iterations"])
-        umask = os.umask(0)  # mkstemp creates the file 0600; give it a plain file's permissions
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    with atomic_file(path) as tmp, h5py.File(tmp, "w") as f:
+        f.attrs["topoedge_version"] = __version__
+        f.attrs["model_json"] = json.dumps(model, sort_keys=True)
+        group = f.create_group("states")
+        for key, state in states.items():
+            g = np.array(state["density_matrix"], dtype=complex)
+            g[np.abs(g) < 1e-15] = 0  # rounding noise; lets the zeros compress
+            d = group.create_dataset(key, data=g, compression="gzip", compression_opts=4, shuffle=True)
+            d.attrs["converged"] = bool(state["converged"])
+            d.attrs["iterations"] = int(state["iterations"])
 
 
 def read_restart(path: Path) -> tuple[dict, dict]:

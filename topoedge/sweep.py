@@ -43,7 +43,6 @@ import itertools
 import json
 import math
 import os
-import tempfile
 import time
 import tomllib
 from collections.abc import Sequence
@@ -371,20 +370,12 @@ def run_point(config: dict) -> dict:
 
 def _write_atomic(path: Path, text: str | bytes) -> None:
     """Write a file by a temporary sibling renamed into place (never half-written)."""
-    mode = "wb" if isinstance(text, bytes) else "w"
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.partial-", dir=path.parent)
-    try:
-        with os.fdopen(fd, mode) as f:
-            f.write(text)
-            f.flush()
-            os.fsync(f.fileno())
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    from .results import atomic_file
+
+    with atomic_file(path) as tmp, open(tmp, "wb" if isinstance(text, bytes) else "w") as f:
+        f.write(text)
+        f.flush()
+        os.fsync(f.fileno())
 
 
 def _submitter(executor: str, jobs: int, scheduler: str | None):
@@ -543,31 +534,23 @@ def write_table(sweep: Sweep, rows: list[dict], out: Path) -> None:
     for row in rows:
         writer.writerow(["" if row.get(c) is None else row.get(c) for c in columns])
     _write_atomic(Path(out) / "table.csv", buffer.getvalue())
-    fd, tmp = tempfile.mkstemp(prefix=".table.h5.partial-", dir=out)
-    os.close(fd)
-    try:
-        with h5py.File(tmp, "w") as f:
-            f.attrs["topoedge_version"] = __version__
-            f.attrs["axes"] = json.dumps([a.key for a in sweep.axes])
-            f.attrs["sweep_json"] = json.dumps(sweep.to_dict(), default=str)
-            f.attrs["units"] = "energies in t; see QUANTITIES in topoedge.sweep for each column"
-            for c in columns:
-                values = [row.get(c) for row in rows]
-                kind = QUANTITIES.get(c, ("axis",))[0]
-                numeric = all(v is None or (isinstance(v, (int, float)) and not isinstance(v, str))
-                              for v in values)
-                if kind == "str" or c in ("key", "status", "error") or not numeric:
-                    f.create_dataset(c, data=np.array(["" if v is None else str(v) for v in values],
-                                                      dtype=h5py.string_dtype()))
-                else:
-                    f.create_dataset(c, data=np.array([np.nan if v is None else float(v) for v in values]))
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, Path(out) / "table.h5")
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    from .results import atomic_file
+
+    with atomic_file(Path(out) / "table.h5") as tmp, h5py.File(tmp, "w") as f:
+        f.attrs["topoedge_version"] = __version__
+        f.attrs["axes"] = json.dumps([a.key for a in sweep.axes])
+        f.attrs["sweep_json"] = json.dumps(sweep.to_dict(), default=str)
+        f.attrs["units"] = "energies in t; see QUANTITIES in topoedge.sweep for each column"
+        for c in columns:
+            values = [row.get(c) for row in rows]
+            kind = QUANTITIES.get(c, ("axis",))[0]
+            numeric = all(v is None or (isinstance(v, (int, float)) and not isinstance(v, str))
+                          for v in values)
+            if kind == "str" or c in ("key", "status", "error") or not numeric:
+                f.create_dataset(c, data=np.array(["" if v is None else str(v) for v in values],
+                                                  dtype=h5py.string_dtype()))
+            else:
+                f.create_dataset(c, data=np.array([np.nan if v is None else float(v) for v in values]))
 
 
 def _numeric(values) -> np.ndarray | None:
