@@ -342,8 +342,9 @@ def _field_scenario(tmp_path):
 def test_field_scan_follows_the_landau_levels_through_e_f(tmp_path):
     # At fixed E_F = 10 meV above the band bottom the spin-degenerate GaAs
     # levels leave E_F one after the other as B grows. Expected fillings from
-    # the continuum levels hbar omega_c (n + 1/2) (hbar omega_c = 1.728 meV/T,
-    # textbook) lowered by the lattice term (pi^2 t phi^2 / 2)(2n^2 + 2n + 1)
+    # the continuum levels hbar omega_c (n + 1/2) (Landau levels, common
+    # practice; hbar omega_c = 1.728 meV/T for m* = 0.067 from CODATA,
+    # ../shared/REFERENCES.md section 4) lowered by the lattice term (pi^2 t phi^2 / 2)(2n^2 + 2n + 1)
     # (derived for this project, see tests/test_spectrum.py), t = 8.89 meV:
     # 2 T: n = 2 at 8.1 meV, n = 3 at 11.0 meV -> 6; 3 T: n = 1 at 7.4 meV,
     # n = 2 at 11.8 meV -> 4; 8 T: n = 0 at 6.8 meV, n = 1 at 17 meV -> 2.

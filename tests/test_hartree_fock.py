@@ -88,8 +88,10 @@ def test_exchange_enhanced_spin_gap_at_filling_one():
 
 def test_gate_reduces_the_exchange_as_the_screened_continuum_does():
     # With a metal gate at distance d the interaction is V(q) = 2 pi e^2 (1 -
-    # exp(-2 q d)) / (eps q) (a charge and its image, textbook
-    # electrostatics), and the exchange self-energy of a filled lowest
+    # exp(-2 q d)) / (eps q) (a charge and its image: J. D. Jackson,
+    # Classical Electrodynamics, 3rd ed. (Wiley 1999), ch. 2, and the 2D
+    # Fourier transform of 1/r, 2 pi / q; citation from memory), and the
+    # exchange self-energy of a filled lowest
     # Landau level, -int d^2q/(2 pi)^2 V(q) exp(-q^2 l_B^2 / 2), becomes
     # -sqrt(pi/2) E_C [1 - exp(2 d^2) erfc(sqrt(2) d)] (d in l_B; the
     # integral int_0^inf exp(-2 d q - q^2/2) dq = sqrt(pi/2) exp(2 d^2)
@@ -114,8 +116,9 @@ def test_gate_reduces_the_exchange_as_the_screened_continuum_does():
 
 def test_gated_line_kernel_is_a_line_charge_and_its_image():
     # A line of charges per unit length and its image line at distance
-    # rho = sqrt(y^2 + 4 d^2): 2 U_C ln(rho / y) (textbook electrostatics of
-    # line charges). On the lattice the charges are points one lattice
+    # rho = sqrt(y^2 + 4 d^2): 2 U_C ln(rho / y) (line charges and images,
+    # Jackson, Classical Electrodynamics, ch. 1-2; citation from memory). On
+    # the lattice the charges are points one lattice
     # constant apart: by Poisson summation (the Fourier transform of
     # 1/sqrt(x^2 + y^2) along x is 2 K_0(|k| y), Gradshteyn and Ryzhik
     # 3.754.2, from memory) the sum adds 4 U_C [K_0(2 pi y) - K_0(2 pi rho)]

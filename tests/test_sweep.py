@@ -158,9 +158,10 @@ def test_sweep_points_are_the_runs_of_their_scenarios(local_run):
     assert row["chern"] == direct["bulk"]["chern_below_fermi"] == 2
     assert row["bottom_net"] == direct["edges"]["bottom"]["net"]
     assert row["outermost_spin_bottom"] == direct["edges"]["bottom"]["modes"][0]["spin"]
-    # Zeeman 0.4 t is above the level spacing at flux 1/10 (1.26 t minus the
-    # lattice correction; hbar omega_c = 4 pi t phi, REFERENCES.md section 4)?
-    # No: both filled bands stay the two spins of the lowest level.
+    # Zeeman splittings up to 0.4 t stay far below the level spacing at flux
+    # 1/10 (hbar omega_c = 4 pi t phi = 1.26 t less the lattice correction,
+    # ../shared/REFERENCES.md section 4): the two filled bands are the two
+    # spins of the lowest level, one spin-up band.
     assert {r["chern_up"] for r in rows} == {1}
     with h5py.File(out / "table.h5") as f:
         assert json.loads(f.attrs["axes"]) == ["ribbon.edge.width", "spin.zeeman"]

@@ -98,8 +98,9 @@ def _parser() -> argparse.ArgumentParser:
     sweep.add_argument("--out", type=Path, default=None,
                        help="sweep folder (default: sweeps/<sweep file stem>); running again continues it")
     sweep.add_argument("--jobs", type=int, default=None, help="worker processes (default: all cores)")
-    sweep.add_argument("--executor", choices=("local", "dask"), default="local",
-                       help="local: worker processes here (default); dask: a dask.distributed LocalCluster")
+    sweep.add_argument("--executor", choices=("local", "dask"), default=None,
+                       help="local: worker processes here (default); dask: a dask.distributed LocalCluster "
+                            "(the default with --scheduler)")
     sweep.add_argument("--scheduler", default=None, metavar="ADDRESS",
                        help="run on the dask.distributed scheduler at ADDRESS (e.g. tcp://10.0.0.5:8786)")
     sweep.add_argument("--retry-failed", action="store_true", help="run again the points recorded as failed")
@@ -497,10 +498,10 @@ def _cmd_sweep(args) -> int:
                           "(its [scenario] or an [[axis]])")
     if args.jobs is not None and args.jobs < 1:
         raise ConfigError(f"sweep --jobs: got {args.jobs}; expected at least 1 worker")
-    if args.scheduler is not None and args.executor == "local" and "--executor" in sys.argv[1:]:
+    if args.scheduler is not None and args.executor == "local":
         raise ConfigError("sweep --scheduler: given with --executor local; expected --executor dask or no "
                           "--executor (a scheduler implies dask)")
-    executor = "dask" if args.scheduler is not None else args.executor
+    executor = "dask" if args.scheduler is not None else (args.executor or "local")
     sweep = load_sweep(args.sweep_file)
     out = args.out if args.out is not None else Path("sweeps") / Path(args.sweep_file).stem
     if out.exists() and not out.is_dir():

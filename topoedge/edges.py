@@ -766,16 +766,17 @@ def find_crossings(
     near: list[dict] = []
     for sector in _sectors(ham):
         search = _search_sector(sector, fermi_energy, k, tol)
-        found = []
-        for n, a, b in sorted(set(search.brackets), key=lambda x: x[1]):
-            root = brentq(lambda x: sector.energy(n, x) - fermi_energy, a, b, xtol=_XTOL)
-            found.append(_measure(sector, n, root, y0, width, bulk_spread))
+        roots = [(n, brentq(lambda x: sector.energy(n, x) - fermi_energy, a, b, xtol=_XTOL))
+                 for n, a, b in sorted(set(search.brackets), key=lambda x: x[1])]
+        found = [_measure(sector, n, root, y0, width, bulk_spread) for n, root in roots]
         crossings += sorted(found, key=lambda m: m.k)
-        for n, kn, gap in search.near:
-            # A crossing passes close to E_F next to its root: not a near miss.
-            if any(b_n == n and abs(_wrap(kn - m.k)) < 2 * _TWO_PI / len(k) for b_n, m in
-                   zip((x[0] for x in sorted(set(search.brackets), key=lambda x: x[1])), found)):
-                continue
+        # Near misses away from the roots (a crossing passes close to E_F next
+        # to its root); only the closest one of the sector is measured.
+        spacing = 2 * _TWO_PI / len(k)
+        misses = [(gap, n, kn) for n, kn, gap in search.near
+                  if not any(rn == n and abs(_wrap(kn - rk)) < spacing for rn, rk in roots)]
+        if misses:
+            gap, n, kn = min(misses)
             mode = _measure(sector, n, kn, y0, width, bulk_spread)
             near.append({"k": mode.k, "energy": mode.energy, "y": mode.y, "spin": mode.spin, "gap": gap})
         seen = set()

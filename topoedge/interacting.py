@@ -309,7 +309,9 @@ def solve_width(scenario: Scenario, blocks, interaction: Interaction, width: flo
         try:
             result = hf.solve(begin, callback=callback, **options)
         except ValueError as err:
-            raise ValueError(f"restart state {key}: {err}") from None
+            if start in restarted:  # a restart file's state of the wrong shape or charge
+                raise ValueError(f"restart state {key}: {err}") from None
+            raise
         finally:
             bar.close()
         result = replace(result, start=start)

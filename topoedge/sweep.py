@@ -53,7 +53,7 @@ from typing import Any
 import numpy as np
 
 from . import __version__
-from .config import ConfigError, apply_overrides, convert_key, parse_scenario
+from .config import ConfigError, _plain, apply_overrides, convert_key, parse_scenario
 
 __all__ = [
     "QUANTITIES", "Axis", "Sweep", "SweepError", "load_sweep", "parse_sweep", "point_key", "run_point",
@@ -251,7 +251,7 @@ def parse_sweep(data: dict, *, base_dir: Path | None = None, source: str | None 
         if any(a.key == key for a in axes):
             raise SweepError(f"axis[{i}].key: {key!r} is swept twice; expected each key once")
         # Keep the TOML form (a flux stays "p/q") for the overrides and the table.
-        axes.append(Axis(key, tuple(_plain_value(v) for v in converted)))
+        axes.append(Axis(key, tuple(_plain(v) for v in converted)))
     if mode == "zip" and len({len(a.values) for a in axes}) > 1:
         lengths = ", ".join(f"{a.key}: {len(a.values)}" for a in axes)
         raise SweepError(f"axis: zipped axes have different lengths ({lengths}); expected the same length")
@@ -265,16 +265,6 @@ def parse_sweep(data: dict, *, base_dir: Path | None = None, source: str | None 
         if q not in QUANTITIES:
             raise SweepError(f"plot.quantities: got {q!r}; expected names from {', '.join(QUANTITIES)}")
     return Sweep(title, base, tuple(axes), mode, tuple(quantities), source)
-
-
-def _plain_value(value: Any) -> Any:
-    from fractions import Fraction
-
-    if isinstance(value, Fraction):
-        return f"{value.numerator}/{value.denominator}"
-    if isinstance(value, tuple):
-        return [_plain_value(v) for v in value]
-    return value
 
 
 def load_sweep(path: str | os.PathLike) -> Sweep:
