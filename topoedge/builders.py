@@ -14,6 +14,12 @@ with the keys below (see :func:`model_params`).
     ``-Delta/2``, spin down by ``+Delta/2``.
 ``onsite``
     Uniform on-site energy (units of ``t``).
+``rashba``
+    Rashba coupling ``lambda_R`` (units of ``t``), only for builders made
+    with ``rashba=True``: the hopping from ``j`` to ``i`` gains
+    ``i lambda_R (sigma_x d_y - sigma_y d_x) exp(i theta_ij)`` with ``d`` the
+    unit vector from ``j`` to ``i``. It mixes the spins: ``S_z`` is no longer
+    conserved.
 
 Conventions
 -----------
@@ -36,6 +42,9 @@ References
    in rational and irrational magnetic fields", Phys. Rev. B 14, 2239 (1976).
 .. [2] R. Peierls, "Zur Theorie des Diamagnetismus von Leitungselektronen",
    Z. Phys. 80, 763 (1933).
+.. [3] Yu. A. Bychkov and E. I. Rashba, "Oscillatory effects and the magnetic
+   susceptibility of carriers in inversion layers", J. Phys. C 17, 6039
+   (1984) (the Rashba term).
 """
 
 from __future__ import annotations
@@ -62,7 +71,8 @@ def square_lattice(*, spin: bool = True) -> kwant.lattice.Monatomic:
 
 
 def model_params(
-    *, t: float = 1.0, phi: float | Fraction = 0.0, zeeman: float = 0.0, onsite: float = 0.0
+    *, t: float = 1.0, phi: float | Fraction = 0.0, zeeman: float = 0.0, onsite: float = 0.0,
+    rashba: float | None = None,
 ) -> dict:
     """The kwant ``params`` dictionary of the builders in this module.
 
@@ -76,17 +86,35 @@ def model_params(
         Zeeman splitting in units of ``t``.
     onsite : float
         Uniform on-site energy in units of ``t``.
+    rashba : float, optional
+        Rashba coupling in units of ``t``, for builders made with
+        ``rashba=True`` (left out of the dictionary when None).
     """
-    return dict(t=float(t), phi=float(phi), zeeman=float(zeeman), onsite=float(onsite))
+    params = dict(t=float(t), phi=float(phi), zeeman=float(zeeman), onsite=float(onsite))
+    if rashba is not None:
+        params["rashba"] = float(rashba)
+    return params
 
 
-def landau_hopping(spin: bool):
+def landau_hopping(spin: bool, rashba: bool = False):
     """Hopping value function ``-t exp(-2 pi i phi y_j (x_i - x_j))`` (Landau gauge ``A = (-B y, 0)``).
 
     ``phi`` is the flux per plaquette in ``h/e``; with spin the value is
-    ``t`` times the 2 x 2 identity.
+    ``t`` times the 2 x 2 identity. With ``rashba`` the function takes the
+    parameter ``rashba`` and adds the Rashba term of the module notes.
     """
     unit = np.eye(2) if spin else 1.0
+    if rashba:
+        if not spin:
+            raise ValueError("the Rashba term mixes the spins; build with spin=True")
+
+        def rashba_hopping(site_i, site_j, t, phi, rashba):
+            (xi, yi), (xj, yj) = site_i.pos, site_j.pos
+            dx, dy = xi - xj, yi - yj
+            soc = 1j * rashba * np.array([[0, dy + 1j * dx], [dy - 1j * dx, 0]])
+            return np.exp(-2j * np.pi * phi * yj * (xi - xj)) * (-t * unit + soc)
+
+        return rashba_hopping
 
     def hopping(site_i, site_j, t, phi):
         (xi, _), (xj, yj) = site_i.pos, site_j.pos
@@ -108,7 +136,7 @@ def _onsite(spin: bool, potential: np.ndarray | None):
 
 
 def ribbon_builder(
-    width: int, *, spin: bool = True, potential: np.ndarray | None = None
+    width: int, *, spin: bool = True, potential: np.ndarray | None = None, rashba: bool = False
 ) -> kwant.Builder:
     """Ribbon of ``width`` rows, periodic along ``x`` with period 1.
 
@@ -145,11 +173,11 @@ def ribbon_builder(
     lat = square_lattice(spin=spin)
     syst = kwant.Builder(kwant.TranslationalSymmetry((1, 0)))
     syst[(lat(0, y) for y in range(width))] = _onsite(spin, potential)
-    syst[lat.neighbors()] = landau_hopping(spin)
+    syst[lat.neighbors()] = landau_hopping(spin, rashba)
     return syst
 
 
-def bulk_builder(phi: Fraction, *, spin: bool = True) -> kwant.Builder:
+def bulk_builder(phi: Fraction, *, spin: bool = True, rashba: bool = False) -> kwant.Builder:
     """Infinite plane with 2D translation symmetry over the magnetic unit cell.
 
     Parameters
@@ -161,6 +189,8 @@ def bulk_builder(phi: Fraction, *, spin: bool = True) -> kwant.Builder:
         ``params`` must have a denominator dividing ``q``.
     spin : bool
         Two orbitals per site if True.
+    rashba : bool
+        Include the Rashba term (needs ``spin``).
 
     Returns
     -------
@@ -171,5 +201,5 @@ def bulk_builder(phi: Fraction, *, spin: bool = True) -> kwant.Builder:
     lat = square_lattice(spin=spin)
     syst = kwant.Builder(kwant.TranslationalSymmetry((1, 0), (0, q)))
     syst[(lat(0, y) for y in range(q))] = _onsite(spin, None)
-    syst[lat.neighbors()] = landau_hopping(spin)
+    syst[lat.neighbors()] = landau_hopping(spin, rashba)
     return syst

@@ -53,7 +53,7 @@ from .bloch import BlochHamiltonian
 
 __all__ = [
     "Band", "BandGroup", "Gap", "ChernResult", "GapClosedError",
-    "chern_numbers", "builder_chern", "default_grid", "link_chern", "path_bands",
+    "chern_numbers", "builder_chern", "default_grid", "link_chern", "path_bands", "subspace_chern",
 ]
 
 
@@ -184,13 +184,15 @@ class ChernResult:
 
 
 def default_grid(bloch: BlochHamiltonian) -> tuple[int, int]:
-    """Grid of reduced momenta: the smallest multiple of 2 points per band that is >= 12.
+    """Grid of reduced momenta: the smallest multiple of 2 points per band (of one spin) that is >= 12.
 
     A multiple of ``2 n`` (``n`` bands per sector) contains the momenta
     ``k = pi m / n`` where the bands of the square-lattice magnetic cell have
     their extremes (Chambers' relation), so band energy ranges are exact.
     """
-    n = bloch.size // (2 if bloch.spin_blocks() is not None else 1)
+    # Bands per spin (also when a spin-orbit term mixes the two spins: the
+    # resolution needed is that of one spin's bands, not of their sum).
+    n = bloch.size // (2 if bloch.sz is not None else 1)
     step = 2 * max(n, 1)
     size = step * -(-12 // step)
     return size, size
@@ -454,3 +456,55 @@ def builder_chern(builder, *, params: dict | None = None, grid: tuple[int, int] 
     """
     bloch = BlochHamiltonian.from_kwant(builder, params=params, spin=spin)
     return chern_numbers(bloch, grid=grid, gap_min=gap_min)
+
+
+def subspace_chern(bloch: BlochHamiltonian, gap: Gap, *, grid: tuple[int, int]) -> dict:
+    """Chern sum below a gap from the subspace of all bands below it, per sector.
+
+    :func:`chern_numbers` adds up the Chern numbers of the band groups
+    below a gap; that sum is right when the grid resolves every group below.
+    Here the link variables are those of the whole occupied subspace (the
+    determinant of its overlap matrix), so the result depends only on the gap
+    itself being open and resolved by the grid, not on bands far below it.
+    When the two disagree, the grid resolves one of them poorly (bands with
+    large Chern numbers near a van Hove energy for the band sum; a large
+    total Chern number on few points, more than half a flux quantum of Berry
+    curvature per plaquette, for the subspace): a finer grid settles it.
+
+    Parameters
+    ----------
+    bloch : BlochHamiltonian
+    gap : Gap
+        A gap of ``chern_numbers(bloch)``.
+    grid : (int, int)
+        Momentum grid.
+
+    Returns
+    -------
+    dict
+        ``chern`` (total), ``spin_chern`` ({"up", "down"} or None),
+        ``link_min`` (smallest ``|det|`` of the overlaps, near 0: grid too
+        coarse) and ``grid``.
+
+    References
+    ----------
+    .. [1] T. Fukui, Y. Hatsugai, H. Suzuki, J. Phys. Soc. Jpn. 74, 1674
+       (2005) (the multi-band link variables).
+    """
+    n1, n2 = grid
+    blocks = bloch.spin_blocks()
+    sectors = [("up", blocks[0]), ("down", blocks[1])] if blocks is not None else [(None, None)]
+    total, by_spin, weakest = 0, {}, 1.0
+    for spin, idx in sectors:
+        part = bloch if idx is None else bloch.block(idx)
+        _, _, hk = part.grid(n1, n2)
+        energies, vectors = _batched_eigh(hk)
+        below = int(np.count_nonzero(energies[0, 0] < gap.middle))
+        if np.any((energies.min(axis=(0, 1)) < gap.middle) != (energies.max(axis=(0, 1)) < gap.middle)):
+            raise GapClosedError(f"a band of sector {spin or 'all'} crosses the gap at {gap.middle:.6g} t")
+        chern, link_min = (0.0, 1.0) if below == 0 else link_chern(vectors[..., :below])
+        total += int(round(chern))
+        weakest = min(weakest, link_min)
+        if spin is not None:
+            by_spin[spin] = int(round(chern))
+    return {"chern": total, "spin_chern": by_spin or None, "link_min": float(weakest), "grid": [n1, n2]}

@@ -50,6 +50,8 @@ DEFAULT_SCENARIO = Path(__file__).resolve().parent.parent / "configs" / "default
 # The edge profiles are registered where they are defined (one list, no drift).
 EDGE_PROFILES = tuple(_PROFILE_REGISTRY)
 SOLVERS = ("auto", "banded", "dense")
+LATTICES = ("square", "honeycomb")
+ORIENTATIONS = ("zigzag", "armchair")
 
 
 class ConfigError(ValueError):
@@ -61,19 +63,26 @@ class ConfigError(ValueError):
 
 @dataclass(frozen=True)
 class LatticeConfig:
-    """Square lattice with a uniform magnetic field.
+    """Square or honeycomb lattice with a uniform magnetic field.
 
     Attributes
     ----------
+    kind : str
+        "square" (lattice constant a) or "honeycomb" (carbon-carbon distance
+        a_cc; see `topoedge.honeycomb`).
     flux : fractions.Fraction
-        Flux p/q per plaquette, in flux quanta phi0; a negative p reverses
-        the field.
+        Flux p/q per plaquette (square) or per hexagon (honeycomb), in flux
+        quanta phi0; a negative p reverses the field.
     onsite : float
         Uniform on-site energy, in t.
+    staggered : float
+        Sublattice potential M, in t: +M on A, -M on B (honeycomb only).
     """
 
+    kind: str = "square"
     flux: Fraction = Fraction(1, 40)
     onsite: float = 0.0
+    staggered: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -87,10 +96,14 @@ class SpinConfig:
     zeeman : float
         Zeeman splitting Delta, in t: spin up is shifted by -Delta/2 and
         spin down by +Delta/2. Must be 0 when ``enabled`` is false.
+    rashba : float
+        Rashba spin-orbit coupling lambda_R, in t (mixes the spins: S_z is
+        then not conserved and only total Chern numbers exist).
     """
 
     enabled: bool = True
     zeeman: float = 0.0
+    rashba: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -124,12 +137,16 @@ class RibbonConfig:
     Attributes
     ----------
     width : int
-        Number of sites W across the ribbon (W >= 2), i.e. width in a.
+        Number of sites W across the ribbon (W >= 2), i.e. width in a; on
+        the honeycomb lattice the number of zigzag chains or dimer lines.
+    orientation : str or None
+        Honeycomb edges: "zigzag" (the default) or "armchair".
     edge : EdgeConfig
         Edge potential applied at both edges.
     """
 
     width: int = 120
+    orientation: str | None = None
     edge: EdgeConfig = EdgeConfig()
 
 
@@ -437,16 +454,27 @@ def _positive(x):
 
 _KEYS: dict[str, _Key] = {key.path: key for key in (
     _Key("title", "string", "-", "Free-text title of the scenario.", "a string"),
+    _Key("lattice.kind", "choice", "-", "Lattice: square (constant a) or honeycomb (bond length a_cc).",
+         "one of " + ", ".join(map(repr, LATTICES)), choices=LATTICES),
     _Key("lattice.flux", "flux", "phi0 per plaquette",
-         "Flux per plaquette as a fraction p/q; negative p reverses the field.",
+         "Flux per plaquette (per hexagon on the honeycomb lattice) as a fraction p/q; "
+         "negative p reverses the field.",
          "a string 'p/q' such as '1/40'"),
     _Key("lattice.onsite", "float", "t", "Uniform on-site energy.", "a finite energy in t"),
+    _Key("lattice.staggered", "float", "t", "Sublattice potential M: +M on A, -M on B (honeycomb).",
+         "a finite energy in t"),
     _Key("spin.enabled", "boolean", "-", "Spin-1/2: two orbitals per site.", "true or false"),
     _Key("spin.zeeman", "float", "t",
          "Zeeman splitting Delta: spin up at -Delta/2, spin down at +Delta/2.",
          "a finite energy in t"),
+    _Key("spin.rashba", "float", "t",
+         "Rashba coupling lambda_R (mixes the spins: total Chern numbers only).",
+         "a finite energy in t"),
     _Key("ribbon.width", "integer", "sites (a)", "Number of sites W across the ribbon.",
          "an integer number of sites >= 2", lambda n: n >= 2),
+    _Key("ribbon.orientation", "choice", "-",
+         "Edges of a honeycomb ribbon (unset: zigzag); not for the square lattice.",
+         "one of " + ", ".join(map(repr, ORIENTATIONS)), choices=ORIENTATIONS, optional=True),
     _Key("ribbon.edge.profile", "choice", "-", "Shape of the edge potential.",
          "one of " + ", ".join(map(repr, EDGE_PROFILES)), choices=EDGE_PROFILES),
     _Key("ribbon.edge.width", "float", "a", "Ramp width w of the edge potential (0 = no ramp).",
@@ -799,9 +827,11 @@ def _build(prefix: str, values: Mapping[str, Any], **extra: Any) -> Any:
 def _check_combinations(s: Scenario) -> None:
     """Constraints that involve more than one key."""
     edge, width = s.ribbon.edge, s.ribbon.width
-    if edge.width > width / 2:
+    span = ribbon_span(s)
+    if edge.width > span / 2:
+        unit = "a_cc" if s.lattice.kind == "honeycomb" else "a"
         raise ConfigError(f"ribbon.edge.width: got {edge.width!r}, wider than half the ribbon "
-                          f"(ribbon.width = {width}); expected at most {width / 2:g}")
+                          f"(ribbon.width = {width}, {span:g} {unit} across); expected at most {span / 2:g}")
     if edge.profile == "table" and not edge.table:
         raise ConfigError("ribbon.edge.table: empty, but ribbon.edge.profile = 'table' needs it; "
                           "expected at least one [distance, potential] row")
@@ -819,10 +849,51 @@ def _check_combinations(s: Scenario) -> None:
                           f"{s.fermi.energy!r}; expected only one of them")
     if s.interaction.enabled:
         _check_interaction(s)
+    _check_lattice(s)
     if s.spin.zeeman != 0 and not s.spin.enabled:
         raise ConfigError(f"spin.zeeman: got {s.spin.zeeman!r} with spin.enabled = false; "
                           f"expected 0 without spin (spin.zeeman = {s.spin.zeeman!r} needs "
                           "spin.enabled = true)")
+
+
+def ribbon_span(s: Scenario) -> float:
+    """Distance between the outermost sites of the two edges (a, or a_cc on the honeycomb lattice).
+
+    Square: ``W`` rows span ``W - 1``. Honeycomb (``a_cc = 1``): ``N`` zigzag
+    chains span ``3 N / 2 - 1``, ``N`` dimer lines ``(N - 1) sqrt(3) / 2``
+    (the geometry of `topoedge.honeycomb`).
+    """
+    width = s.ribbon.width
+    if s.lattice.kind == "square":
+        return float(width)
+    if (s.ribbon.orientation or "zigzag") == "zigzag":
+        return 1.5 * width - 1.0
+    return (width - 1) * math.sqrt(3.0) / 2
+
+
+def _check_lattice(s: Scenario) -> None:
+    """Keys that belong to one lattice, and what the honeycomb lattice does not have yet."""
+    lat = s.lattice
+    if s.spin.rashba != 0 and not s.spin.enabled:
+        raise ConfigError(f"spin.rashba: got {s.spin.rashba!r} with spin.enabled = false; expected 0 "
+                          "without spin (the Rashba term couples the two spins)")
+    if lat.kind == "square":
+        if lat.staggered != 0:
+            raise ConfigError(f"lattice.staggered: got {lat.staggered!r} on the square lattice; expected 0 "
+                              "(a sublattice potential needs lattice.kind = 'honeycomb')")
+        if s.ribbon.orientation is not None:
+            raise ConfigError(f"ribbon.orientation: got {s.ribbon.orientation!r} on the square lattice; "
+                              "expected no orientation (zigzag and armchair edges need "
+                              "lattice.kind = 'honeycomb')")
+        return
+    for enabled, key, what in (
+        (s.field.b_tesla is not None, "field.b_tesla", "[material] and [field]"),
+        (s.interaction.enabled, "interaction.enabled", "[interaction]"),
+        (s.hallbar.enabled, "hallbar.enabled", "the Hall bar"),
+    ):
+        if enabled:
+            raise ConfigError(f"{key}: {what} with lattice.kind = 'honeycomb'; expected the square lattice "
+                              f"({what} is built for the square lattice only)")
 
 
 def _check_interaction(s: Scenario) -> None:

@@ -34,7 +34,9 @@ import numpy as np
 from . import __version__
 from .bloch import BlochHamiltonian
 from .builders import bulk_builder, model_params, ribbon_builder
-from .chern import ChernResult, Gap, chern_numbers, default_grid, path_bands
+from .chern import ChernResult, Gap, chern_numbers, default_grid, path_bands, subspace_chern
+from .honeycomb import (honeycomb_bulk_builder, honeycomb_magnetic_length, honeycomb_params,
+                        honeycomb_ribbon_builder)
 from .config import Scenario, lattice_scenario
 from .units import VON_KLITZING, Derived
 from .edges import EdgeCount, count_edge_modes
@@ -72,31 +74,72 @@ class RunResult:
     interacting: object | None = None
 
 
+def _rashba(scenario: Scenario) -> bool:
+    return scenario.spin.rashba != 0
+
+
 def _params(scenario: Scenario) -> dict:
-    lat = scenario.lattice
-    return model_params(phi=lat.flux, zeeman=scenario.spin.zeeman, onsite=lat.onsite)
+    lat, spin = scenario.lattice, scenario.spin
+    if lat.kind == "honeycomb":
+        return honeycomb_params(phi=lat.flux, zeeman=spin.zeeman, onsite=lat.onsite,
+                                staggered=lat.staggered, rashba=spin.rashba)
+    return model_params(phi=lat.flux, zeeman=spin.zeeman, onsite=lat.onsite,
+                        rashba=spin.rashba if _rashba(scenario) else None)
+
+
+def _profile(scenario: Scenario):
+    """The edge profile ``V(d)`` (t) of a scenario, ``d`` from the nearer edge."""
+    from .profiles import EDGE_PROFILES
+
+    edge = scenario.ribbon.edge
+    shape = EDGE_PROFILES[edge.profile]
+    return lambda d: shape(np.asarray(d, dtype=float), width=float(edge.width),
+                           height=float(edge.height), table=edge.table)
 
 
 def scenario_potential(scenario: Scenario) -> np.ndarray:
-    """Edge potential of every row (units of t) described by a scenario."""
+    """Edge potential (units of t) of every row (square) or every site of the cell sorted across (honeycomb)."""
     edge = scenario.ribbon.edge
+    if scenario.lattice.kind == "honeycomb":
+        ham, potential = build_ribbon(scenario)
+        return potential
     return edge_potential(
         scenario.ribbon.width, edge.profile, ramp=edge.width, height=edge.height, table=edge.table
     )
 
 
 def build_ribbon(scenario: Scenario) -> tuple[RibbonHamiltonian, np.ndarray]:
-    """The kwant ribbon of a scenario, finalized and reduced to its Bloch form."""
+    """The kwant ribbon of a scenario, finalized and reduced to its Bloch form.
+
+    Returns the ribbon and its edge potential: one value per row on the
+    square lattice, one per site of the cell (sorted across the ribbon) on
+    the honeycomb lattice.
+    """
+    spin = scenario.spin.enabled
+    if scenario.lattice.kind == "honeycomb":
+        profile = _profile(scenario) if scenario.ribbon.edge.profile != "none" else None
+        builder = honeycomb_ribbon_builder(scenario.ribbon.width,
+                                           orientation=scenario.ribbon.orientation or "zigzag",
+                                           spin=spin, potential=profile, rashba=_rashba(scenario))
+        ham = RibbonHamiltonian.from_kwant(builder, params=_params(scenario), spin=spin)
+        y = np.unique(ham.position)
+        d = np.minimum(y - y.min(), y.max() - y)
+        potential = profile(d) if profile is not None else np.zeros_like(d)
+        return ham, potential
     potential = scenario_potential(scenario)
-    builder = ribbon_builder(scenario.ribbon.width, spin=scenario.spin.enabled, potential=potential)
-    ham = RibbonHamiltonian.from_kwant(builder, params=_params(scenario), spin=scenario.spin.enabled)
+    builder = ribbon_builder(scenario.ribbon.width, spin=spin, potential=potential, rashba=_rashba(scenario))
+    ham = RibbonHamiltonian.from_kwant(builder, params=_params(scenario), spin=spin)
     return ham, potential
 
 
 def build_bulk(scenario: Scenario) -> BlochHamiltonian:
     """The bulk of a scenario: magnetic unit cell, no edge potential."""
-    builder = bulk_builder(scenario.lattice.flux, spin=scenario.spin.enabled)
-    return BlochHamiltonian.from_kwant(builder, params=_params(scenario), spin=scenario.spin.enabled)
+    spin = scenario.spin.enabled
+    if scenario.lattice.kind == "honeycomb":
+        builder = honeycomb_bulk_builder(scenario.lattice.flux, spin=spin, rashba=_rashba(scenario))
+    else:
+        builder = bulk_builder(scenario.lattice.flux, spin=spin, rashba=_rashba(scenario))
+    return BlochHamiltonian.from_kwant(builder, params=_params(scenario), spin=spin)
 
 
 def bulk_chern(scenario: Scenario) -> tuple[ChernResult, ChernResult | None, dict]:
@@ -163,12 +206,13 @@ def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
         progress=progress,
     )
     edges = count_edge_modes(ham, ef, k_points=scenario.edges.k_points)
+    subspace = subspace_chern(build_bulk(scenario), gap, grid=chern.grid) if np.isfinite(gap.middle) else None
     streda, streda_error = streda_route(scenario, ef)
     hallbar, hallbar_error = hallbar_route(scenario, ef) if scenario.hallbar.enabled else (None, None)
     summary = summarize(scenario, spec, potential, chern=chern, refined=refined, ef=ef, gap=gap,
                         edges=edges, seconds=time.perf_counter() - start, given=given, units=units,
                         streda=streda, streda_error=streda_error, hallbar=hallbar,
-                        hallbar_error=hallbar_error)
+                        hallbar_error=hallbar_error, subspace=subspace)
     return RunResult(scenario, potential, ham, spec, chern, refined, ef, gap, edges, path, summary, units,
                      streda)
 
@@ -500,20 +544,41 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
               refined: ChernResult | None, ef: float, gap: Gap, edges: EdgeCount, seconds: float,
               given: Scenario | None = None, units: Derived | None = None,
               streda: StredaResult | None = None, streda_error: str | None = None,
-              hallbar: dict | None = None, hallbar_error: str | None = None) -> dict:
+              hallbar: dict | None = None, hallbar_error: str | None = None,
+              subspace: dict | None = None) -> dict:
     """JSON-able summary of a run.
 
     ``scenario`` is in lattice units; ``given`` (default: the same) is the
     scenario as written, stored under ``config``; ``units`` holds what was
     derived from ``[material]`` and ``[field]`` (``units`` key, null without).
+    ``subspace`` is :func:`topoedge.chern.subspace_chern` of the gap at E_F
+    (``bulk.subspace``; a warning when it differs from the band sum).
 
     Energies are in units of the hopping ``t``. Derived lattice scales use
     the effective-mass limit of the square lattice (``m* = hbar^2 / (2 t a^2)``):
     magnetic length ``l_B = a / sqrt(2 pi |phi|)`` and cyclotron energy
-    ``hbar omega_c = 4 pi t |phi|``.
+    ``hbar omega_c = 4 pi t |phi|``; on the honeycomb lattice the Dirac limit:
+    ``l_B = sqrt(A_hex / (2 pi |phi|))`` (a_cc) and the first Landau level
+    ``E_1 = sqrt(2) hbar v_F / l_B`` with ``hbar v_F = 3 t a_cc / 2``.
     """
     lat = scenario.lattice
     phi = abs(float(lat.flux))
+    honeycomb = lat.kind == "honeycomb"
+    if honeycomb:
+        lb = honeycomb_magnetic_length(phi) if phi else None
+        scales = {"magnetic_length_a": lb, "cyclotron_energy_t": None,
+                  "landau_level_1_t": math.sqrt(2) * 1.5 / lb if lb else None}
+    else:
+        scales = {"magnetic_length_a": (1.0 / math.sqrt(2 * math.pi * phi)) if phi else None,
+                  "cyclotron_energy_t": 4 * math.pi * phi}
+    warnings = list(units.warnings) if units is not None else []
+    if subspace is not None:
+        subspace = {**subspace, "agree": subspace["chern"] == gap.chern}
+        if not subspace["agree"]:
+            warnings.append(
+                f"the Chern sum below E_F is {gap.chern} from the bands one by one but {subspace['chern']} "
+                f"from the occupied subspace on the {chern.grid[0]}x{chern.grid[1]} grid: the grid does not "
+                "resolve the bulk bands; use a finer chern.grid")
     valid = np.isfinite(spec.energy)
     energies = spec.energy[valid]
     converged = None
@@ -527,14 +592,16 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
         "source": scenario.source,
         "config": (given or scenario).to_dict(),
         "units": units.to_dict() if units is not None else None,
-        "warnings": list(units.warnings) if units is not None else [],
+        "warnings": warnings,
         "model": {
-            "lattice": "square",
+            "lattice": lat.kind,
             "flux": f"{lat.flux.numerator}/{lat.flux.denominator}",
             "spin": scenario.spin.enabled,
             "zeeman_t": scenario.spin.zeeman,
-            "magnetic_length_a": (1.0 / math.sqrt(2 * math.pi * phi)) if phi else None,
-            "cyclotron_energy_t": 4 * math.pi * phi,
+            "rashba_t": scenario.spin.rashba,
+            **({"staggered_t": lat.staggered, "orientation": scenario.ribbon.orientation or "zigzag"}
+               if honeycomb else {}),
+            **scales,
             "ribbon_width_sites": scenario.ribbon.width,
             "edge_profile": scenario.ribbon.edge.profile,
             "edge_potential_max_t": float(np.max(potential)),
@@ -557,6 +624,7 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
             "refined_grid": list(refined.grid) if refined is not None else None,
             "refined_gaps": [g.to_dict() for g in refined.gaps] if refined is not None else None,
             "converged": converged,
+            "subspace": subspace,
         },
         "fermi": {
             "energy": ef,

@@ -44,6 +44,8 @@ def plot_ribbon_spectrum(
     width: float,
     fermi_energy: float | None = None,
     energy_range: tuple[float, float] | None = None,
+    extent: tuple[float, float] | None = None,
+    length_unit: str = "a",
 ):
     """Ribbon bands ``E_n(k)`` coloured by the mean position across the ribbon.
 
@@ -59,6 +61,11 @@ def plot_ribbon_spectrum(
         Drawn as a dashed line (units of ``t``).
     energy_range : (float, float), optional
         Vertical limits; by default :func:`default_energy_range`.
+    extent : (float, float), optional
+        Positions of the outermost sites (bottom, top) for the colour scale,
+        instead of ``0 .. W - 1`` (e.g. a honeycomb ribbon).
+    length_unit : str
+        Unit of the lengths along and across the ribbon, for the axis label.
 
     Returns
     -------
@@ -72,7 +79,8 @@ def plot_ribbon_spectrum(
     lo, hi = energy_range or default_energy_range(spec, fermi_energy)
     kk = np.broadcast_to(spec.k[:, None], spec.energy.shape)
     shown = np.isfinite(spec.energy) & (spec.energy >= lo) & (spec.energy <= hi)
-    norm = colors.Normalize(vmin=0.0, vmax=max(width - 1, 1))
+    vmin, vmax = extent if extent is not None else (0.0, max(width - 1, 1))
+    norm = colors.Normalize(vmin=vmin, vmax=vmax)
     artists = {"norm": norm}
     sz = spec.sz if spec.sz is not None else np.full(spec.energy.shape, np.nan)
     groups = {"up": sz > 0.25, "down": sz < -0.25, "none": ~(np.abs(sz) > 0.25)}
@@ -97,7 +105,8 @@ def plot_ribbon_spectrum(
         handles.append(artists["fermi"])
     if handles:
         artists["legend"] = ax.legend(handles=handles, loc="upper left", fontsize=8)
-    ax.set_xlabel("$k$ along the ribbon ($1/a$)")
+    ax.set_xlabel("$k$ along the ribbon ($1/a$)" if length_unit == "a"
+                  else f"$k$ along the ribbon (1/period; period {length_unit})")
     ax.set_ylabel("$E$ ($t$)")
     return artists
 
@@ -218,7 +227,18 @@ def plot_bulk_bands(path: dict, chern, *, ax, fermi_energy: float | None = None,
 
 def _title(result) -> str:
     sc = result.scenario
-    return f"{sc.title or 'scenario'}: flux {sc.lattice.flux} per plaquette"
+    cell = "hexagon" if sc.lattice.kind == "honeycomb" else "plaquette"
+    return f"{sc.title or 'scenario'}: flux {sc.lattice.flux} per {cell}"
+
+
+def _ribbon_geometry(result) -> tuple[tuple[float, float] | None, str, str]:
+    """Colour extent, period and length unit of a run's ribbon for the figures."""
+    sc = result.scenario
+    if sc.lattice.kind != "honeycomb":
+        return None, "a", "sites; 0 = bottom edge"
+    pos = result.hamiltonian.position
+    period = "sqrt(3) a_cc" if (sc.ribbon.orientation or "zigzag") == "zigzag" else "3 a_cc"
+    return (float(pos.min()), float(pos.max())), period, "a_cc"
 
 
 def ribbon_figure(result):
@@ -226,14 +246,15 @@ def ribbon_figure(result):
     import matplotlib.pyplot as plt
 
     fig, ax = plt.subplots(figsize=(7.5, 5.2), layout="constrained")
+    extent, period, across = _ribbon_geometry(result)
     artists = plot_ribbon_spectrum(result.spectrum, ax=ax, width=result.scenario.ribbon.width,
-                                   fermi_energy=result.fermi_energy)
+                                   fermi_energy=result.fermi_energy, extent=extent, length_unit=period)
     plot_edge_modes(result.edges, ax=ax)
     edge_mode_legend(ax, spinful=result.scenario.spin.enabled)
     if "legend" in artists:
         ax.add_artist(artists["legend"])
     sm = plt.cm.ScalarMappable(norm=artists["norm"], cmap="coolwarm")
-    fig.colorbar(sm, ax=ax, label=r"$\langle y \rangle$ across the ribbon (sites; 0 = bottom edge)")
+    fig.colorbar(sm, ax=ax, label=rf"$\langle y \rangle$ across the ribbon ({across})")
     s = result.summary
     ax.set_title(f"{_title(result)}\nC = {s['bulk']['chern_below_fermi']}, edge net "
                  f"{s['edges']['bottom']['net']:+d} (bottom) / {s['edges']['top']['net']:+d} (top)",

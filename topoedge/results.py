@@ -340,18 +340,34 @@ def format_summary(summary: dict) -> str:
     lines = [
         f"topoedge {summary['topoedge_version']}: {summary.get('title') or 'scenario'}"
         + (f" ({summary['source']})" if summary.get("source") else ""),
-        f"  lattice      square, flux {m['flux']} flux quanta per plaquette (energies in units of t)",
     ]
-    if m["magnetic_length_a"] is not None:
+    honeycomb = m.get("lattice") == "honeycomb"
+    if honeycomb:
+        staggered = f", staggered potential {m['staggered_t']:g} t" if m.get("staggered_t") else ""
+        lines.append(f"  lattice      honeycomb (a_cc = 1), flux {m['flux']} flux quanta per hexagon{staggered} "
+                     "(energies in units of t)")
+    else:
+        lines.append(f"  lattice      square, flux {m['flux']} flux quanta per plaquette (energies in units of t)")
+    if m["magnetic_length_a"] is not None and honeycomb:
+        lines.append(
+            f"  scales       l_B = {m['magnetic_length_a']:.3f} a_cc, "
+            f"E_1 = sqrt(2) hbar v_F / l_B = {m['landau_level_1_t']:.4f} t (Dirac limit)"
+        )
+    elif m["magnetic_length_a"] is not None:
         lines.append(
             f"  scales       l_B = {m['magnetic_length_a']:.3f} a, "
             f"hbar*omega_c = {m['cyclotron_energy_t']:.4f} t (effective-mass limit)"
         )
     spin = f"spin 1/2, Zeeman {m['zeeman_t']:g} t" if m["spin"] else "spinless"
+    if m.get("rashba_t"):
+        spin += f", Rashba {m['rashba_t']:g} t (S_z not conserved: total Chern numbers only)"
     lines.append(f"  spin         {spin}")
     potential = "max Hartree potential" if summary.get("interaction") else "max edge potential"
+    across = (f"{m['ribbon_width_sites']} {m['orientation']} "
+              + ("chains" if m["orientation"] == "zigzag" else "dimer lines")) if honeycomb else \
+        f"{m['ribbon_width_sites']} sites"
     lines.append(
-        f"  ribbon       W = {m['ribbon_width_sites']} sites, edge '{m['edge_profile']}', "
+        f"  ribbon       W = {across}, edge '{m['edge_profile']}', "
         f"{potential} {m['edge_potential_max_t']:.4g} t"
     )
     window = f", window [{s['window'][0]:.4g}, {s['window'][1]:.4g}] t" if s["window"] else ""
@@ -468,6 +484,14 @@ def _edge_line(name: str, edge: dict) -> str:
     return f"  {name:7s}{_signed(edge['net']):>5s} {edge['counter_pairs']:>6d}   {spins:22s} {modes}"
 
 
+def _subspace_note(sub: dict | None) -> str:
+    if not sub:
+        return ""
+    if sub["agree"]:
+        return f" (the occupied subspace as a whole: the same, smallest link {sub['link_min']:.2f})"
+    return f" (the occupied subspace as a whole: C = {sub['chern']}: DIFFERENT, refine chern.grid)"
+
+
 def _topology_lines(summary: dict) -> list[str]:
     """Bulk gap, Chern sum, edge modes, Hall response and the check."""
     b, f, e, h, c = (summary[key] for key in ("bulk", "fermi", "edges", "hall", "check"))
@@ -486,7 +510,7 @@ def _topology_lines(summary: dict) -> list[str]:
         f"  Fermi energy {f['energy']:.5f} t in the gap above {f['gap_below']} bands "
         + (f"({window})" if "note" not in f else "(self-consistent: mid-way between the highest occupied "
            "and the lowest empty level)"),
-        f"  Chern sum    C = {b['chern_below_fermi']}{spin}",
+        f"  Chern sum    C = {b['chern_below_fermi']}{spin}" + _subspace_note(b.get("subspace")),
         "  edge      net  pairs   net/pairs by spin      modes from the boundary inwards",
         _edge_line("bottom", e["bottom"]),
         _edge_line("top", e["top"]),

@@ -6,10 +6,12 @@ potential::
 
     sigma_xy = e (dn/dB)_mu,   i.e.   sigma_xy / (e^2/h) = d n_site / d phi
 
-with ``n_site`` the number of states below E_F per lattice site and ``phi``
-the flux per plaquette in flux quanta. On the lattice the flux is rational:
-at ``phi' = p'/q'`` the magnetic cell has ``q'`` sites and every band holds
-one state per cell, so ``n_site = (bands below E_F) / q'``. Within one gap
+with ``n_site`` the number of states below E_F per plaquette (per lattice
+site on the square lattice, per hexagon on the honeycomb lattice) and
+``phi`` the flux per plaquette in flux quanta. On the lattice the flux is
+rational: at ``phi' = p'/q'`` the magnetic cell has ``q'`` plaquettes and
+every band holds one state per cell, so ``n_site = (bands below E_F) / q'``
+(with or without spin, and whether or not S_z is conserved). Within one gap
 ``n_site = s + t phi`` exactly (``r = q s + p t``), so the slope across
 neighbouring fluxes whose gap still contains E_F is the integer ``t``. This
 route counts states only: no eigenvectors, no Berry phases, no edges.
@@ -17,7 +19,8 @@ route counts states only: no eigenvectors, no Berry phases, no edges.
 Band energy ranges come from eigenvalues on a momentum grid that contains
 the extremes of the square-lattice bands (``k1`` a multiple of ``pi/q``,
 ``k2`` 0 or ``pi``, Chambers' relation), so the counts are exact for the
-builders of :mod:`topoedge.builders`.
+builders of :mod:`topoedge.builders`; for other bulks (the honeycomb
+lattice, a Rashba term) the grid samples the bands without that guarantee.
 
 References
 ----------
@@ -117,7 +120,8 @@ def states_below(bloch: BlochHamiltonian, fermi_energy: float, *, flux: Fraction
     gap = None
     if not inside.any():
         gap = (float(hi[hi < fermi_energy].max(initial=-np.inf)), float(lo[lo > fermi_energy].min(initial=np.inf)))
-    return StredaPoint(flux=Fraction(flux), bands_below=below, density=below / sites, gap=gap)
+    cells = Fraction(flux).denominator     # plaquettes per magnetic cell
+    return StredaPoint(flux=Fraction(flux), bands_below=below, density=below / cells, gap=gap)
 
 
 def neighbour_fluxes(flux: Fraction, *, count: int = 4, q_max: int | None = None) -> list[Fraction]:
