@@ -16,8 +16,8 @@ from topoedge.config import (
 
 FULL = {
     "title": "linear ramp, spin split",
-    "lattice": {"flux": "-1/30", "onsite": 0.25},
-    "spin": {"enabled": True, "zeeman": 0.1},
+    "lattice": {"kind": "square", "flux": "-1/30", "onsite": 0.25, "staggered": 0.0},
+    "spin": {"enabled": True, "zeeman": 0.1, "rashba": 0.0},
     "ribbon": {"width": 80, "edge": {"profile": "table", "width": 0.0, "height": 0.0,
                                      "table": [[0, 2.0], [1.5, 0.5], [4, 0]]}},
     "spectrum": {"k_points": 101, "window": 0.5, "solver": "banded"},
@@ -31,12 +31,15 @@ FULL_TOML = """\
 title = "linear ramp, spin split"
 
 [lattice]
+kind = "square"
 flux = "-1/30"
 onsite = 0.25
+staggered = 0.0
 
 [spin]
 enabled = true
 zeeman = 0.1
+rashba = 0.0
 
 [ribbon]
 width = 80
@@ -219,7 +222,7 @@ def test_full_scenario():
     s = parse_scenario(FULL, source="full.toml")
     assert s.title == "linear ramp, spin split"
     assert s.source == "full.toml"
-    assert s.lattice == LatticeConfig(Fraction(-1, 30), 0.25)
+    assert s.lattice == LatticeConfig(kind="square", flux=Fraction(-1, 30), onsite=0.25)
     assert s.spin == SpinConfig(True, 0.1)
     assert s.ribbon.width == 80
     assert s.ribbon.edge == EdgeConfig("table", 0.0, 0.0, ((0.0, 2.0), (1.5, 0.5), (4.0, 0.0)))
@@ -258,7 +261,7 @@ def test_to_dict_values():
     assert "window" not in parse_scenario({}).to_dict()["spectrum"]
     unset = {"fermi.gap", "material.preset", "material.effective_mass", "material.g_factor",
              "material.permittivity", "material.lattice_constant_nm", "field.b_tesla",
-             "field.fermi_mev", "field.density_cm2"}
+             "field.fermi_mev", "field.density_cm2", "ribbon.orientation"}
     # Without interaction the whole [interaction] section is left out.
     unset |= {p for p in leaf_paths(Scenario) if p.startswith("interaction.")}
     assert set(flat_paths(d)) == set(leaf_paths(Scenario)) - unset  # unset keys are left out
@@ -306,10 +309,12 @@ def test_key_docs_cover_every_key():
     rows = key_docs()
     paths = [row[0] for row in rows]
     assert len(paths) == len(set(paths))
-    # FULL sets fermi.energy, which excludes fermi.gap, and lattice units, which
-    # exclude the physical-unit keys (tests/test_units.py covers those).
+    # FULL sets fermi.energy, which excludes fermi.gap, lattice units, which
+    # exclude the physical-unit keys (tests/test_units.py covers those), and
+    # the square lattice, which has no ribbon.orientation (test_honeycomb.py).
     physical = {p for p in leaf_paths(Scenario) if p.startswith(("material.", "field.", "interaction."))}
-    assert set(paths) == set(leaf_paths(Scenario)) == set(flat_paths(FULL)) | {"fermi.gap"} | physical
+    assert set(paths) == set(leaf_paths(Scenario)) == (set(flat_paths(FULL)) | {"fermi.gap", "ribbon.orientation"}
+                                                       | physical)
     assert all(len(row) == 5 and all(isinstance(x, str) and x for x in row) for row in rows)
     docs = {row[0]: row for row in rows}
     assert docs["lattice.flux"][3] == '"1/40"'

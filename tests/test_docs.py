@@ -188,6 +188,8 @@ def test_python_example_runs():
     # The zero-field example: QWZ C = -1, 1, 0 at m = -1, 1, 3 and Haldane C = -1.
     assert [line.split("C = ")[1] for line in text.splitlines() if line.startswith("QWZ m =")] == ["-1", "1", "0"]
     assert "Haldane C = -1" in text.splitlines(), text
+    # The user-ribbon example: the QWZ ribbon at m = 1 carries C = 1 on one edge, -1 on the other.
+    assert "QWZ ribbon m = 1: bottom net 1 top net -1" in text.splitlines(), text
     for quoted in ("edge net: bottom +2, top -2",
                    "band C: [-2, 3, -2, 3, -2] gap C: [-2, 1, -1, 2]"):
         assert quoted in text, text

@@ -154,16 +154,40 @@ def test_user_ribbon_edges_follow_the_bulk_chern_number(model, params, period):
     # model): net chirality of one edge = the lower band's Chern number, the
     # other edge the opposite, at an E_F inside the bulk gap but off the
     # symmetric point E = 0 (see the next test).
-    from topoedge.edges import count_edge_modes
-    from topoedge.hamiltonian import RibbonHamiltonian
+    from topoedge.edges import builder_edge_modes
 
     template = qwz_builder() if model == "qwz" else haldane_builder()
     if period == "b1":
         period = tuple(honeycomb_vectors()[1][0])
     chern = builder_chern(template, params=params, grid=(24, 24)).gap_above(1).chern
-    edges = count_edge_modes(RibbonHamiltonian.from_kwant(_ribbon(template, period, 30), params=params), 0.1)
+    modes = builder_edge_modes(_ribbon(template, period, 30), 0.1, params=params, spectrum_k_points=32)
+    edges = modes.edges
+    assert modes.spectrum.energy.shape[0] == 32
     assert edges.in_gap, edges.message
     assert edges.bottom.net == chern and edges.top.net == -chern
+
+
+def test_user_ribbon_path_equals_the_built_in_ribbon():
+    # The project's own square ribbon (flux 1/10, Zeeman 0.05 t, linear
+    # edge) handed in as a user's builder gives the run's spectrum and edge
+    # count: net chirality = C = 2 = the TKNN value of the gap above two spin
+    # bands (common practice: one per filled Landau level of each spin).
+    from topoedge.builders import model_params, ribbon_builder
+    from topoedge.config import parse_scenario
+    from topoedge.edges import builder_edge_modes
+    from topoedge.pipeline import run_scenario, scenario_potential
+
+    scenario = parse_scenario({"lattice": {"flux": "1/10"}, "spin": {"zeeman": 0.05},
+                               "ribbon": {"width": 40, "edge": {"profile": "linear", "width": 6.0, "height": 1.0}},
+                               "spectrum": {"k_points": 41}, "chern": {"refine": False}, "fermi": {"gap": 2}})
+    run = run_scenario(scenario)
+    user = builder_edge_modes(ribbon_builder(40, spin=True, potential=scenario_potential(scenario)),
+                              run.fermi_energy, params=model_params(phi=Fraction(1, 10), zeeman=0.05),
+                              spectrum_k_points=41)
+    assert np.allclose(user.spectrum.energy, run.spectrum.energy, atol=1e-12)
+    assert user.edges.bottom.net == run.edges.bottom.net == 2
+    assert user.edges.top.net == run.edges.top.net == -2
+    assert [m.k for m in user.edges.bottom.modes] == pytest.approx([m.k for m in run.edges.bottom.modes])
 
 
 def test_finite_size_gap_at_the_fermi_energy_is_reported():

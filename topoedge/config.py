@@ -829,9 +829,9 @@ def _check_combinations(s: Scenario) -> None:
     edge, width = s.ribbon.edge, s.ribbon.width
     span = ribbon_span(s)
     if edge.width > span / 2:
-        unit = "a_cc" if s.lattice.kind == "honeycomb" else "a"
+        across = f", {span:g} a_cc across" if s.lattice.kind == "honeycomb" else ""
         raise ConfigError(f"ribbon.edge.width: got {edge.width!r}, wider than half the ribbon "
-                          f"(ribbon.width = {width}, {span:g} {unit} across); expected at most {span / 2:g}")
+                          f"(ribbon.width = {width}{across}); expected at most {span / 2:g}")
     if edge.profile == "table" and not edge.table:
         raise ConfigError("ribbon.edge.table: empty, but ribbon.edge.profile = 'table' needs it; "
                           "expected at least one [distance, potential] row")

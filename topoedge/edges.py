@@ -109,7 +109,8 @@ from scipy.optimize import brentq, minimize_scalar
 from .hamiltonian import RibbonHamiltonian
 from .spectrum import k_grid
 
-__all__ = ["EdgeMode", "EdgeSummary", "EdgeCount", "find_crossings", "count_edge_modes"]
+__all__ = ["EdgeMode", "EdgeSummary", "EdgeCount", "RibbonModes", "find_crossings", "count_edge_modes",
+           "builder_edge_modes"]
 
 # Interval width (1/a) below which the end velocities of a band are trusted
 # to rule out hidden roots; wider intervals are halved on the Lipschitz bound.
@@ -927,3 +928,66 @@ def count_edge_modes(
         in_gap=in_gap,
         message=message,
     )
+
+
+@dataclass(frozen=True, eq=False)
+class RibbonModes:
+    """What :func:`builder_edge_modes` computes for a user's ribbon."""
+
+    hamiltonian: RibbonHamiltonian
+    spectrum: object            # topoedge.spectrum.RibbonSpectrum
+    edges: EdgeCount
+
+
+def builder_edge_modes(builder, fermi_energy: float, *, params: dict | None = None,
+                       spin: bool | None = None, k_points: int = 400,
+                       spectrum_k_points: int = 201) -> RibbonModes:
+    """Ribbon spectrum and edge-mode count of any kwant builder with one translation symmetry.
+
+    The user's ribbon goes through the same steps as the built-in ones:
+    :meth:`RibbonHamiltonian.from_kwant` (with kwant's ``params`` passed to
+    its value functions), :func:`topoedge.spectrum.ribbon_spectrum` and
+    :func:`count_edge_modes` (every crossing of ``E_F``, its velocity,
+    position and spin; near misses and touching bands reported).
+
+    Parameters
+    ----------
+    builder : kwant.Builder
+        With exactly one translation symmetry, in a 2D space, ``norbs``
+        declared. "Across" is the direction perpendicular to the period.
+    fermi_energy : float
+        ``E_F`` in the energy unit of the builder's values.
+    params : dict, optional
+        kwant ``params`` of the value functions.
+    spin : bool, optional
+        Whether every site has two orbitals ordered (up, down); default: True
+        exactly when every site has two orbitals.
+    k_points : int
+        Scan grid of the crossing search.
+    spectrum_k_points : int
+        Momenta of the returned spectrum (``k`` in ``[-pi, pi)`` per period).
+
+    Returns
+    -------
+    RibbonModes
+        ``edges.bottom.net`` and ``edges.top.net`` are the net chiralities of
+        the two edges (meaningful when ``edges.in_gap``; otherwise
+        ``edges.message`` says why not).
+
+    Raises
+    ------
+    TypeError
+        If the builder does not have exactly one translation symmetry.
+    ValueError
+        If ``norbs`` is not declared.
+
+    References
+    ----------
+    .. [1] Y. Hatsugai, "Chern number and edge states in the integer quantum
+       Hall effect", Phys. Rev. Lett. 71, 3697 (1993).
+    """
+    from .spectrum import ribbon_spectrum
+
+    ham = RibbonHamiltonian.from_kwant(builder, params=params, spin=spin)
+    spec = ribbon_spectrum(ham, k_grid(spectrum_k_points))
+    return RibbonModes(ham, spec, count_edge_modes(ham, fermi_energy, k_points=k_points))
