@@ -316,9 +316,27 @@ def test_a_gap_closed_by_the_rashba_term_is_named():
     ({"spin": {"enabled": False, "rashba": 0.1}}, r"spin.rashba: got 0.1 with spin.enabled = false"),
     ({"lattice": {"kind": "honeycomb"}, "hallbar": {"enabled": True}},
      r"hallbar.enabled: the Hall bar with lattice.kind = 'honeycomb'"),
+    ({"spin": {"rashba": 0.1}, "hallbar": {"enabled": True}}, r"spin.rashba: got 0.1 with the Hall bar"),
+    ({"spin": {"rashba": 0.1}, "interaction": {"coulomb": 0.3}, "fermi": {"gap": 1}},
+     r"spin.rashba: got 0.1 with \[interaction\], which needs S_z conserved"),
     ({"lattice": {"kind": "honeycomb"}, "ribbon": {"width": 10, "edge": {"profile": "linear", "width": 8.0}}},
      r"ribbon.edge.width: got 8.0, wider than half the ribbon \(ribbon.width = 10, 14 a_cc across\)"),
 ])
 def test_bad_lattice_keys_are_refused(data, match):
     with pytest.raises(ConfigError, match=match):
         parse_scenario(data)
+
+
+@pytest.mark.parametrize("command", ["butterfly", "hallbar"])
+@pytest.mark.parametrize("override, match", [
+    ("lattice.kind=honeycomb", "lattice.kind: got 'honeycomb'; `topoedge {}` is built for the square lattice only"),
+    ("spin.rashba=0.1", "spin.rashba: got 0.1; `topoedge {}` has no Rashba term yet"),
+])
+def test_square_lattice_commands_refuse_what_they_would_drop(command, override, match, tmp_path, capsys):
+    from topoedge import cli
+
+    status = cli.main([command, "--set", override, "--out", str(tmp_path / "out")])
+    err = capsys.readouterr().err
+    assert status == 2
+    assert match.format(command) in err and len(err.strip().splitlines()) == 1
+    assert not (tmp_path / "out").exists()

@@ -390,6 +390,16 @@ def _scan_range(text: str | None, option: str, unit: str) -> tuple[float, float,
     return lo, hi, n
 
 
+def _square_lattice_only(scenario, command: str) -> None:
+    """Refuse what a square-lattice-only command would silently drop."""
+    if scenario.lattice.kind != "square":
+        raise ConfigError(f"lattice.kind: got {scenario.lattice.kind!r}; `topoedge {command}` is built for the "
+                          "square lattice only; expected 'square'")
+    if scenario.spin.rashba != 0:
+        raise ConfigError(f"spin.rashba: got {scenario.spin.rashba!r}; `topoedge {command}` has no Rashba term "
+                          "yet; expected 0")
+
+
 def _cmd_hallbar(args) -> int:
     """Scan of the Hall bar over E_F or B into a results folder (summary, HDF5, figure)."""
     import numpy as np
@@ -399,6 +409,7 @@ def _cmd_hallbar(args) -> int:
     window = _scan_range(args.energies, "--energies", "t")
     fields = _scan_range(args.fields, "--fields", "tesla")
     scenario = load_scenario(args.config, args.overrides)
+    _square_lattice_only(scenario, "hallbar")
     if fields is not None:
         if scenario.field.b_tesla is None:
             raise ConfigError("hallbar --fields: the scenario has no [field] section; expected a scenario "
@@ -571,6 +582,7 @@ def _cmd_butterfly(args) -> int:
     if args.jobs is not None and args.jobs < 1:
         raise ConfigError(f"butterfly --jobs: got {args.jobs}; expected at least 1 worker process")
     scenario = load_scenario(args.config, args.overrides)
+    _square_lattice_only(scenario, "butterfly")
     if args.out is not None:
         out = args.out
     else:

@@ -877,6 +877,11 @@ def _check_lattice(s: Scenario) -> None:
     if s.spin.rashba != 0 and not s.spin.enabled:
         raise ConfigError(f"spin.rashba: got {s.spin.rashba!r} with spin.enabled = false; expected 0 "
                           "without spin (the Rashba term couples the two spins)")
+    for enabled, key, what in ((s.interaction.enabled, "interaction.enabled", "[interaction]"),
+                               (s.hallbar.enabled, "hallbar.enabled", "the Hall bar")):
+        if enabled and s.spin.rashba != 0:
+            raise ConfigError(f"spin.rashba: got {s.spin.rashba!r} with {what}, which needs S_z conserved "
+                              f"(no Rashba term); expected 0 or {key} = false")
     if lat.kind == "square":
         if lat.staggered != 0:
             raise ConfigError(f"lattice.staggered: got {lat.staggered!r} on the square lattice; expected 0 "

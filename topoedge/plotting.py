@@ -262,16 +262,32 @@ def ribbon_figure(result):
     return fig
 
 
+def bulk_energy_range(chern, fermi_energy: float, *, gaps: int = 3) -> tuple[float, float]:
+    """Energies shown by the bulk figure: the ``gaps`` open gaps below and above E_F's gap, and E_F.
+
+    With many bands (a small flux, the honeycomb lattice) the whole spectrum
+    has too many gaps to label; the window keeps those next to E_F and ends
+    at the band edges beyond them (or at the ends of the spectrum).
+    """
+    e_min = min(b.energy_min for b in chern.bands)
+    e_max = max(b.energy_max for b in chern.bands)
+    ordered = sorted(chern.gaps, key=lambda g: g.middle)
+    if not ordered:
+        return e_min, e_max
+    i = min(range(len(ordered)), key=lambda j: abs(ordered[j].middle - fermi_energy))
+    lo = ordered[i - gaps - 1].energy_max if i - gaps - 1 >= 0 else e_min
+    hi = ordered[i + gaps + 1].energy_min if i + gaps + 1 < len(ordered) else e_max
+    return min(lo, fermi_energy), max(hi, fermi_energy)
+
+
 def bulk_figure(result):
     """Figure of the bulk bands with their Chern numbers."""
     import matplotlib.pyplot as plt
 
     fig, ax = plt.subplots(figsize=(6.5, 5.2), layout="constrained")
-    e_min = min(b.energy_min for b in result.chern.bands)
-    e_max = max(b.energy_max for b in result.chern.bands)
     ef = result.fermi_energy
-    top = min(e_max, ef + 1.5 * (ef - e_min)) if e_min < ef < e_max else e_max
-    plot_bulk_bands(result.bulk_path, result.chern, ax=ax, fermi_energy=ef, energy_range=(e_min, top))
+    plot_bulk_bands(result.bulk_path, result.chern, ax=ax, fermi_energy=ef,
+                    energy_range=bulk_energy_range(result.chern, ef))
     handles = [Line2D([], [], color="k", ls=":", label="$E_F$")]
     if result.scenario.spin.enabled:
         handles = [Line2D([], [], color="C0", label="spin up"),
