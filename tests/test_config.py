@@ -16,7 +16,8 @@ from topoedge.config import (
 
 FULL = {
     "title": "linear ramp, spin split",
-    "lattice": {"kind": "square", "flux": "-1/30", "onsite": 0.25, "staggered": 0.0},
+    "lattice": {"kind": "square", "flux": "-1/30", "onsite": 0.25, "staggered": 0.0, "t2": 0.0,
+                "t2_phase": 0.0, "mass": 0.0},
     "spin": {"enabled": True, "zeeman": 0.1, "rashba": 0.0},
     "ribbon": {"width": 80, "edge": {"profile": "table", "width": 0.0, "height": 0.0,
                                      "table": [[0, 2.0], [1.5, 0.5], [4, 0]]}},
@@ -35,6 +36,9 @@ kind = "square"
 flux = "-1/30"
 onsite = 0.25
 staggered = 0.0
+t2 = 0.0
+t2_phase = 0.0
+mass = 0.0
 
 [spin]
 enabled = true

@@ -308,7 +308,8 @@ def test_a_gap_closed_by_the_rashba_term_is_named():
 
 
 @pytest.mark.parametrize("data, match", [
-    ({"lattice": {"staggered": 0.1}}, r"lattice.staggered: got 0.1 on the square lattice"),
+    ({"lattice": {"staggered": 0.1}},
+     r"lattice.staggered: got 0.1 with lattice.kind = 'square'; expected 0 \(it belongs to lattice.kind = 'honeycomb' or"),
     ({"ribbon": {"orientation": "armchair"}}, r"ribbon.orientation: got 'armchair' on the square lattice"),
     ({"lattice": {"kind": "hexagonal"}}, r"lattice.kind: .*expected one of 'square', 'honeycomb'"),
     ({"lattice": {"kind": "honeycomb"}, "ribbon": {"orientation": "chiral"}},

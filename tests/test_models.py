@@ -206,3 +206,67 @@ def test_finite_size_gap_at_the_fermi_energy_is_reported():
     assert not edges.in_gap
     assert "lies only 1.4e-06 t from a band at k = 0.0000 without crossing it" in edges.message
     assert "hybridise through the ribbon" in edges.message
+
+
+# ------------------------------------------------- the presets from a scenario
+
+
+@pytest.mark.parametrize("lattice, chern", [
+    ({"kind": "qwz", "mass": -3.0}, 0), ({"kind": "qwz", "mass": -1.0}, -1),
+    ({"kind": "qwz", "mass": 1.0}, 1), ({"kind": "qwz", "mass": 2.5}, 0),
+    ({"kind": "haldane", "t2": 0.1, "t2_phase": np.pi / 2, "staggered": 0.2}, -1),
+    ({"kind": "haldane", "t2": 0.1, "t2_phase": -np.pi / 2, "staggered": -0.3}, 1),
+    ({"kind": "haldane", "t2": 0.1, "t2_phase": np.pi / 2, "staggered": 0.8}, 0),
+], ids=["qwz m=-3", "qwz m=-1", "qwz m=1", "qwz m=2.5", "haldane", "haldane -phi", "haldane trivial"])
+def test_zero_field_presets_run_from_a_scenario(lattice, chern):
+    # The presets through `run`: the Chern number of the published phase
+    # diagrams (QWZ, PRB 74, 085308 (2006): 0, -1, +1, 0 across m = -2, 0, 2;
+    # Haldane, PRL 61, 2015 (1988): |C| = 1 inside |M| < 3 sqrt(3) |t2 sin
+    # phi| = 0.52, sign with phi, 0 outside) and one edge mode per unit of C
+    # on each edge (bulk-edge correspondence, Hatsugai, PRL 71, 3697 (1993)).
+    from topoedge.config import parse_scenario
+    from topoedge.pipeline import run_scenario
+
+    s = parse_scenario({"lattice": lattice, "ribbon": {"width": 30}, "spectrum": {"k_points": 32},
+                        "fermi": {"energy": 0.1}})
+    assert s.lattice.flux == 0 and not s.spin.enabled
+    result = run_scenario(s)
+    assert result.gap.chern == chern
+    assert result.edges.in_gap, result.edges.message
+    assert result.edges.bottom.net == chern and result.edges.top.net == -chern
+    assert result.summary["check"]["bulk_edge_agree"] and result.summary["check"]["routes_agree"]
+    assert result.summary["hall"]["streda_error"].startswith("no Streda route for the zero-field")
+    assert result.summary["model"]["lattice"] == lattice["kind"]
+
+
+def test_zero_field_preset_with_a_smooth_edge_keeps_its_net_chirality():
+    # An edge ramp of 1.5 t over 6 a_cc on the Haldane ribbon bends the edge
+    # bands; whatever crosses E_F, the net chirality stays C = -1.
+    from topoedge.config import parse_scenario
+    from topoedge.pipeline import run_scenario
+
+    s = parse_scenario({"lattice": {"kind": "haldane", "t2": 0.1, "t2_phase": np.pi / 2},
+                        "ribbon": {"width": 40, "edge": {"profile": "linear", "width": 6.0, "height": 1.5}},
+                        "spectrum": {"k_points": 32}, "fermi": {"energy": 0.1}})
+    result = run_scenario(s)
+    assert result.edges.bottom.net == -1 and result.edges.top.net == 1
+    assert result.potential.max() == pytest.approx(1.5)
+
+
+@pytest.mark.parametrize("data, match", [
+    ({"lattice": {"kind": "qwz", "flux": "1/10", "mass": 1.0}},
+     r"lattice.flux: got '1/10' with lattice.kind = 'qwz', a zero-field model; expected no flux"),
+    ({"lattice": {"kind": "haldane"}, "spin": {"enabled": True}},
+     r"spin.enabled: true with lattice.kind = 'haldane', a spinless two-band model"),
+    ({"lattice": {"mass": 1.0}}, r"lattice.mass: got 1.0 with lattice.kind = 'square'; expected 0"),
+    ({"lattice": {"kind": "qwz", "t2": 0.1}}, r"lattice.t2: got 0.1 with lattice.kind = 'qwz'; expected 0"),
+    ({"lattice": {"kind": "haldane"}, "ribbon": {"orientation": "armchair"}},
+     r"ribbon.orientation: got 'armchair' with lattice.kind = 'haldane'; expected no orientation or 'zigzag'"),
+    ({"lattice": {"kind": "qwz"}, "hallbar": {"enabled": True}},
+     r"hallbar.enabled: the Hall bar with lattice.kind = 'qwz'; expected the square lattice"),
+])
+def test_bad_preset_keys_are_refused(data, match):
+    from topoedge.config import ConfigError, parse_scenario
+
+    with pytest.raises(ConfigError, match=match):
+        parse_scenario(data)

@@ -50,7 +50,9 @@ DEFAULT_SCENARIO = Path(__file__).resolve().parent.parent / "configs" / "default
 # The edge profiles are registered where they are defined (one list, no drift).
 EDGE_PROFILES = tuple(_PROFILE_REGISTRY)
 SOLVERS = ("auto", "banded", "dense")
-LATTICES = ("square", "honeycomb")
+LATTICES = ("square", "honeycomb", "haldane", "qwz")
+#: Lattice kinds without a magnetic field (spinless two-band Chern insulators).
+ZERO_FIELD = ("haldane", "qwz")
 ORIENTATIONS = ("zigzag", "armchair")
 
 
@@ -76,13 +78,24 @@ class LatticeConfig:
     onsite : float
         Uniform on-site energy, in t.
     staggered : float
-        Sublattice potential M, in t: +M on A, -M on B (honeycomb only).
+        Sublattice potential M, in t: +M on A, -M on B (honeycomb and
+        Haldane only).
+    t2 : float
+        Haldane model: magnitude of the next-nearest hopping t2 exp(i phi), in t.
+    t2_phase : float
+        Haldane model: its phase phi, in radians.
+    mass : float
+        Qi-Wu-Zhang model: the mass m, in t (C = 0, -1, +1, 0 for
+        m < -2, -2 < m < 0, 0 < m < 2, m > 2).
     """
 
     kind: str = "square"
     flux: Fraction = Fraction(1, 40)
     onsite: float = 0.0
     staggered: float = 0.0
+    t2: float = 0.0
+    t2_phase: float = 0.0
+    mass: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -454,14 +467,22 @@ def _positive(x):
 
 _KEYS: dict[str, _Key] = {key.path: key for key in (
     _Key("title", "string", "-", "Free-text title of the scenario.", "a string"),
-    _Key("lattice.kind", "choice", "-", "Lattice: square (constant a) or honeycomb (bond length a_cc).",
+    _Key("lattice.kind", "choice", "-",
+         "Lattice: square (constant a), honeycomb (bond length a_cc), or the zero-field Haldane "
+         "(honeycomb) and Qi-Wu-Zhang (square) models.",
          "one of " + ", ".join(map(repr, LATTICES)), choices=LATTICES),
     _Key("lattice.flux", "flux", "phi0 per plaquette",
          "Flux per plaquette (per hexagon on the honeycomb lattice) as a fraction p/q; "
          "negative p reverses the field.",
          "a string 'p/q' such as '1/40'"),
     _Key("lattice.onsite", "float", "t", "Uniform on-site energy.", "a finite energy in t"),
-    _Key("lattice.staggered", "float", "t", "Sublattice potential M: +M on A, -M on B (honeycomb).",
+    _Key("lattice.staggered", "float", "t", "Sublattice potential M: +M on A, -M on B (honeycomb, haldane).",
+         "a finite energy in t"),
+    _Key("lattice.t2", "float", "t", "Haldane model: next-nearest hopping magnitude t2.",
+         "a finite energy in t"),
+    _Key("lattice.t2_phase", "float", "rad", "Haldane model: phase phi of the next-nearest hopping t2 exp(i phi).",
+         "a finite phase in radians"),
+    _Key("lattice.mass", "float", "t", "Qi-Wu-Zhang model: mass m (gap closed at m = 0, +-2).",
          "a finite energy in t"),
     _Key("spin.enabled", "boolean", "-", "Spin-1/2: two orbitals per site.", "true or false"),
     _Key("spin.zeeman", "float", "t",
@@ -864,7 +885,7 @@ def ribbon_span(s: Scenario) -> float:
     (the geometry of `topoedge.honeycomb`).
     """
     width = s.ribbon.width
-    if s.lattice.kind == "square":
+    if s.lattice.kind in ("square", "qwz"):
         return float(width)
     if (s.ribbon.orientation or "zigzag") == "zigzag":
         return 1.5 * width - 1.0
@@ -882,10 +903,17 @@ def _check_lattice(s: Scenario) -> None:
         if enabled and s.spin.rashba != 0:
             raise ConfigError(f"spin.rashba: got {s.spin.rashba!r} with {what}, which needs S_z conserved "
                               f"(no Rashba term); expected 0 or {key} = false")
+    for key, value, kinds in (("lattice.staggered", lat.staggered, ("honeycomb", "haldane")),
+                              ("lattice.t2", lat.t2, ("haldane",)), ("lattice.t2_phase", lat.t2_phase, ("haldane",)),
+                              ("lattice.mass", lat.mass, ("qwz",))):
+        if value != 0 and lat.kind not in kinds:
+            raise ConfigError(f"{key}: got {value!r} with lattice.kind = {lat.kind!r}; expected 0 (it belongs "
+                              f"to lattice.kind = {' or '.join(map(repr, kinds))})")
+    if lat.kind in ZERO_FIELD and s.ribbon.orientation not in (None, "zigzag") or (
+            lat.kind == "qwz" and s.ribbon.orientation is not None):
+        raise ConfigError(f"ribbon.orientation: got {s.ribbon.orientation!r} with lattice.kind = {lat.kind!r}; "
+                          "expected no orientation" + (" or 'zigzag'" if lat.kind == "haldane" else ""))
     if lat.kind == "square":
-        if lat.staggered != 0:
-            raise ConfigError(f"lattice.staggered: got {lat.staggered!r} on the square lattice; expected 0 "
-                              "(a sublattice potential needs lattice.kind = 'honeycomb')")
         if s.ribbon.orientation is not None:
             raise ConfigError(f"ribbon.orientation: got {s.ribbon.orientation!r} on the square lattice; "
                               "expected no orientation (zigzag and armchair edges need "
@@ -897,7 +925,7 @@ def _check_lattice(s: Scenario) -> None:
         (s.hallbar.enabled, "hallbar.enabled", "the Hall bar"),
     ):
         if enabled:
-            raise ConfigError(f"{key}: {what} with lattice.kind = 'honeycomb'; expected the square lattice "
+            raise ConfigError(f"{key}: {what} with lattice.kind = {lat.kind!r}; expected the square lattice "
                               f"({what} is built for the square lattice only)")
 
 
@@ -1036,6 +1064,17 @@ def parse_scenario(data: Mapping[str, Any], *, source: str | None = None) -> Sce
                     or values.get("field.density_cm2") is not None):
                 raise ConfigError(f"{path}: given together with {by}, which sets it; expected only one "
                                   "of them (remove the lattice-unit key)")
+    if values.get("lattice.kind") in ZERO_FIELD:
+        # A zero-field two-band model: no flux and no spin unless asked for (refused).
+        kind = values["lattice.kind"]
+        if values.get("lattice.flux"):
+            raise ConfigError(f"lattice.flux: got '{values['lattice.flux']}' with lattice.kind = {kind!r}, a "
+                              "zero-field model; expected no flux (leave the key out)")
+        if values.get("spin.enabled"):
+            raise ConfigError(f"spin.enabled: true with lattice.kind = {kind!r}, a spinless two-band model; "
+                              "expected false (leave the key out)")
+        values["lattice.flux"] = Fraction(0)
+        values["spin.enabled"] = False
     if isinstance(data.get("interaction"), Mapping) and "interaction.enabled" not in values:
         values["interaction.enabled"] = True  # the section turns the interaction on
     scenario = _build("", values, source=source)

@@ -48,7 +48,8 @@ import cmath
 import kwant
 import numpy as np
 
-__all__ = ["qwz_builder", "haldane_builder", "honeycomb_vectors"]
+__all__ = ["qwz_builder", "haldane_builder", "honeycomb_vectors", "qwz_ribbon_builder",
+           "haldane_ribbon_builder"]
 
 _SX = np.array([[0, 1], [1, 0]], dtype=complex)
 _SY = np.array([[0, -1j], [1j, 0]])
@@ -126,3 +127,78 @@ def haldane_builder() -> kwant.Builder:
         syst[kwant.builder.HoppingKind(tag, sub_a, sub_a)] = forward
         syst[kwant.builder.HoppingKind(tag, sub_b, sub_b)] = backward
     return syst
+
+
+def _with_potential(ribbon: kwant.Builder, onsite_of, potential, across: float) -> kwant.Builder:
+    """Replace every on-site value by ``onsite_of(site)`` plus ``potential(d)``.
+
+    ``onsite_of(site)`` returns the model's on-site value function of that
+    site; ``d`` is the distance (units of the model's length) from the nearer
+    edge, measured along the coordinate ``across * y``.
+    """
+    if potential is None:
+        return ribbon
+    ys = [across * s.pos[1] for s in ribbon.sites()]
+    lo, hi = min(ys), max(ys)
+    for site in list(ribbon.sites()):
+        d = min(across * site.pos[1] - lo, hi - across * site.pos[1])
+        v = float(potential(np.asarray([max(d, 0.0)]))[0])
+        ribbon[site] = onsite_of(site, v)
+    return ribbon
+
+
+def qwz_ribbon_builder(width: int, *, potential=None) -> kwant.Builder:
+    """Qi-Wu-Zhang ribbon of ``width`` rows along ``x`` (period 1), params ``m``.
+
+    Parameters
+    ----------
+    width : int
+        Rows ``y = 0 .. width - 1`` (``>= 2``).
+    potential : callable, optional
+        ``potential(d)``: edge potential (energy unit of the model) of a row
+        at the distance ``d`` from the nearer edge, added to both orbitals.
+    """
+    if int(width) < 2:
+        raise ValueError(f"a ribbon needs at least 2 rows, got {width}")
+    ribbon = kwant.Builder(kwant.TranslationalSymmetry((1, 0)))
+    ribbon.fill(qwz_builder(), lambda site: 0 <= site.pos[1] < int(width), (0, 0))
+
+    def onsite_of(site, v):
+        def onsite(site, m):
+            return m * _SZ + v * np.eye(2)
+        return onsite
+
+    return _with_potential(ribbon, onsite_of, potential, 1.0)
+
+
+def haldane_ribbon_builder(width: int, *, potential=None) -> kwant.Builder:
+    """Haldane ribbon with zigzag edges, ``width`` zigzag chains, params ``t1``, ``t2``, ``phi``, ``M``.
+
+    The period is ``-b_1 = (sqrt 3, 0)``, so positions across the ribbon are
+    ``y`` as for every other ribbon of the project. The chains hold B at ``y = 3 j / 2 + 1`` and A at ``y = 3 j / 2 + 3 / 2``
+    (``j = 0 .. width - 1``), the zigzag termination of
+    :func:`topoedge.honeycomb.honeycomb_ribbon_builder`.
+
+    Parameters
+    ----------
+    width : int
+        Zigzag chains (``>= 2``).
+    potential : callable, optional
+        ``potential(d)``: edge potential (energy unit of the model) of a site
+        at the distance ``d`` from the nearer edge.
+    """
+    width = int(width)
+    if width < 2:
+        raise ValueError(f"a ribbon needs at least 2 zigzag chains, got {width}")
+    _, b = honeycomb_vectors()
+    ribbon = kwant.Builder(kwant.TranslationalSymmetry(tuple(-b[0])))
+    ribbon.fill(haldane_builder(), lambda site: 0.75 < site.pos[1] < 1.5 * width + 0.25, (0.0, 1.0))
+
+    def onsite_of(site, v):
+        sign = 1.0 if site.family.name.endswith("0") else -1.0
+
+        def onsite(site, M):
+            return sign * M + v
+        return onsite
+
+    return _with_potential(ribbon, onsite_of, potential, 1.0)

@@ -35,6 +35,7 @@ from . import __version__
 from .bloch import BlochHamiltonian
 from .builders import bulk_builder, model_params, ribbon_builder
 from .chern import ChernResult, Gap, chern_numbers, default_grid, path_bands, subspace_chern
+from .models import haldane_builder, haldane_ribbon_builder, qwz_builder, qwz_ribbon_builder
 from .honeycomb import (honeycomb_bulk_builder, honeycomb_magnetic_length, honeycomb_params,
                         honeycomb_ribbon_builder)
 from .config import Scenario, lattice_scenario
@@ -80,6 +81,10 @@ def _rashba(scenario: Scenario) -> bool:
 
 def _params(scenario: Scenario) -> dict:
     lat, spin = scenario.lattice, scenario.spin
+    if lat.kind == "qwz":
+        return dict(m=lat.mass)
+    if lat.kind == "haldane":
+        return dict(t1=1.0, t2=lat.t2, phi=lat.t2_phase, M=lat.staggered)
     if lat.kind == "honeycomb":
         return honeycomb_params(phi=lat.flux, zeeman=spin.zeeman, onsite=lat.onsite,
                                 staggered=lat.staggered, rashba=spin.rashba)
@@ -100,7 +105,7 @@ def _profile(scenario: Scenario):
 def scenario_potential(scenario: Scenario) -> np.ndarray:
     """Edge potential (units of t) of every row (square) or every site of the cell sorted across (honeycomb)."""
     edge = scenario.ribbon.edge
-    if scenario.lattice.kind == "honeycomb":
+    if scenario.lattice.kind != "square":
         ham, potential = build_ribbon(scenario)
         return potential
     return edge_potential(
@@ -116,11 +121,17 @@ def build_ribbon(scenario: Scenario) -> tuple[RibbonHamiltonian, np.ndarray]:
     the honeycomb lattice.
     """
     spin = scenario.spin.enabled
-    if scenario.lattice.kind == "honeycomb":
+    kind = scenario.lattice.kind
+    if kind != "square":
         profile = _profile(scenario) if scenario.ribbon.edge.profile != "none" else None
-        builder = honeycomb_ribbon_builder(scenario.ribbon.width,
-                                           orientation=scenario.ribbon.orientation or "zigzag",
-                                           spin=spin, potential=profile, rashba=_rashba(scenario))
+        width = scenario.ribbon.width
+        if kind == "qwz":
+            builder = qwz_ribbon_builder(width, potential=profile)
+        elif kind == "haldane":
+            builder = haldane_ribbon_builder(width, potential=profile)
+        else:
+            builder = honeycomb_ribbon_builder(width, orientation=scenario.ribbon.orientation or "zigzag",
+                                               spin=spin, potential=profile, rashba=_rashba(scenario))
         ham = RibbonHamiltonian.from_kwant(builder, params=_params(scenario), spin=spin)
         y = np.unique(ham.position)
         d = np.minimum(y - y.min(), y.max() - y)
@@ -135,6 +146,10 @@ def build_ribbon(scenario: Scenario) -> tuple[RibbonHamiltonian, np.ndarray]:
 def build_bulk(scenario: Scenario) -> BlochHamiltonian:
     """The bulk of a scenario: magnetic unit cell, no edge potential."""
     spin = scenario.spin.enabled
+    if scenario.lattice.kind == "qwz":
+        return BlochHamiltonian.from_kwant(qwz_builder(), params=_params(scenario), spin=False)
+    if scenario.lattice.kind == "haldane":
+        return BlochHamiltonian.from_kwant(haldane_builder(), params=_params(scenario), spin=False)
     if scenario.lattice.kind == "honeycomb":
         builder = honeycomb_bulk_builder(scenario.lattice.flux, spin=spin, rashba=_rashba(scenario))
     else:
@@ -221,6 +236,9 @@ def streda_route(scenario: Scenario, ef: float) -> tuple[StredaResult | None, st
     """Hall conductance from the density response at fixed E_F, or why not."""
     from dataclasses import replace
 
+    if scenario.lattice.kind in ("qwz", "haldane"):
+        return None, (f"no Streda route for the zero-field {scenario.lattice.kind} model "
+                      "(it has no flux to vary)")
     def bulk(phi):
         return build_bulk(replace(scenario, lattice=replace(scenario.lattice, flux=phi)))
 
@@ -564,7 +582,9 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
     lat = scenario.lattice
     phi = abs(float(lat.flux))
     honeycomb = lat.kind == "honeycomb"
-    if honeycomb:
+    if lat.kind in ("qwz", "haldane"):
+        scales = {"magnetic_length_a": None, "cyclotron_energy_t": None}
+    elif honeycomb:
         lb = honeycomb_magnetic_length(phi) if phi else None
         scales = {"magnetic_length_a": lb, "cyclotron_energy_t": None,
                   "landau_level_1_t": math.sqrt(2) * 1.5 / lb if lb else None}
@@ -600,7 +620,9 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
             "zeeman_t": scenario.spin.zeeman,
             "rashba_t": scenario.spin.rashba,
             **({"staggered_t": lat.staggered, "orientation": scenario.ribbon.orientation or "zigzag"}
-               if honeycomb else {}),
+               if lat.kind in ("honeycomb", "haldane") else {}),
+            **({"t2_t": lat.t2, "t2_phase_rad": lat.t2_phase} if lat.kind == "haldane" else {}),
+            **({"mass_t": lat.mass} if lat.kind == "qwz" else {}),
             **scales,
             "ribbon_width_sites": scenario.ribbon.width,
             "edge_profile": scenario.ribbon.edge.profile,

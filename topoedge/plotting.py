@@ -227,6 +227,8 @@ def plot_bulk_bands(path: dict, chern, *, ax, fermi_energy: float | None = None,
 
 def _title(result) -> str:
     sc = result.scenario
+    if sc.lattice.kind in ("qwz", "haldane"):
+        return f"{sc.title or 'scenario'}: {'Haldane' if sc.lattice.kind == 'haldane' else 'Qi-Wu-Zhang'} model"
     cell = "hexagon" if sc.lattice.kind == "honeycomb" else "plaquette"
     return f"{sc.title or 'scenario'}: flux {sc.lattice.flux} per {cell}"
 
@@ -234,7 +236,7 @@ def _title(result) -> str:
 def _ribbon_geometry(result) -> tuple[tuple[float, float] | None, str, str]:
     """Colour extent, period and length unit of a run's ribbon for the figures."""
     sc = result.scenario
-    if sc.lattice.kind != "honeycomb":
+    if sc.lattice.kind in ("square", "qwz"):
         return None, "a", "sites; 0 = bottom edge"
     pos = result.hamiltonian.position
     period = "sqrt(3) a_cc" if (sc.ribbon.orientation or "zigzag") == "zigzag" else "3 a_cc"

@@ -341,8 +341,14 @@ def format_summary(summary: dict) -> str:
         f"topoedge {summary['topoedge_version']}: {summary.get('title') or 'scenario'}"
         + (f" ({summary['source']})" if summary.get("source") else ""),
     ]
-    honeycomb = m.get("lattice") == "honeycomb"
-    if honeycomb:
+    honeycomb = m.get("lattice") in ("honeycomb", "haldane")
+    if m.get("lattice") == "haldane":
+        lines.append(f"  lattice      Haldane model (honeycomb, a_cc = 1, no field): t2 = {m['t2_t']:g} t, "
+                     f"phase {m['t2_phase_rad']:g} rad, sublattice mass M = {m['staggered_t']:g} t")
+    elif m.get("lattice") == "qwz":
+        lines.append(f"  lattice      Qi-Wu-Zhang model (square, no field): mass m = {m['mass_t']:g} t "
+                     "(two orbitals per site)")
+    elif honeycomb:
         staggered = f", staggered potential {m['staggered_t']:g} t" if m.get("staggered_t") else ""
         lines.append(f"  lattice      honeycomb (a_cc = 1), flux {m['flux']} flux quanta per hexagon{staggered} "
                      "(energies in units of t)")
@@ -359,6 +365,8 @@ def format_summary(summary: dict) -> str:
             f"hbar*omega_c = {m['cyclotron_energy_t']:.4f} t (effective-mass limit)"
         )
     spin = f"spin 1/2, Zeeman {m['zeeman_t']:g} t" if m["spin"] else "spinless"
+    if m.get("lattice") == "qwz":
+        spin = "spinless (the two orbitals of a site are not spin)"
     if m.get("rashba_t"):
         spin += f", Rashba {m['rashba_t']:g} t (S_z not conserved: total Chern numbers only)"
     lines.append(f"  spin         {spin}")
