@@ -341,3 +341,16 @@ def test_square_lattice_commands_refuse_what_they_would_drop(command, override, 
     assert status == 2
     assert match.format(command) in err and len(err.strip().splitlines()) == 1
     assert not (tmp_path / "out").exists()
+
+
+def test_square_lattice_rashba_bands_at_zero_field():
+    # Tight-binding Rashba model on the square lattice (common practice, from
+    # memory): E = -2 t (cos kx + cos ky) +- 2 lambda_R sqrt(sin^2 kx + sin^2 ky).
+    bloch = BlochHamiltonian.from_kwant(bulk_builder(Fraction(0), spin=True, rashba=True),
+                                        params=model_params(phi=0, rashba=0.3))
+    rng = np.random.default_rng(7)
+    k = rng.uniform(0, 2 * np.pi, size=(40, 2))
+    e = np.linalg.eigvalsh(bloch.at(k[:, 0], k[:, 1]))
+    band = -2 * (np.cos(k[:, 0]) + np.cos(k[:, 1]))
+    split = 2 * 0.3 * np.sqrt(np.sin(k[:, 0]) ** 2 + np.sin(k[:, 1]) ** 2)
+    assert np.allclose(e, np.stack([band - split, band + split], axis=1), atol=1e-12)

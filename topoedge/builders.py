@@ -60,6 +60,7 @@ __all__ = [
     "bulk_builder",
     "model_params",
     "landau_hopping",
+    "rashba_matrix",
 ]
 
 _PAULI_Z = np.diag([1.0, -1.0])
@@ -96,6 +97,16 @@ def model_params(
     return params
 
 
+def rashba_matrix(d) -> np.ndarray:
+    """``i (sigma_x d_y - sigma_y d_x)`` for the unit bond vector ``d`` (from site j to site i).
+
+    The Rashba hopping is ``lambda_R`` times this matrix (times the Peierls
+    factor); Kane and Mele, Phys. Rev. Lett. 95, 146802 (2005), Eq. (1).
+    """
+    dx, dy = d
+    return 1j * np.array([[0, dy + 1j * dx], [dy - 1j * dx, 0]])
+
+
 def landau_hopping(spin: bool, rashba: bool = False):
     """Hopping value function ``-t exp(-2 pi i phi y_j (x_i - x_j))`` (Landau gauge ``A = (-B y, 0)``).
 
@@ -110,8 +121,7 @@ def landau_hopping(spin: bool, rashba: bool = False):
 
         def rashba_hopping(site_i, site_j, t, phi, rashba):
             (xi, yi), (xj, yj) = site_i.pos, site_j.pos
-            dx, dy = xi - xj, yi - yj
-            soc = 1j * rashba * np.array([[0, dy + 1j * dx], [dy - 1j * dx, 0]])
+            soc = rashba * rashba_matrix((xi - xj, yi - yj))  # unit bonds on the square lattice
             return np.exp(-2j * np.pi * phi * yj * (xi - xj)) * (-t * unit + soc)
 
         return rashba_hopping

@@ -89,9 +89,11 @@ from fractions import Fraction
 import kwant
 import numpy as np
 
+from .builders import rashba_matrix
+
 __all__ = [
     "HEXAGON_AREA", "ORIENTATIONS", "honeycomb_lattice", "honeycomb_params",
-    "honeycomb_ribbon_builder", "honeycomb_bulk_builder", "rashba_matrix",
+    "honeycomb_ribbon_builder", "honeycomb_bulk_builder",
     "dirac_landau_level", "honeycomb_magnetic_length",
 ]
 
@@ -101,8 +103,6 @@ HEXAGON_AREA = 3.0 * math.sqrt(3.0) / 2.0
 ORIENTATIONS = ("zigzag", "armchair")
 
 _S3 = math.sqrt(3.0)
-_PAULI_X = np.array([[0, 1], [1, 0]], dtype=complex)
-_PAULI_Y = np.array([[0, -1j], [1j, 0]])
 _PAULI_Z = np.diag([1.0, -1.0])
 
 
@@ -145,12 +145,6 @@ def honeycomb_lattice(orientation: str = "zigzag", *, spin: bool = True) -> kwan
         return kwant.lattice.general([(0.0, _S3), (1.5, _S3 / 2)], [(0.0, 0.0), (1.0, 0.0)],
                                      norbs=norbs, name=["A", "B"])
     raise ValueError(f"orientation must be one of {ORIENTATIONS}, got {orientation!r}")
-
-
-def rashba_matrix(d) -> np.ndarray:
-    """``i (sigma_x d_y - sigma_y d_x)`` for the unit bond vector ``d`` (from j to i)."""
-    dx, dy = d
-    return 1j * (_PAULI_X * dy - _PAULI_Y * dx)
 
 
 def _hopping(spin: bool, rashba: bool, phase: Callable):
