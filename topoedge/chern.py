@@ -495,10 +495,16 @@ def subspace_chern(bloch: BlochHamiltonian, gap: Gap, *, grid: tuple[int, int]) 
     blocks = bloch.spin_blocks()
     sectors = [("up", blocks[0]), ("down", blocks[1])] if blocks is not None else [(None, None)]
     total, by_spin, weakest = 0, {}, 1.0
+    previous = None
     for spin, idx in sectors:
         part = bloch if idx is None else bloch.block(idx)
-        _, _, hk = part.grid(n1, n2)
-        energies, vectors = _batched_eigh(hk)
+        shift = _uniform_shift(previous[0], part) if previous is not None else None
+        if shift is None:
+            _, _, hk = part.grid(n1, n2)
+            energies, vectors = _batched_eigh(hk)
+        else:  # the other spin shifted by a uniform Zeeman term: same eigenvectors
+            energies, vectors = previous[1] + shift, previous[2]
+        previous = (part, energies, vectors)
         below = int(np.count_nonzero(energies[0, 0] < gap.middle))
         if np.any((energies.min(axis=(0, 1)) < gap.middle) != (energies.max(axis=(0, 1)) < gap.middle)):
             raise GapClosedError(f"a band of sector {spin or 'all'} crosses the gap at {gap.middle:.6g} t")
