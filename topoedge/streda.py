@@ -198,13 +198,28 @@ def _slope(bulk, flux, fermi_energy, centre, neighbours, q_max) -> StredaResult:
     # Nearest fluxes first. The gap must stay open from the centre to a
     # neighbour: on each side, the first flux with E_F in a band ends that
     # side (farther fluxes could have E_F in another gap of the butterfly).
+    # The gap must also be the same gap. Between rational fluxes of the
+    # butterfly the edges of one gap move by up to about its width (measured:
+    # 1.2 times it for the gap above one band at flux 2/5); a level that
+    # crosses E_F between two sampled fluxes (e.g. a Zeeman splitting near
+    # hbar omega_c, leaving a gap of 0.002 t at flux 1/40) makes an edge jump
+    # by tens to hundreds of widths, even when the band counts of the other
+    # gap still fit a line (they give slope -38 there). A neighbour whose
+    # gap edge moved by more than twice the centre's gap width is refused.
+    lo, hi = centre.gap
+    limit = 2.0 * (hi - lo)
+
+    def same_gap(point):
+        (lo2, hi2) = point.gap
+        return all(abs(b - a) < limit for a, b in ((lo, lo2), (hi, hi2)) if np.isfinite(a) and np.isfinite(b))
+
     closed = {-1: False, 1: False}
     for other in _candidates(flux, neighbours, q_max):
         side = 1 if other > flux else -1
         if closed[side]:
             continue
         point = states_below(bulk(other), fermi_energy, flux=other)
-        if point.gap is None:
+        if point.gap is None or not same_gap(point):
             closed[side] = True
             rejected.append(point)
         else:
