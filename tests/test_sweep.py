@@ -271,6 +271,32 @@ def test_sweep_figures(local_run, tmp_path):
     plt.close(lines["lines"])
 
 
+def test_honeycomb_sweep_over_edge_orientations(tmp_path):
+    # A sweep over a word-valued key (ribbon.orientation) on the honeycomb
+    # lattice: both edges carry the bulk Chern sum (+-1, +-3 near E = 0, the
+    # half-integer sequence; Hatsugai, Fukui, Aoki, PRB 74, 205414 (2006),
+    # from memory) and the map labels its cells with the words.
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    data = {"scenario": {"lattice": {"kind": "honeycomb", "flux": "1/16"}, "spin": {"enabled": False},
+                         "ribbon": {"width": 40}, "spectrum": {"k_points": 16}, "chern": {"refine": False}},
+            "axis": [{"key": "fermi.energy", "values": [-0.25, 0.25, 0.87]},
+                     {"key": "ribbon.orientation", "values": ["zigzag", "armchair"]}]}
+    sweep = parse_sweep(data)
+    run_sweep(sweep, tmp_path / "out", jobs=1)
+    rows = gather(sweep, tmp_path / "out")
+    assert [(r["fermi.energy"], r["ribbon.orientation"], r["chern"], r["bottom_net"]) for r in rows] == [
+        (e, o, c, c) for e, c in ((-0.25, -1), (0.25, 1), (0.87, 3)) for o in ("zigzag", "armchair")]
+    figures = sweep_figures(sweep, rows)
+    ax = figures["map-chern"].axes[0]
+    assert [t.get_text() for t in ax.get_yticklabels()] == ["zigzag", "armchair"]
+    for fig in figures.values():
+        plt.close(fig)
+
+
 def test_command_writes_table_and_figures(tmp_path):
     data = {**SWEEP, "axis": [{"key": "spin.zeeman", "values": [0.0, 0.2]}],
             "plot": {"quantities": ["bottom_pairs", "outermost_spin_bottom"]}}

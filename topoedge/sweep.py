@@ -599,6 +599,11 @@ def sweep_figures(sweep: Sweep, rows: list[dict]) -> dict:
             if handles:
                 ax.legend(handles=handles, title=q, fontsize=8, title_fontsize=8, loc="upper left",
                           bbox_to_anchor=(1.01, 1.0))
+            # Axes of words (or numbers out of order) get one labelled cell per value.
+            if _by_index(xs):
+                ax.set_xticks(range(len(xs)), [str(v) for v in xs])
+            if _by_index(ys):
+                ax.set_yticks(range(len(ys)), [str(v) for v in ys])
             ax.set_xlabel(ax_x.key)
             ax.set_ylabel(ax_y.key)
             ax.set_title(f"{title}\n{q}: {QUANTITIES[q][1]}", fontsize=9)
@@ -644,10 +649,16 @@ def _level_order(text: str):
         return (1, 0.0, text)
 
 
+def _by_index(values: Sequence) -> bool:
+    """True when an axis is drawn by position (not numbers, a single value, or not increasing)."""
+    x = _numeric(list(values))
+    return x is None or len(x) < 2 or bool(np.any(np.diff(x) <= 0))
+
+
 def _cell_edges(values: Sequence) -> np.ndarray:
     """Edges of cells centred on the axis values (equal cells when they are not numbers)."""
     x = _numeric(list(values))
-    if x is None or len(x) < 2 or np.any(np.diff(x) <= 0):
+    if _by_index(values):
         return np.arange(len(values) + 1, dtype=float) - 0.5
     mid = (x[1:] + x[:-1]) / 2
     return np.concatenate([[x[0] - (mid[0] - x[0])], mid, [x[-1] + (x[-1] - mid[-1])]])
