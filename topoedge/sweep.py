@@ -378,7 +378,16 @@ def _submitter(executor: str, jobs: int, scheduler: str | None):
 
         pool = ProcessPoolExecutor(max_workers=jobs, mp_context=multiprocessing.get_context("spawn"),
                                    initializer=init_worker)
-        return (lambda config: pool.submit(run_point, config)), as_completed, lambda: stop_pool(pool)
+
+        def close_pool(graceful: bool = False) -> None:
+            # Every point done: let the workers exit and the pool release its
+            # queues (no leaked semaphores); otherwise end the workers now.
+            if graceful:
+                pool.shutdown(wait=True)
+            else:
+                stop_pool(pool)
+
+        return (lambda config: pool.submit(run_point, config)), as_completed, close_pool
     from dask.distributed import Client, LocalCluster, as_completed
 
     if scheduler is not None:
@@ -389,7 +398,7 @@ def _submitter(executor: str, jobs: int, scheduler: str | None):
                                host="127.0.0.1")
         client = Client(cluster)
 
-    def close():
+    def close(graceful: bool = False):
         client.close()
         if cluster is not None:
             cluster.close()
@@ -461,6 +470,7 @@ def run_sweep(sweep: Sweep, out: Path, *, executor: str = "local", jobs: int | N
         from tqdm.auto import tqdm
 
         bar = tqdm(total=len(todo), disable=not progress, desc="sweep points", unit="point")
+        done = False
         try:
             futures = {submit(point["config"]): (key, point) for key, point in todo}
             for future in completed(list(futures)):
@@ -475,9 +485,10 @@ def run_sweep(sweep: Sweep, out: Path, *, executor: str = "local", jobs: int | N
                 bar.set_postfix_str(f"done {computed - failed}, failed {failed}, remaining {len(todo) - computed}")
                 if on_point is not None:
                     on_point(record)
+            done = True
         finally:
             bar.close()
-            close()
+            close(graceful=done)
     return {"total": skipped + len(todo), "skipped": skipped, "computed": computed, "failed": failed,
             "seconds": time.perf_counter() - start}
 
