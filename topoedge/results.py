@@ -496,8 +496,10 @@ def _subspace_note(sub: dict | None) -> str:
     if not sub:
         return ""
     if sub["agree"]:
-        return f" (the occupied subspace as a whole: the same, smallest link {sub['link_min']:.2f})"
-    return f" (the occupied subspace as a whole: C = {sub['chern']}: DIFFERENT, refine chern.grid)"
+        return (f" (the occupied subspace as a whole on {sub['grid'][0]}x{sub['grid'][1]}: the same, "
+                f"smallest link {sub['link_min']:.2f})")
+    return (f" (the occupied subspace as a whole on {sub['grid'][0]}x{sub['grid'][1]}: C = {sub['chern']}: "
+            "DIFFERENT, refine chern.grid)")
 
 
 def _topology_lines(summary: dict) -> list[str]:
