@@ -13,7 +13,7 @@ replaced only when asked to (``force=True``).
 ``/y_mean``, ``/y_spread``  (Nk, M) mean position across and its spread
 ``/sz``                 (Nk, M) <S_z>, NaN for spinless models
 ``/count``              (Nk,) valid states per momentum
-``/potential``          (W,) edge potential of every row
+``/potential``          (W,) edge potential of every row (one per site position across on the honeycomb lattice)
 ``/bulk``               bulk bands (energy ranges, Chern numbers, spin +1/-1/0),
                         gaps (bands below, energy range, Chern sum) and the
                         bands along Gamma-X-M-Gamma (``path_*``)
