@@ -354,3 +354,40 @@ def test_square_lattice_rashba_bands_at_zero_field():
     band = -2 * (np.cos(k[:, 0]) + np.cos(k[:, 1]))
     split = 2 * 0.3 * np.sqrt(np.sin(k[:, 0]) ** 2 + np.sin(k[:, 1]) ** 2)
     assert np.allclose(e, np.stack([band - split, band + split], axis=1), atol=1e-12)
+
+
+@pytest.mark.parametrize("orientation", ["zigzag", "armchair"])
+def test_honeycomb_ribbon_bands_equal_kwant_bands(orientation):
+    # Reference library check: kwant.physics.Bands of the same finalized
+    # ribbon (flux 1/9, Zeeman, staggered potential, Rashba, a tanh edge)
+    # gives the energies of the project's ribbon spectrum at every momentum.
+    builder = honeycomb_ribbon_builder(12, orientation=orientation, spin=True, rashba=True,
+                                       potential=lambda d: 0.4 * (1 - np.tanh(d / 2)))
+    params = honeycomb_params(phi=Fraction(1, 9), zeeman=0.1, staggered=0.05, rashba=0.07)
+    ham = RibbonHamiltonian.from_kwant(builder, params=params)
+    k = np.linspace(-np.pi, np.pi, 13)
+    ours = ribbon_spectrum(ham, k, observables=False).energy
+    bands = kwant.physics.Bands(builder.finalized(), params=params)
+    reference = np.array([np.sort(bands(kk)) for kk in k])
+    assert np.allclose(ours, reference, atol=1e-10)
+
+
+def test_the_two_gauges_give_the_same_landau_levels():
+    # The bulk (phase on one bond family) and the ribbon (Landau gauge along
+    # the bonds) describe the same field: states in the middle of a wide
+    # zigzag ribbon lie inside the bulk bands of the levels n = 0, +-1 at
+    # flux 1/20 (each a valley pair, 0.01 t wide), and each level is seen.
+    # Gauge invariance: common practice.
+    phi = Fraction(1, 20)
+    _, _, hk = _bulk(phi).grid(24, 24)
+    e = np.linalg.eigvalsh(hk).reshape(-1, 40)
+    lo, hi = e.min(axis=0), e.max(axis=0)
+    ham = _ribbon(60, "zigzag", phi=phi)
+    spec = ribbon_spectrum(ham, np.linspace(-np.pi, np.pi, 41, endpoint=False))
+    centre = np.abs(spec.y_mean - 0.5 * (ham.position.min() + ham.position.max())) < 10
+    found = spec.energy[centre & (np.abs(spec.energy) < 0.9)]
+    assert found.size > 20
+    inside = (found[:, None] >= lo[None, :] - 1e-4) & (found[:, None] <= hi[None, :] + 1e-4)
+    assert inside.any(axis=1).all()
+    for level in (-0.7, 0.0, 0.7):  # every level is seen in the ribbon
+        assert np.min(np.abs(found - level)) < 0.02
