@@ -257,6 +257,30 @@ def _uniform_shift(a: BlochHamiltonian, b: BlochHamiltonian) -> float | None:
     return c if np.abs(diff - expected).max(initial=0.0) <= tol else None
 
 
+def _sectors_on_grid(bloch: BlochHamiltonian, n1: int, n2: int):
+    """Eigenpairs on the ``n1 x n2`` grid of every spin sector (or of the whole ``bloch``).
+
+    Yields ``(spin, part, k1, k2, energies, vectors, fresh)``. A sector equal
+    to the previous one plus a constant (a uniform Zeeman term) is not
+    diagonalised again: it gets the previous eigenvectors and shifted
+    energies, with ``fresh`` False.
+    """
+    blocks = bloch.spin_blocks()
+    sectors = [("up", blocks[0]), ("down", blocks[1])] if blocks is not None else [(None, None)]
+    previous = None
+    for spin, idx in sectors:
+        part = bloch if idx is None else bloch.block(idx)
+        shift = _uniform_shift(previous[0], part) if previous is not None else None
+        if shift is None:
+            k1, k2, hk = part.grid(n1, n2)
+            energies, vectors = _batched_eigh(hk)
+        else:
+            _, k1, k2, energies, vectors = previous
+            energies = energies + shift
+        previous = (part, k1, k2, energies, vectors)
+        yield spin, part, k1, k2, energies, vectors, shift is None
+
+
 def _single_band_chern(vectors: np.ndarray) -> list[tuple[float, float]]:
     """:func:`link_chern` of every band on its own, in one pass over the grid."""
     n1, n2 = vectors.shape[:2]
@@ -329,25 +353,15 @@ def chern_numbers(
         raise ValueError(f"the momentum grid needs at least 3 x 3 points, got {n1} x {n2}")
     if not gap_min > 0:
         raise ValueError(f"gap_min must be > 0, got {gap_min}")
-    blocks = bloch.spin_blocks()
-    sectors = [("up", blocks[0]), ("down", blocks[1])] if blocks is not None else [(None, None)]
-
-    groups, sector_bands = [], []
-    previous = None
-    for spin, idx in sectors:
-        part = bloch if idx is None else bloch.block(idx)
-        shift = _uniform_shift(previous[0], part) if previous is not None else None
-        if shift is None:
-            k1, k2, hk = part.grid(n1, n2)
-            energies, vectors = _batched_eigh(hk)
+    groups, sector_bands, spins = [], [], []
+    for spin, part, k1, k2, energies, vectors, fresh in _sectors_on_grid(bloch, n1, n2):
+        spins.append(spin)
+        if fresh:
             direct = np.diff(energies, axis=-1)            # (n1, n2, n - 1)
             gap_sizes = [_refined_gap(part, j, k1, k2, direct[..., j]) for j in range(part.size - 1)]
-        else:
-            # This sector is the previous one plus a constant (a uniform Zeeman
-            # term): same eigenvectors and gaps, shifted energies.
-            energies, vectors, gap_sizes = previous[1] + shift, previous[2], previous[3]
-        previous = (part, energies, vectors, gap_sizes)
-        single = _single_band_chern(vectors)
+            single = _single_band_chern(vectors)
+        # else: a copy of the previous sector shifted by a constant: the same
+        # gaps and Chern numbers.
         start = 0
         for j in range(part.size):
             last = j == part.size - 1
@@ -376,7 +390,6 @@ def chern_numbers(
         for pos, i in enumerate(order)
     )
     gaps = []
-    spins = [s for s, _ in sectors]
     for r in range(1, len(bands)):
         top = max(b.energy_max for b in bands[:r])
         bottom = min(b.energy_min for b in bands[r:])
@@ -492,19 +505,8 @@ def subspace_chern(bloch: BlochHamiltonian, gap: Gap, *, grid: tuple[int, int]) 
        (2005) (the multi-band link variables).
     """
     n1, n2 = grid
-    blocks = bloch.spin_blocks()
-    sectors = [("up", blocks[0]), ("down", blocks[1])] if blocks is not None else [(None, None)]
     total, by_spin, weakest = 0, {}, 1.0
-    previous = None
-    for spin, idx in sectors:
-        part = bloch if idx is None else bloch.block(idx)
-        shift = _uniform_shift(previous[0], part) if previous is not None else None
-        if shift is None:
-            _, _, hk = part.grid(n1, n2)
-            energies, vectors = _batched_eigh(hk)
-        else:  # the other spin shifted by a uniform Zeeman term: same eigenvectors
-            energies, vectors = previous[1] + shift, previous[2]
-        previous = (part, energies, vectors)
+    for spin, _, _, _, energies, vectors, _ in _sectors_on_grid(bloch, n1, n2):
         below = int(np.count_nonzero(energies[0, 0] < gap.middle))
         if np.any((energies.min(axis=(0, 1)) < gap.middle) != (energies.max(axis=(0, 1)) < gap.middle)):
             raise GapClosedError(f"a band of sector {spin or 'all'} crosses the gap at {gap.middle:.6g} t")
