@@ -391,3 +391,12 @@ def test_the_two_gauges_give_the_same_landau_levels():
     assert inside.any(axis=1).all()
     for level in (-0.7, 0.0, 0.7):  # every level is seen in the ribbon
         assert np.min(np.abs(found - level)) < 0.02
+
+
+def test_bench_refuses_other_lattices(capsys):
+    # The benchmark builds square-lattice ribbons: a honeycomb scenario is refused, not timed as a square one.
+    from topoedge import cli
+
+    assert cli.main(["bench", "--set", "lattice.kind=honeycomb", "--parts", "ribbon"]) == 2
+    err = capsys.readouterr().err
+    assert "lattice.kind: got 'honeycomb'; `topoedge bench` is built for the square lattice only" in err

@@ -270,3 +270,16 @@ def test_bad_preset_keys_are_refused(data, match):
 
     with pytest.raises(ConfigError, match=match):
         parse_scenario(data)
+
+
+def test_ribbon_edge_potential_keeps_the_model_on_site_terms():
+    # A zero edge profile leaves the Haldane (M != 0) and QWZ ribbons exactly
+    # as without one: the rebuilt on-site terms keep +-M per sublattice and m sigma_z.
+    from topoedge.hamiltonian import RibbonHamiltonian
+    from topoedge.models import haldane_ribbon_builder, qwz_ribbon_builder
+
+    for make, params in ((haldane_ribbon_builder, dict(t1=1.0, t2=0.1, phi=np.pi / 2, M=0.2)),
+                         (qwz_ribbon_builder, dict(m=1.3))):
+        plain = RibbonHamiltonian.from_kwant(make(10), params=params, spin=False)
+        zero = RibbonHamiltonian.from_kwant(make(10, potential=lambda d: 0 * d), params=params, spin=False)
+        assert np.array_equal(plain.h0, zero.h0) and np.array_equal(plain.h1, zero.h1)

@@ -297,6 +297,7 @@ def _cmd_bench(args) -> int:
             f"--chern-q {args.chern_q}; expected width >= 2, k-points >= 2, window > 0 and chern-q >= 2"
         )
     scenario = load_scenario(args.config, args.overrides)
+    _square_lattice_only(scenario, "bench")
     report = {}
     if "ribbon" in parts:
         _say(args, f"ribbon benchmark: W = {args.width} sites per spin, {args.k_points} k points "

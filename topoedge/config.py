@@ -850,7 +850,7 @@ def _check_combinations(s: Scenario) -> None:
     edge, width = s.ribbon.edge, s.ribbon.width
     span = ribbon_span(s)
     if edge.width > span / 2:
-        across = f", {span:g} a_cc across" if s.lattice.kind == "honeycomb" else ""
+        across = f", {span:g} a_cc across" if s.lattice.kind in ("honeycomb", "haldane") else ""
         raise ConfigError(f"ribbon.edge.width: got {edge.width!r}, wider than half the ribbon "
                           f"(ribbon.width = {width}{across}); expected at most {span / 2:g}")
     if edge.profile == "table" and not edge.table:
@@ -909,15 +909,13 @@ def _check_lattice(s: Scenario) -> None:
         if value != 0 and lat.kind not in kinds:
             raise ConfigError(f"{key}: got {value!r} with lattice.kind = {lat.kind!r}; expected 0 (it belongs "
                               f"to lattice.kind = {' or '.join(map(repr, kinds))})")
-    if lat.kind in ZERO_FIELD and s.ribbon.orientation not in (None, "zigzag") or (
-            lat.kind == "qwz" and s.ribbon.orientation is not None):
-        raise ConfigError(f"ribbon.orientation: got {s.ribbon.orientation!r} with lattice.kind = {lat.kind!r}; "
-                          "expected no orientation" + (" or 'zigzag'" if lat.kind == "haldane" else ""))
+    allowed = {"honeycomb": ORIENTATIONS, "haldane": ("zigzag",)}.get(lat.kind, ())
+    if s.ribbon.orientation is not None and s.ribbon.orientation not in allowed:
+        where = "on the square lattice" if lat.kind == "square" else f"with lattice.kind = {lat.kind!r}"
+        hint = (" (zigzag and armchair edges need lattice.kind = 'honeycomb')" if lat.kind == "square" else "")
+        raise ConfigError(f"ribbon.orientation: got {s.ribbon.orientation!r} {where}; expected no orientation"
+                          + "".join(f" or {o!r}" for o in allowed) + hint)
     if lat.kind == "square":
-        if s.ribbon.orientation is not None:
-            raise ConfigError(f"ribbon.orientation: got {s.ribbon.orientation!r} on the square lattice; "
-                              "expected no orientation (zigzag and armchair edges need "
-                              "lattice.kind = 'honeycomb')")
         return
     for enabled, key, what in (
         (s.field.b_tesla is not None, "field.b_tesla", "[material] and [field]"),

@@ -129,19 +129,19 @@ def haldane_builder() -> kwant.Builder:
     return syst
 
 
-def _with_potential(ribbon: kwant.Builder, onsite_of, potential, across: float) -> kwant.Builder:
-    """Replace every on-site value by ``onsite_of(site)`` plus ``potential(d)``.
+def _with_potential(ribbon: kwant.Builder, onsite_of, potential) -> kwant.Builder:
+    """Replace every on-site value by ``onsite_of(site, V)``, ``V = potential(d)``.
 
-    ``onsite_of(site)`` returns the model's on-site value function of that
-    site; ``d`` is the distance (units of the model's length) from the nearer
-    edge, measured along the coordinate ``across * y``.
+    ``onsite_of(site, v)`` returns the model's on-site value function of that
+    site with ``v`` added; ``d`` is the distance (units of the model's length)
+    of the site from the nearer edge along ``y``.
     """
     if potential is None:
         return ribbon
-    ys = [across * s.pos[1] for s in ribbon.sites()]
+    ys = [s.pos[1] for s in ribbon.sites()]
     lo, hi = min(ys), max(ys)
     for site in list(ribbon.sites()):
-        d = min(across * site.pos[1] - lo, hi - across * site.pos[1])
+        d = min(site.pos[1] - lo, hi - site.pos[1])
         v = float(potential(np.asarray([max(d, 0.0)]))[0])
         ribbon[site] = onsite_of(site, v)
     return ribbon
@@ -168,7 +168,7 @@ def qwz_ribbon_builder(width: int, *, potential=None) -> kwant.Builder:
             return m * _SZ + v * np.eye(2)
         return onsite
 
-    return _with_potential(ribbon, onsite_of, potential, 1.0)
+    return _with_potential(ribbon, onsite_of, potential)
 
 
 def haldane_ribbon_builder(width: int, *, potential=None) -> kwant.Builder:
@@ -195,10 +195,11 @@ def haldane_ribbon_builder(width: int, *, potential=None) -> kwant.Builder:
     ribbon.fill(haldane_builder(), lambda site: 0.75 < site.pos[1] < 1.5 * width + 0.25, (0.0, 1.0))
 
     def onsite_of(site, v):
-        sign = 1.0 if site.family.name.endswith("0") else -1.0
+        y = site.pos[1] / 1.5  # A sites at y = 3 n / 2, B sites at 3 n / 2 + 1
+        sign = 1.0 if abs(y - round(y)) < 1e-9 else -1.0
 
         def onsite(site, M):
             return sign * M + v
         return onsite
 
-    return _with_potential(ribbon, onsite_of, potential, 1.0)
+    return _with_potential(ribbon, onsite_of, potential)

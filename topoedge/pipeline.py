@@ -36,9 +36,9 @@ from .bloch import BlochHamiltonian
 from .builders import bulk_builder, model_params, ribbon_builder
 from .chern import ChernResult, Gap, chern_numbers, default_grid, path_bands, subspace_chern
 from .models import haldane_builder, haldane_ribbon_builder, qwz_builder, qwz_ribbon_builder
-from .honeycomb import (honeycomb_bulk_builder, honeycomb_magnetic_length, honeycomb_params,
-                        honeycomb_ribbon_builder)
-from .config import Scenario, lattice_scenario
+from .honeycomb import (dirac_landau_level, honeycomb_bulk_builder, honeycomb_magnetic_length,
+                        honeycomb_params, honeycomb_ribbon_builder)
+from .config import ZERO_FIELD, Scenario, lattice_scenario
 from .units import VON_KLITZING, Derived
 from .edges import EdgeCount, count_edge_modes
 from .hamiltonian import RibbonHamiltonian
@@ -103,11 +103,15 @@ def _profile(scenario: Scenario):
 
 
 def scenario_potential(scenario: Scenario) -> np.ndarray:
-    """Edge potential (units of t) of every row (square) or every site of the cell sorted across (honeycomb)."""
+    """Edge potential (units of t) of every row of a square-lattice scenario's ribbon.
+
+    The other lattices evaluate the profile at every site (:func:`build_ribbon`
+    returns it with the ribbon).
+    """
     edge = scenario.ribbon.edge
     if scenario.lattice.kind != "square":
-        ham, potential = build_ribbon(scenario)
-        return potential
+        raise ValueError(f"scenario_potential gives rows of the square lattice; lattice.kind is "
+                         f"{scenario.lattice.kind!r}: use build_ribbon")
     return edge_potential(
         scenario.ribbon.width, edge.profile, ramp=edge.width, height=edge.height, table=edge.table
     )
@@ -157,7 +161,8 @@ def build_bulk(scenario: Scenario) -> BlochHamiltonian:
     return BlochHamiltonian.from_kwant(builder, params=_params(scenario), spin=spin)
 
 
-def bulk_chern(scenario: Scenario) -> tuple[ChernResult, ChernResult | None, dict]:
+def bulk_chern(scenario: Scenario, bloch: BlochHamiltonian | None = None
+               ) -> tuple[ChernResult, ChernResult | None, dict]:
     """Chern numbers of the bulk on the configured grid and, optionally, a finer one.
 
     Returns
@@ -167,9 +172,11 @@ def bulk_chern(scenario: Scenario) -> tuple[ChernResult, ChernResult | None, dic
         The same on a grid 1.5 times finer in each direction (``chern.refine``).
     path : dict
         Bulk bands along Gamma-X-M-Gamma, for the figure.
+
+    ``bloch`` is the scenario's bulk when the caller has built it already.
     """
     cfg = scenario.chern
-    bloch = build_bulk(scenario)
+    bloch = bloch if bloch is not None else build_bulk(scenario)
     grid = cfg.grid or default_grid(bloch)
     result = chern_numbers(bloch, grid=grid, gap_min=cfg.gap_min)
     refined = None
@@ -207,7 +214,8 @@ def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
     start = time.perf_counter()
     given = scenario
     scenario, units = lattice_scenario(scenario)
-    chern, refined, path = bulk_chern(scenario)
+    bulk = build_bulk(scenario)
+    chern, refined, path = bulk_chern(scenario, bulk)
     ef, gap = fermi_level(scenario, chern)
     ham, potential = build_ribbon(scenario)
     window = None
@@ -226,7 +234,7 @@ def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
         # The occupied subspace as a whole needs far fewer points than the
         # bands one by one (that is what makes it a useful check): half the grid.
         grid = tuple(max(12, (n + 1) // 2) for n in chern.grid)
-        subspace = subspace_chern(build_bulk(scenario), gap, grid=grid)
+        subspace = subspace_chern(bulk, gap, grid=grid)
     streda, streda_error = streda_route(scenario, ef)
     hallbar, hallbar_error = hallbar_route(scenario, ef) if scenario.hallbar.enabled else (None, None)
     summary = summarize(scenario, spec, potential, chern=chern, refined=refined, ef=ef, gap=gap,
@@ -241,7 +249,7 @@ def streda_route(scenario: Scenario, ef: float) -> tuple[StredaResult | None, st
     """Hall conductance from the density response at fixed E_F, or why not."""
     from dataclasses import replace
 
-    if scenario.lattice.kind in ("qwz", "haldane"):
+    if scenario.lattice.kind in ZERO_FIELD:
         return None, (f"no Streda route for the zero-field {scenario.lattice.kind} model "
                       "(it has no flux to vary)")
     def bulk(phi):
@@ -587,12 +595,12 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
     lat = scenario.lattice
     phi = abs(float(lat.flux))
     honeycomb = lat.kind == "honeycomb"
-    if lat.kind in ("qwz", "haldane"):
+    if lat.kind in ZERO_FIELD:
         scales = {"magnetic_length_a": None, "cyclotron_energy_t": None}
     elif honeycomb:
         lb = honeycomb_magnetic_length(phi) if phi else None
         scales = {"magnetic_length_a": lb, "cyclotron_energy_t": None,
-                  "landau_level_1_t": math.sqrt(2) * 1.5 / lb if lb else None}
+                  "landau_level_1_t": dirac_landau_level(1, phi) if phi else None}
     else:
         scales = {"magnetic_length_a": (1.0 / math.sqrt(2 * math.pi * phi)) if phi else None,
                   "cyclotron_energy_t": 4 * math.pi * phi}

@@ -12,6 +12,7 @@ import numpy as np
 from matplotlib import colors
 from matplotlib.lines import Line2D
 
+from .config import ZERO_FIELD
 from .spectrum import RibbonSpectrum
 
 __all__ = [
@@ -227,7 +228,7 @@ def plot_bulk_bands(path: dict, chern, *, ax, fermi_energy: float | None = None,
 
 def _title(result) -> str:
     sc = result.scenario
-    if sc.lattice.kind in ("qwz", "haldane"):
+    if sc.lattice.kind in ZERO_FIELD:
         return f"{sc.title or 'scenario'}: {'Haldane' if sc.lattice.kind == 'haldane' else 'Qi-Wu-Zhang'} model"
     cell = "hexagon" if sc.lattice.kind == "honeycomb" else "plaquette"
     return f"{sc.title or 'scenario'}: flux {sc.lattice.flux} per {cell}"
