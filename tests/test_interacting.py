@@ -118,7 +118,7 @@ def test_coulomb_strength_from_the_material_is_e2_over_eps_a():
     assert inter.coulomb == pytest.approx(u_c / t, rel=1e-9)
     assert inter.onsite == pytest.approx(CELL_AVERAGE * u_c / t, rel=1e-9)
     # nu = n h / (e B) = 2.0 at this density: two filled spin bands per flux quantum.
-    assert model.fermi.gap == 2 * model.lattice.flux.numerator
+    assert model.fermi.gap == 2 * abs(model.lattice.flux.numerator)
     with pytest.raises(ConfigError, match=r"^interaction\.coulomb: given together with \[material\]"):
         parse_scenario({**s.to_dict(), "interaction": {"coulomb": 0.3}})
 

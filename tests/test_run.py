@@ -203,12 +203,15 @@ VON_KLITZING_OHM = 25812.80745930
 
 @pytest.mark.parametrize("gap", [1, 2], ids=["C=1", "C=2"])
 def test_hall_resistance_is_h_over_c_e2(flux20, gap):
+    # R_xy = -1/sigma_xy (rho_xy at sigma_xx = 0, common practice): the
+    # positive lattice flux 1/20 is a field along -z for electrons, so
+    # sigma_xy = +C e^2/h and R_xy = -h/(C e^2).
     hall = flux20[gap].summary["hall"]
     c = flux20[gap].summary["bulk"]["chern_below_fermi"]
     assert c == gap
     assert hall["sigma_xy"] == c  # units of e^2/h
-    assert hall["r_xy_ohm"] == pytest.approx(const.h / (c * const.e**2), rel=1e-12, abs=0)
-    assert c * hall["r_xy_ohm"] == pytest.approx(VON_KLITZING_OHM, rel=1e-12, abs=0)
+    assert hall["r_xy_ohm"] == pytest.approx(-const.h / (c * const.e**2), rel=1e-12, abs=0)
+    assert -c * hall["r_xy_ohm"] == pytest.approx(VON_KLITZING_OHM, rel=1e-12, abs=0)
 
 
 # ------------------------------------------------- 3. TKNN through the pipeline

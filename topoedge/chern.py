@@ -122,6 +122,13 @@ class ChernResult:
     groups: tuple[BandGroup, ...]
     gaps: tuple[Gap, ...]
     sectors: tuple = field(default=(None,))
+    #: "dense" (every band at every grid point) or "landau" (the lowest bands
+    #: only, :mod:`topoedge.landau`).
+    solver: str = "dense"
+    #: Number of all bands of the cell (None: ``len(bands)``, every band computed).
+    total_bands: int | None = None
+    #: Energy (t) above which bands were not computed (inf: all computed).
+    energy_ceiling: float = np.inf
 
     def gap_at(self, energy: float) -> Gap:
         """The spectral gap containing ``energy``.
@@ -142,6 +149,9 @@ class ChernResult:
         for gap in self.gaps:
             if gap.energy_min < energy < gap.energy_max:
                 return gap
+        if energy >= self.energy_ceiling:
+            raise GapClosedError(f"E_F = {energy:.6g} t lies above the {len(self.bands)} bands computed "
+                                 f"(up to {self.energy_ceiling:.6g} t); compute more bands")
         if energy < self.bands[0].energy_min:
             return Gap(0, -np.inf, self.bands[0].energy_min, 0, self._zero_spin(), np.inf)
         if energy > self.bands[-1].energy_max:
@@ -156,9 +166,12 @@ class ChernResult:
         GapClosedError
             If that gap is closed, naming the overlapping bands or the direct gap.
         """
-        n = len(self.bands)
+        n = self.total_bands or len(self.bands)
         if not 1 <= r < n:
             raise GapClosedError(f"fermi.gap = {r}: expected 1 <= gap < {n} (the number of bulk bands)")
+        if r >= len(self.bands):
+            raise GapClosedError(f"fermi.gap = {r}: only the lowest {len(self.bands)} bands were computed; "
+                                 "compute more bands")
         for gap in self.gaps:
             if gap.below == r:
                 return gap

@@ -156,7 +156,9 @@ def _cmd_run(args) -> int:
         restart, restart_model = read_restart(args.restart)
     out = args.out if args.out is not None else _default_out(args.config)
     check_destination(out, force=args.force)
-    progress = sys.stdout.isatty() and not args.quiet
+    from .progress import Progress, progress_mode
+
+    progress = Progress(progress_mode(quiet=args.quiet))
     checkpoint_path = None
     if scenario.interaction.enabled:
         from .interacting import run_interacting  # imports kwant: only once the input is valid
@@ -182,7 +184,7 @@ def _cmd_run(args) -> int:
         try:
             result = run_interacting(scenario, restart=restart, restart_model=restart_model,
                                      checkpoint=checkpoint, checkpoint_every=args.checkpoint_every,
-                                     progress=progress)
+                                     progress=progress.bar)
         except KeyboardInterrupt:
             if checkpoint_path.exists():
                 print(f"topoedge: interrupted; no results folder was written. Continue with: "
@@ -432,7 +434,8 @@ def _cmd_hallbar(args) -> int:
             scan = hallbar_field_scan(scenario, np.linspace(*fields), jobs=args.jobs, progress=progress)
         except ValueError as err:
             raise ConfigError(f"hallbar --fields: {err}") from None
-        axis, units = "b_tesla", ("B in tesla (b_used_tesla: the field of the rounded flux); E_F fixed "
+        axis, units = "b_tesla", ("B in tesla along +z for B > 0 (b_lattice_tesla: the field of the lattice flux, "
+                                  "within field.tolerance); E_F fixed "
                                   "(fermi_t in t, fermi_mev above the band bottom)")
     else:
         if window is None:
@@ -491,12 +494,6 @@ def _cmd_hallbar(args) -> int:
     _say(args, f"topoedge hallbar: {len(xs)} {what} from {xs[0]:.4f} to {xs[-1]:.4f} {unit}"
                + ("" if fields is None else f" at {where}")
                + f", {ok} solved, {len(scan['errors'])} without open channels in every lead")
-    if fields is not None:
-        off = [(b, u) for b, u in zip(scan["b_tesla"], scan["b_used_tesla"]) if abs(u - b) > 0.02 * abs(b)]
-        if off:
-            b, u = max(off, key=lambda p: abs(p[1] - p[0]) / abs(p[0]))
-            _say(args, f"  warning      {len(off)} field(s) differ from the flux actually used by more than 2 % "
-                       f"(worst: {b:g} T -> {u:.4g} T); raise field.q_max (now {scenario.field.q_max})")
     _say(args, f"  results      {out}/ (summary.json, hallbar.h5, hallbar.png)")
     return 0
 

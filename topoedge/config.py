@@ -209,16 +209,25 @@ class ChernConfig:
     ----------
     grid : (int, int) or None
         Momentum grid over the magnetic Brillouin zone; None chooses
-        2 points per band in each direction (at least 12).
+        2 points per band in each direction (at least 12). The
+        Landau-level solver uses ``q x n2`` with ``n2`` the second entry
+        (default 8).
     gap_min : float
         Direct gaps below this (t) count as closed.
     refine : bool
-        Repeat the count on a grid 1.5 times finer and report both.
+        Repeat the count on a grid 1.5 times finer and report both (the
+        Landau-level solver: twice as many ``k1`` and 1.5 times as many
+        ``k2``).
+    solver : str
+        "auto", "dense" (every band of the magnetic cell at every grid
+        point) or "landau" (only the bands up to a few Landau levels above
+        E_F; square lattice with S_z conserved).
     """
 
     grid: tuple[int, int] | None = None
     gap_min: float = 1e-5
     refine: bool = True
+    solver: str = "auto"
 
 
 @dataclass(frozen=True)
@@ -249,15 +258,17 @@ class MaterialConfig:
         Effective g factor (negative for GaAs).
     permittivity : float or None
         Relative permittivity ``eps_r``.
-    lattice_constant_nm : float or None
-        Discretisation ``a`` in nm.
+    lattice_constant_nm : float, "auto" or None
+        Discretisation ``a`` in nm; "auto" chooses it so that the flux is
+        exactly ``1/q`` at the field asked for (``a <= l_B/3``, see
+        `topoedge.units`).
     """
 
     preset: str | None = None
     effective_mass: float | None = None
     g_factor: float | None = None
     permittivity: float | None = None
-    lattice_constant_nm: float | None = None
+    lattice_constant_nm: float | str | None = None
 
 
 @dataclass(frozen=True)
@@ -275,12 +286,16 @@ class FieldConfig:
         nearest integer filling).
     q_max : int
         Largest denominator of the rational flux per plaquette.
+    tolerance : float
+        Largest relative difference between the field of the lattice flux
+        and ``b_tesla`` (at most 0.01).
     """
 
     b_tesla: float | None = None
     fermi_mev: float | None = None
     density_cm2: float | None = None
-    q_max: int = 100
+    q_max: int = 4000
+    tolerance: float = 1e-3
 
 
 @dataclass(frozen=True)
@@ -525,6 +540,9 @@ _KEYS: dict[str, _Key] = {key.path: key for key in (
          "a gap > 0 in t", _positive),
     _Key("chern.refine", "boolean", "-", "Repeat the Chern count on a 1.5 times finer grid.",
          "true or false"),
+    _Key("chern.solver", "choice", "-",
+         "Bulk solver: every band (dense), the lowest Landau levels only (landau), or chosen by size (auto).",
+         "one of 'auto', 'dense', 'landau'", choices=("auto", "dense", "landau")),
     _Key("edges.k_points", "integer", "-", "Momenta of the scan for crossings of E_F.",
          "an integer number of k points >= 8", lambda n: n >= 8),
     _Key("material.preset", "string", "-",
@@ -536,8 +554,9 @@ _KEYS: dict[str, _Key] = {key.path: key for key in (
          "a finite g factor", optional=True),
     _Key("material.permittivity", "float", "-", "Relative permittivity eps_r.",
          "a permittivity > 0", _positive, optional=True),
-    _Key("material.lattice_constant_nm", "float", "nm", "Lattice constant a of the discretisation.",
-         "a length > 0 in nm", _positive, optional=True),
+    _Key("material.lattice_constant_nm", "length_or_auto", "nm",
+         "Lattice constant a of the discretisation; \"auto\": flux exactly 1/q at the field, a <= l_B/3.",
+         "a length > 0 in nm or \"auto\"", lambda a: a == "auto" or a > 0, optional=True),
     _Key("field.b_tesla", "float", "T",
          "Perpendicular field; sets lattice.flux and spin.zeeman from the material.",
          "a finite field in tesla", optional=True),
@@ -548,6 +567,9 @@ _KEYS: dict[str, _Key] = {key.path: key for key in (
          "a density in cm^-2", optional=True),
     _Key("field.q_max", "integer", "-", "Largest denominator of the rational flux per plaquette.",
          "an integer >= 1", lambda n: n >= 1),
+    _Key("field.tolerance", "float", "-",
+         "Largest relative difference between the lattice field and field.b_tesla.",
+         "a relative tolerance > 0 and <= 0.01", lambda x: 0 < x <= 0.01),
     _Key("hallbar.enabled", "boolean", "-", "Compute the six-terminal Hall bar route in run.",
          "true or false"),
     _Key("hallbar.length", "integer", "sites (a)", "Length of the Hall bar.",
@@ -667,6 +689,14 @@ def _to_choice(key: _Key, value: Any) -> str:
 _FLUX = re.compile(r"\s*([+-]?[0-9]+)\s*(?:/\s*([+-]?[0-9]+)\s*)?")
 
 
+def _to_length_or_auto(key: _Key, value: Any) -> float | str:
+    if isinstance(value, str):
+        if value == "auto":
+            return value
+        raise ConfigError(f"{key.path}: got {_show(value)}; expected {key.expect}")
+    return _to_float(key, value)
+
+
 def _to_flux(key: _Key, value: Any) -> Fraction:
     if isinstance(value, numbers.Integral) and not isinstance(value, bool):
         return Fraction(int(value))
@@ -743,7 +773,7 @@ def _to_widths(key: _Key, value: Any) -> tuple[float, ...]:
 _CONVERTERS: dict[str, Callable[[_Key, Any], Any]] = {
     "string": _to_str, "float": _to_float, "integer": _to_int, "boolean": _to_bool,
     "choice": _to_choice, "flux": _to_flux, "pairs": _to_pairs, "grid": _to_grid,
-    "starts": _to_starts, "widths": _to_widths,
+    "starts": _to_starts, "widths": _to_widths, "length_or_auto": _to_length_or_auto,
 }
 
 
@@ -995,10 +1025,12 @@ def derive_units(s: Scenario) -> Derived:
     """Lattice parameters of the scenario's material and field (``field.b_tesla`` set)."""
     mat, fld = s.material, s.field
     try:
+        a = None if mat.lattice_constant_nm == "auto" else mat.lattice_constant_nm
         return derive(effective_mass=mat.effective_mass, g_factor=mat.g_factor,
-                      permittivity=mat.permittivity, lattice_constant_nm=mat.lattice_constant_nm,
+                      permittivity=mat.permittivity, lattice_constant_nm=a,
                       b_tesla=fld.b_tesla, fermi_mev=fld.fermi_mev, density_cm2=fld.density_cm2,
-                      q_max=fld.q_max, onsite_t=s.lattice.onsite)
+                      q_max=fld.q_max, tolerance=fld.tolerance, onsite_t=s.lattice.onsite,
+                      spin=s.spin.enabled)
     except UnitsError as err:
         raise ConfigError(str(err)) from None
 
@@ -1216,7 +1248,7 @@ def key_docs() -> list[tuple[str, str, str, str, str]]:
         kind = {"choice": "string: " + " | ".join(f'"{c}"' for c in key.choices),
                 "flux": 'string "p/q"', "pairs": "array of [float, float]",
                 "grid": "array of two integers", "starts": "array of strings",
-                "widths": "array of floats"}.get(key.kind, key.kind)
+                "widths": "array of floats", "length_or_auto": 'float or "auto"'}.get(key.kind, key.kind)
         default = _plain(_lookup(defaults, path))
         rows.append((path, kind, key.unit, "unset" if default is None else json.dumps(default),
                      key.doc))

@@ -106,7 +106,7 @@ import numpy as np
 import scipy.linalg as sla
 from scipy.optimize import brentq, minimize_scalar
 
-from .hamiltonian import RibbonHamiltonian
+from .hamiltonian import RibbonHamiltonian, diagonal
 from .spectrum import k_grid
 
 __all__ = ["EdgeMode", "EdgeSummary", "EdgeCount", "RibbonModes", "find_crossings", "count_edge_modes",
@@ -268,12 +268,12 @@ class EdgeCount:
 # ----------------------------------------------------------- spin sectors
 
 
-def _norm2_bound(m: np.ndarray) -> float:
-    """Upper bound of the spectral norm: ``sqrt(||m||_1 ||m||_inf)``."""
-    if m.size == 0:
+def _norm2_bound(m) -> float:
+    """Upper bound of the spectral norm: ``sqrt(||m||_1 ||m||_inf)`` (dense or sparse)."""
+    if m.shape[0] == 0 or m.shape[1] == 0:
         return 0.0
-    a = np.abs(m)
-    return float(math.sqrt(a.sum(axis=0).max() * a.sum(axis=1).max()))
+    a = abs(m)
+    return float(math.sqrt(np.asarray(a.sum(axis=0)).max() * np.asarray(a.sum(axis=1)).max()))
 
 
 def _sturm_count(d: np.ndarray, e2: np.ndarray, x: float) -> np.ndarray:
@@ -357,14 +357,11 @@ class _TridiagonalSector(_Sector):
 
     def __init__(self, ham):
         super().__init__(ham)
-        n = ham.size
-        lower = np.arange(1, n), np.arange(n - 1)
-        upper = lower[::-1]
-        self._d0 = np.real(np.diag(ham.h0))
-        self._d1 = np.diag(ham.h1)
-        self._e0 = ham.h0[lower]
-        self._e1 = ham.h1[lower]
-        self._e1u = np.conj(ham.h1[upper])
+        self._d0 = np.real(diagonal(ham.h0))
+        self._d1 = diagonal(ham.h1)
+        self._e0 = diagonal(ham.h0, -1)            # h0[i+1, i]
+        self._e1 = diagonal(ham.h1, -1)
+        self._e1u = np.conj(diagonal(ham.h1, 1))   # conj(h1[i, i+1])
 
     def coefficients(self, k):
         """Real diagonals ``d``, ``|e|`` and their k-derivatives, shape (Nk, .)."""

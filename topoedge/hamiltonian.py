@@ -13,6 +13,12 @@ which is the convention of :class:`kwant.physics.Bands`, so energies agree
 point by point. The velocity operator (Hellmann-Feynman) is
 ``dH/dk = sum_D (-i D h_D exp(-i k D) + i D h_D^dagger exp(i k D))``.
 
+Wide ribbons (more than ``SPARSE_FROM`` orbitals per cell) keep ``h0`` and
+``h1`` as SciPy sparse matrices, so that memory grows with the number of
+orbitals, not its square; the tridiagonal and band solvers read only their
+diagonals. :meth:`RibbonHamiltonian.bloch` and ``velocity`` return dense
+matrices (for the dense solver and for small ribbons).
+
 This module is the numerical-object stage: it knows nothing of scenarios or
 files and is used by the solvers in :mod:`topoedge.spectrum`.
 """
@@ -23,8 +29,30 @@ from dataclasses import dataclass
 
 import kwant
 import numpy as np
+import scipy.sparse as sp
 
-__all__ = ["RibbonHamiltonian", "spin_orbitals"]
+__all__ = ["RibbonHamiltonian", "spin_orbitals", "diagonal", "abs_max", "SPARSE_FROM"]
+
+#: Cells with more orbitals than this are stored sparse by :meth:`RibbonHamiltonian.from_kwant`.
+SPARSE_FROM = 1200
+
+
+def diagonal(m, offset: int = 0) -> np.ndarray:
+    """The ``offset``-th diagonal of a dense or sparse matrix (``m[i, i + offset]``)."""
+    if sp.issparse(m):
+        return np.asarray(m.diagonal(offset))
+    return np.diagonal(m, offset).copy()
+
+
+def abs_max(m) -> float:
+    """Largest modulus of the entries of a dense or sparse matrix (0 when empty)."""
+    if sp.issparse(m):
+        return float(abs(m).max()) if m.nnz else 0.0
+    return float(np.abs(m).max(initial=0.0))
+
+
+def _dense(m) -> np.ndarray:
+    return m.toarray() if sp.issparse(m) else m
 
 
 def spin_orbitals(norbs, spin: bool | None) -> np.ndarray | None:
@@ -58,9 +86,9 @@ class RibbonHamiltonian:
 
     Attributes
     ----------
-    h0 : (N, N) complex ndarray
+    h0 : (N, N) complex ndarray or scipy sparse matrix
         Cell Hamiltonian (energy units of the model, ``t`` for the builders).
-    h1 : (N, N) complex ndarray
+    h1 : (N, N) complex ndarray or scipy sparse matrix
         Hopping from a cell into the next one along the period.
     position : (N,) float ndarray
         Coordinate of each orbital across the ribbon (lattice constants).
@@ -84,8 +112,8 @@ class RibbonHamiltonian:
             raise ValueError(
                 f"h0 and h1 must be square and of equal size, got {self.h0.shape} and {self.h1.shape}"
             )
-        scale = max(1.0, np.abs(self.h0).max(initial=0.0))
-        if not np.allclose(self.h0, self.h0.conj().T, atol=1e-12 * scale, rtol=0):
+        scale = max(1.0, abs_max(self.h0))
+        if abs_max(self.h0 - self.h0.conj().T) > 1e-12 * scale:
             raise ValueError("the cell Hamiltonian h0 is not Hermitian")
         if self.position.shape != (n,):
             raise ValueError(f"position must have shape ({n},), got {self.position.shape}")
@@ -104,8 +132,14 @@ class RibbonHamiltonian:
         """Number of orbitals in a cell."""
         return self.h0.shape[0]
 
+    @property
+    def sparse(self) -> bool:
+        """True when ``h0`` and ``h1`` are stored as sparse matrices."""
+        return sp.issparse(self.h0)
+
     @classmethod
-    def from_kwant(cls, syst, *, params: dict | None = None, spin: bool | None = None):
+    def from_kwant(cls, syst, *, params: dict | None = None, spin: bool | None = None,
+                   sparse: bool | None = None):
         """Extract the ribbon Hamiltonian of a kwant system with 1D symmetry.
 
         Parameters
@@ -118,6 +152,9 @@ class RibbonHamiltonian:
         spin : bool, optional
             Whether every site has two orbitals ordered (up, down). The default
             is True exactly when every site has two orbitals.
+        sparse : bool, optional
+            Store ``h0`` and ``h1`` as sparse matrices; by default when the cell
+            has more than ``SPARSE_FROM`` orbitals.
 
         Returns
         -------
@@ -141,10 +178,18 @@ class RibbonHamiltonian:
             raise TypeError(
                 f"expected a kwant Builder or InfiniteSystem with 1D symmetry, got {type(syst).__name__}"
             )
-        h0 = np.asarray(syst.cell_hamiltonian(params=params), dtype=complex)
-        hop = np.asarray(syst.inter_cell_hopping(params=params), dtype=complex)
-        h1 = np.zeros_like(h0)
-        h1[:, : hop.shape[1]] = hop
+        n_orbs = sum(site.family.norbs or 0 for site in syst.sites[: syst.cell_size])
+        if sparse is None:
+            sparse = n_orbs > SPARSE_FROM
+        if sparse:
+            h0 = sp.csr_matrix(syst.cell_hamiltonian(params=params, sparse=True), dtype=complex)
+            hop = sp.coo_matrix(syst.inter_cell_hopping(params=params, sparse=True))
+            h1 = sp.csr_matrix((hop.data.astype(complex), (hop.row, hop.col)), shape=h0.shape)
+        else:
+            h0 = np.asarray(syst.cell_hamiltonian(params=params), dtype=complex)
+            hop = np.asarray(syst.inter_cell_hopping(params=params), dtype=complex)
+            h1 = np.zeros_like(h0)
+            h1[:, : hop.shape[1]] = hop
 
         period = np.asarray(syst.symmetry.periods, dtype=float)[0]
         if period.size == 1:
@@ -165,15 +210,15 @@ class RibbonHamiltonian:
         return cls(h0=h0, h1=h1, position=position, sz=sz)
 
     def bloch(self, k) -> np.ndarray:
-        """``H(k)`` for an array of momenta, shape ``k.shape + (N, N)``."""
+        """``H(k)`` for an array of momenta, shape ``k.shape + (N, N)`` (dense)."""
         k = np.asarray(k, dtype=float)[..., None, None]
-        hk = sum(h * np.exp(-1j * k * d) for d, h in enumerate(self.hoppings, start=1))
-        return self.h0 + hk + np.swapaxes(hk, -1, -2).conj()
+        hk = sum(_dense(h) * np.exp(-1j * k * d) for d, h in enumerate(self.hoppings, start=1))
+        return _dense(self.h0) + hk + np.swapaxes(hk, -1, -2).conj()
 
     def velocity(self, k) -> np.ndarray:
-        """Velocity operator ``dH/dk`` for an array of momenta."""
+        """Velocity operator ``dH/dk`` for an array of momenta (dense)."""
         k = np.asarray(k, dtype=float)[..., None, None]
-        hk = sum(-1j * d * h * np.exp(-1j * k * d) for d, h in enumerate(self.hoppings, start=1))
+        hk = sum(-1j * d * _dense(h) * np.exp(-1j * k * d) for d, h in enumerate(self.hoppings, start=1))
         return hk + np.swapaxes(hk, -1, -2).conj()
 
     def spin_blocks(self, tol: float = 1e-14) -> list[np.ndarray] | None:
@@ -185,8 +230,14 @@ class RibbonHamiltonian:
         if self.sz is None:
             return None
         up = self.sz > 0
-        scale = tol * max(max(np.abs(m).max(initial=0.0) for m in (self.h0, *self.hoppings)), 1e-300)
+        scale = tol * max(max(abs_max(m) for m in (self.h0, *self.hoppings)), 1e-300)
         for m in (self.h0, *self.hoppings):
+            if sp.issparse(m):
+                c = m.tocoo()
+                mixed = up[c.row] != up[c.col]
+                if mixed.any() and np.abs(c.data[mixed]).max() > scale:
+                    return None
+                continue
             if np.abs(m[np.ix_(up, ~up)]).max(initial=0.0) > scale:
                 return None
             if np.abs(m[np.ix_(~up, up)]).max(initial=0.0) > scale:
@@ -197,16 +248,27 @@ class RibbonHamiltonian:
         """The Hamiltonian restricted to ``indices``, reordered by position."""
         order = np.asarray(indices)[np.argsort(self.position[indices], kind="stable")]
         ix = np.ix_(order, order)
+
+        def take(m):
+            return sp.csr_matrix(m.tocsr()[order][:, order]) if sp.issparse(m) else m[ix]
+
         return RibbonHamiltonian(
-            h0=self.h0[ix],
-            h1=self.h1[ix],
+            h0=take(self.h0),
+            h1=take(self.h1),
             position=self.position[order],
             sz=None if self.sz is None else self.sz[order],
-            far=tuple(m[ix] for m in self.far),
+            far=tuple(take(m) for m in self.far),
         )
 
     def bandwidth(self, tol: float = 0.0) -> int:
         """Half-bandwidth of ``H(k)`` in the current orbital order."""
+        if self.sparse:
+            b = 0
+            for m in (self.h0, *self.hoppings):
+                c = m.tocoo()
+                keep = np.abs(c.data) > tol
+                b = max(b, int(np.abs(c.row[keep] - c.col[keep]).max(initial=0)))
+            return b
         nz = np.abs(self.h0) > tol
         for m in self.hoppings:
             nz |= (np.abs(m) > tol) | (np.abs(m.T) > tol)

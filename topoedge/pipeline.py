@@ -34,7 +34,7 @@ import numpy as np
 from . import __version__
 from .bloch import BlochHamiltonian
 from .builders import bulk_builder, model_params, ribbon_builder
-from .chern import ChernResult, Gap, chern_numbers, default_grid, path_bands, subspace_chern
+from .chern import ChernResult, Gap, GapClosedError, chern_numbers, default_grid, path_bands, subspace_chern
 from .models import haldane_builder, haldane_ribbon_builder, qwz_builder, qwz_ribbon_builder
 from .honeycomb import (dirac_landau_level, honeycomb_bulk_builder, honeycomb_magnetic_length,
                         honeycomb_params, honeycomb_ribbon_builder)
@@ -45,9 +45,14 @@ from .hamiltonian import RibbonHamiltonian
 from .profiles import edge_potential
 from .spectrum import RibbonSpectrum, k_grid, ribbon_spectrum
 from .streda import StredaResult, streda_slope
+from .harper import HarperCell
+from .landau import (DEFAULT_K2_POINTS, LandauSolverError, bands_for, count_below, landau_chern,
+                     landau_path_bands, landau_states_below, landau_subspace_chern)
+from .progress import Progress, as_progress
 
 __all__ = [
     "RunResult", "VON_KLITZING", "build_bulk", "build_ribbon", "bulk_chern", "bulk_edge_check",
+    "bulk_solver", "harper_cell", "LANDAU_MIN_Q",
     "fermi_level", "hallbar_field_scan", "hallbar_route", "hallbar_scan", "run_scenario", "scenario_potential", "summarize",
 ]
 
@@ -161,28 +166,114 @@ def build_bulk(scenario: Scenario) -> BlochHamiltonian:
     return BlochHamiltonian.from_kwant(builder, params=_params(scenario), spin=spin)
 
 
-def bulk_chern(scenario: Scenario, bloch: BlochHamiltonian | None = None
-               ) -> tuple[ChernResult, ChernResult | None, dict]:
+#: Smallest cell (bands per spin) for which ``chern.solver = "auto"`` takes the Landau-level solver.
+LANDAU_MIN_Q = 60
+# Largest fraction of a sector's bands the Landau-level solver computes under "auto"
+# (above it the bands are no longer Landau levels; the dense solver is used).
+_LANDAU_MAX_FRACTION = 1 / 3
+
+
+def harper_cell(scenario: Scenario) -> HarperCell:
+    """The square-lattice magnetic cell of a scenario as a ring (S_z conserved, no Rashba term)."""
+    lat, spin = scenario.lattice, scenario.spin
+    return HarperCell(lat.flux, onsite=lat.onsite, zeeman=spin.zeeman, spin=spin.enabled)
+
+
+def _landau_possible(scenario: Scenario) -> str | None:
+    """Why the Landau-level solver cannot take the scenario, or None."""
+    lat = scenario.lattice
+    if lat.kind != "square":
+        return f"the Landau-level solver is built for the square lattice, not {lat.kind!r}"
+    if scenario.spin.rashba != 0:
+        return "the Landau-level solver needs S_z conserved (no Rashba term)"
+    if lat.flux == 0 or lat.flux.denominator < 3:
+        return f"flux {lat.flux} has fewer than 3 bands per spin"
+    return None
+
+
+def _bands_needed(scenario: Scenario, cell: HarperCell) -> int:
+    fermi = scenario.fermi
+    if fermi.gap is not None:
+        return bands_for(cell, below=fermi.gap)
+    return bands_for(cell, energy=fermi.energy if fermi.energy is not None else 0.0)
+
+
+def bulk_solver(scenario: Scenario) -> tuple[str, str]:
+    """The bulk solver a scenario uses, ``"dense"`` or ``"landau"``, and why.
+
+    ``chern.solver = "auto"`` takes the Landau-level solver
+    (:mod:`topoedge.landau`) for the square lattice with S_z conserved when
+    the cell has at least ``LANDAU_MIN_Q`` bands per spin and E_F lies in
+    the lowest third of them; otherwise every band is diagonalised.
+
+    Raises
+    ------
+    ValueError
+        For ``chern.solver = "landau"`` on a scenario it cannot take.
+    """
+    choice = scenario.chern.solver
+    if choice == "dense":
+        return "dense", "chern.solver = 'dense'"
+    why_not = _landau_possible(scenario)
+    if choice == "landau":
+        if why_not:
+            raise ValueError(f"chern.solver = 'landau': {why_not}; expected 'dense' or 'auto'")
+        return "landau", "chern.solver = 'landau'"
+    if why_not:
+        return "dense", why_not
+    q = scenario.lattice.flux.denominator
+    if q < LANDAU_MIN_Q:
+        return "dense", f"{q} bands per spin (fewer than {LANDAU_MIN_Q}): every band is cheap"
+    needed = _bands_needed(scenario, harper_cell(scenario))
+    if needed > _LANDAU_MAX_FRACTION * q:
+        return "dense", (f"E_F needs {needed} of {q} bands per spin: beyond the Landau-level regime "
+                         "(more than a third of the bands)")
+    return "landau", f"{needed} of {q} bands per spin needed: only those are computed"
+
+
+def bulk_chern(scenario: Scenario, bloch: BlochHamiltonian | None = None, *, progress=None,
+               solver: str | None = None) -> tuple[ChernResult, ChernResult | None, dict]:
     """Chern numbers of the bulk on the configured grid and, optionally, a finer one.
 
     Returns
     -------
     result : ChernResult
+        ``result.solver`` says which solver was used (see :func:`bulk_solver`).
     refined : ChernResult or None
-        The same on a grid 1.5 times finer in each direction (``chern.refine``).
+        The same on a grid 1.5 times finer in each direction (``chern.refine``;
+        the Landau-level solver doubles ``k1`` and takes 1.5 times ``k2``).
     path : dict
         Bulk bands along Gamma-X-M-Gamma, for the figure.
 
-    ``bloch`` is the scenario's bulk when the caller has built it already.
+    ``bloch`` is the scenario's bulk when the caller has built it already
+    (dense solver). ``progress`` is a :class:`topoedge.progress.Progress`.
     """
+    progress = as_progress(progress)
     cfg = scenario.chern
-    bloch = bloch if bloch is not None else build_bulk(scenario)
+    solver = solver or bulk_solver(scenario)[0]
+    if solver == "landau":
+        cell = harper_cell(scenario)
+        n2 = cfg.grid[1] if cfg.grid else DEFAULT_K2_POINTS
+        bands = _bands_needed(scenario, cell)
+        with progress.stage(f"bulk: Chern numbers of the lowest bands (Landau-level solver, q = {cell.q})") as st:
+            result = landau_chern(cell, bands=bands, k2_points=n2, gap_min=cfg.gap_min, progress=st)
+        refined = None
+        if cfg.refine:
+            with progress.stage("bulk: the same on a finer grid") as st:
+                refined = landau_chern(cell, bands=bands, k2_points=int(math.ceil(1.5 * n2)),
+                                       gap_min=cfg.gap_min, k1_factor=2, progress=st)
+        per_sector = max(sum(1 for b in result.bands if b.spin == s) for s in result.sectors)
+        return result, refined, landau_path_bands(cell, per_sector)
+    with progress.stage("bulk: building the magnetic cell"):
+        bloch = bloch if bloch is not None else build_bulk(scenario)
     grid = cfg.grid or default_grid(bloch)
-    result = chern_numbers(bloch, grid=grid, gap_min=cfg.gap_min)
+    with progress.stage(f"bulk: Chern numbers on the {grid[0]}x{grid[1]} grid ({bloch.size} orbitals)"):
+        result = chern_numbers(bloch, grid=grid, gap_min=cfg.gap_min)
     refined = None
     if cfg.refine:
         finer = tuple(int(math.ceil(1.5 * n)) for n in grid)
-        refined = chern_numbers(bloch, grid=finer, gap_min=cfg.gap_min)
+        with progress.stage(f"bulk: the same on the {finer[0]}x{finer[1]} grid"):
+            refined = chern_numbers(bloch, grid=finer, gap_min=cfg.gap_min)
     return result, refined, path_bands(bloch)
 
 
@@ -201,8 +292,11 @@ def fermi_level(scenario: Scenario, chern: ChernResult) -> tuple[float, Gap]:
     return ef, chern.gap_at(ef)
 
 
-def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
+def run_scenario(scenario: Scenario, *, progress=False) -> RunResult:
     """Bulk Chern numbers, ribbon spectrum and edge modes of a scenario.
+
+    ``progress``: False, True (a terminal bar) or a
+    :class:`topoedge.progress.Progress`.
 
     Raises
     ------
@@ -211,47 +305,101 @@ def run_scenario(scenario: Scenario, *, progress: bool = False) -> RunResult:
     """
     if scenario.interaction.enabled:
         raise ValueError("the scenario has [interaction]: run it with topoedge.interacting.run_interacting")
+    progress = as_progress(progress)
     start = time.perf_counter()
     given = scenario
     scenario, units = lattice_scenario(scenario)
-    bulk = build_bulk(scenario)
-    chern, refined, path = bulk_chern(scenario, bulk)
+    solver, solver_reason = bulk_solver(scenario)
+    bulk = build_bulk(scenario) if solver == "dense" else None
+    chern, refined, path = bulk_chern(scenario, bulk, progress=progress, solver=solver)
     ef, gap = fermi_level(scenario, chern)
-    ham, potential = build_ribbon(scenario)
-    window = None
-    if scenario.spectrum.window is not None:
-        window = (ef - scenario.spectrum.window, ef + scenario.spectrum.window)
-    spec = ribbon_spectrum(
-        ham,
-        k_grid(scenario.spectrum.k_points),
-        window=window,
-        solver=scenario.spectrum.solver,
-        progress=progress,
-    )
-    edges = count_edge_modes(ham, ef, k_points=scenario.edges.k_points)
+    with progress.stage("ribbon: building the Hamiltonian"):
+        ham, potential = build_ribbon(scenario)
+    window = spectrum_window(scenario, ham, chern, ef)
+    with progress.stage(f"ribbon: spectrum at {scenario.spectrum.k_points} momenta", scenario.spectrum.k_points) as st:
+        spec = ribbon_spectrum(ham, k_grid(scenario.spectrum.k_points), window=window,
+                               solver=scenario.spectrum.solver, progress=st)
+    with progress.stage("ribbon: edge modes at E_F"):
+        edges = count_edge_modes(ham, ef, k_points=scenario.edges.k_points)
     subspace = None
     if np.isfinite(gap.middle):
-        # The occupied subspace as a whole needs far fewer points than the
-        # bands one by one (that is what makes it a useful check): half the grid.
-        grid = tuple(max(12, (n + 1) // 2) for n in chern.grid)
-        subspace = subspace_chern(bulk, gap, grid=grid)
-    streda, streda_error = streda_route(scenario, ef)
-    hallbar, hallbar_error = hallbar_route(scenario, ef) if scenario.hallbar.enabled else (None, None)
+        with progress.stage("bulk: the occupied subspace as a whole (cross-check)"):
+            if solver == "landau":
+                subspace = landau_subspace_chern(harper_cell(scenario), gap, k2_points=chern.grid[1],
+                                                 gap_min=scenario.chern.gap_min)
+                if subspace["chern"] is None:
+                    subspace = None
+            else:
+                # The occupied subspace as a whole needs far fewer points than the
+                # bands one by one (that is what makes it a useful check): half the grid.
+                grid = tuple(max(12, (n + 1) // 2) for n in chern.grid)
+                subspace = subspace_chern(bulk, gap, grid=grid)
+    with progress.stage("Streda route: states below E_F at nearby fluxes"):
+        streda, streda_error = streda_route(scenario, ef, solver=solver)
+    hallbar, hallbar_error = (None, None)
+    if scenario.hallbar.enabled:
+        with progress.stage("Hall bar: transport"):
+            hallbar, hallbar_error = hallbar_route(scenario, ef)
     summary = summarize(scenario, spec, potential, chern=chern, refined=refined, ef=ef, gap=gap,
                         edges=edges, seconds=time.perf_counter() - start, given=given, units=units,
                         streda=streda, streda_error=streda_error, hallbar=hallbar,
-                        hallbar_error=hallbar_error, subspace=subspace)
+                        hallbar_error=hallbar_error, subspace=subspace, solver_reason=solver_reason)
     return RunResult(scenario, potential, ham, spec, chern, refined, ef, gap, edges, path, summary, units,
                      streda)
 
 
-def streda_route(scenario: Scenario, ef: float) -> tuple[StredaResult | None, str | None]:
-    """Hall conductance from the density response at fixed E_F, or why not."""
+#: Orbitals per spin block from which the ribbon spectrum keeps only a window around E_F
+#: when ``spectrum.window`` is unset (all states would cost ``O(W^2)`` per momentum).
+AUTO_WINDOW_FROM = 1000
+
+
+def spectrum_window(scenario: Scenario, ham: RibbonHamiltonian, chern: ChernResult,
+                    ef: float) -> tuple[float, float] | None:
+    """Energy window of the ribbon spectrum: ``E_F +- spectrum.window``, or chosen for wide ribbons.
+
+    A ribbon with more than ``AUTO_WINDOW_FROM`` orbitals per spin block and
+    no ``spectrum.window`` keeps the states within ``E_F +- h``, ``h`` 1.25
+    times the distance from E_F to the bottom of the bulk spectrum (at least
+    twice the width of E_F's gap): every Landau level below E_F and as many
+    above.
+    """
+    if scenario.spectrum.window is not None:
+        return (ef - scenario.spectrum.window, ef + scenario.spectrum.window)
+    per_block = ham.size // (2 if ham.sz is not None and ham.spin_blocks() is not None else 1)
+    if per_block <= AUTO_WINDOW_FROM or not chern.bands:
+        return None
+    bottom = min(b.energy_min for b in chern.bands)
+    try:
+        gap = chern.gap_at(ef)
+        width = gap.energy_max - gap.energy_min if np.isfinite(gap.energy_max - gap.energy_min) else 0.0
+    except GapClosedError:
+        width = 0.0
+    half = max(1.25 * (ef - bottom), 2.0 * width, 1e-3)
+    return (ef - half, ef + half)
+
+
+def streda_route(scenario: Scenario, ef: float, *, solver: str = "dense"
+                 ) -> tuple[StredaResult | None, str | None]:
+    """Hall conductance from the density response at fixed E_F, or why not.
+
+    With the Landau-level solver the states below E_F at every flux are
+    counted from band-matrix eigenvalues at the band-edge momenta
+    (:func:`topoedge.landau.landau_states_below`).
+    """
     from dataclasses import replace
 
     if scenario.lattice.kind in ZERO_FIELD:
         return None, (f"no Streda route for the zero-field {scenario.lattice.kind} model "
                       "(it has no flux to vary)")
+    if solver == "landau":
+        def states(phi):
+            return landau_states_below(replace(harper_cell(scenario), flux=phi), ef)
+
+        try:
+            return streda_slope(None, scenario.lattice.flux, ef, states=states), None
+        except ValueError as err:
+            return None, str(err)
+
     def bulk(phi):
         return build_bulk(replace(scenario, lattice=replace(scenario.lattice, flux=phi)))
 
@@ -389,10 +537,20 @@ def hallbar_scan(scenario: Scenario, energies, *, progress: bool = False) -> dic
     return out
 
 
-def _field_bulk(model: Scenario) -> ChernResult:
-    """Chern numbers of a field-scan point's bulk (a process-pool task)."""
+def _field_bulk(model: Scenario, fermi_t: float) -> ChernResult:
+    """Chern numbers of a field-scan point's bulk up to a little above ``fermi_t`` (a process-pool task).
+
+    The Landau-level solver where :func:`bulk_solver` takes it, else every
+    band on the butterfly's momentum grid.
+    """
+    from dataclasses import replace
+
     from .butterfly import butterfly_grid
 
+    at_ef = replace(model, fermi=replace(model.fermi, gap=None, energy=fermi_t))
+    if bulk_solver(at_ef)[0] == "landau":
+        cell = harper_cell(at_ef)
+        return landau_chern(cell, bands=bands_for(cell, energy=fermi_t), gap_min=model.chern.gap_min)
     return chern_numbers(build_bulk(model), grid=butterfly_grid(model.lattice.flux.denominator),
                          gap_min=model.chern.gap_min)
 
@@ -402,14 +560,15 @@ def hallbar_field_scan(scenario: Scenario, fields_tesla, *, jobs: int | None = N
     """R_xy and R_xx of the scenario's Hall bar over the magnetic field at fixed E_F.
 
     The scenario must be in physical units (``[material]`` and ``[field]``).
-    At every field ``B`` the lattice model is derived anew (flux rounded to
-    ``p/q`` with ``q <= field.q_max``, Zeeman splitting ``-g mu_B B``), while
+    At every field ``B`` the lattice model is derived anew (the flux ``p/q``
+    within ``field.tolerance`` of ``B``, Zeeman splitting ``-g mu_B B``), while
     the Fermi energy is held fixed: ``field.fermi_mev`` above the band
     bottom, or, for a scenario given by its density, the E_F that the density
     gives at the scenario's own field (the middle of the gap above the
     nearest integer filling). The bar's geometry does not change. The bulk
-    prediction at each field is the Chern sum below E_F on the momentum grid
-    of :func:`topoedge.butterfly.butterfly_grid`, computed once per distinct
+    prediction at each field is the Chern sum below E_F (the Landau-level
+    solver for large cells, else every band on the momentum grid of
+    :func:`topoedge.butterfly.butterfly_grid`), computed once per distinct
     flux in ``jobs`` worker processes while this process solves the bars.
 
     Parameters
@@ -426,8 +585,8 @@ def hallbar_field_scan(scenario: Scenario, fields_tesla, *, jobs: int | None = N
     Returns
     -------
     dict
-        ``b_tesla`` (requested), ``b_used_tesla`` (the field of the rounded
-        flux), ``flux`` (``"p/q"``), ``filling`` (``n h / (e B)`` for a
+        ``b_tesla`` (requested), ``b_lattice_tesla`` (the field of the lattice
+        flux, within ``field.tolerance``), ``flux`` (``"p/q"``), ``filling`` (``n h / (e B)`` for a
         density, else None), ``fermi_t`` and ``fermi_mev`` (fixed), and the
         lists of :func:`hallbar_scan` (without ``energy``), ``errors`` as
         ``[B, message]``.
@@ -475,23 +634,25 @@ def hallbar_field_scan(scenario: Scenario, fields_tesla, *, jobs: int | None = N
         pool = ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("spawn"),
                                    initializer=init_worker)
     try:
-        bulk = {key: pool.submit(_field_bulk, model) if pool else None for key, model in distinct.items()}
+        bulk = {key: pool.submit(_field_bulk, model, fermi_t) if pool else None
+                for key, model in distinct.items()}
         bars = []
         for b, (model, _) in tqdm(list(zip(fields, models)), disable=not progress, desc="Hall bars",
                                   leave=False):
             params = dict(_params(model), disorder=model.hallbar.disorder, seed=0)
             bars.append(_hall_point(fsyst, params, fermi_t, model.hallbar.seeds))
-        chern = {key: future.result() if pool else _field_bulk(distinct[key]) for key, future in bulk.items()}
+        chern = {key: future.result() if pool else _field_bulk(distinct[key], fermi_t)
+                 for key, future in bulk.items()}
     finally:
         if pool is not None:
             pool.shutdown(cancel_futures=True)
-    out: dict = {"b_tesla": [], "b_used_tesla": [], "flux": [], "filling": [],
+    out: dict = {"b_tesla": [], "b_lattice_tesla": [], "flux": [], "filling": [],
                  "fermi_t": fermi_t, "fermi_mev": (fermi_t + 4.0) * base_units.hopping_mev}
     errors = []
     for b, (model, units), (values, error) in zip(fields, models, bars):
         point = {**_bulk_point(chern[(model.lattice.flux, model.spin.zeeman)], fermi_t), **values}
         out["b_tesla"].append(b)
-        out["b_used_tesla"].append(units.b_used_tesla)
+        out["b_lattice_tesla"].append(units.b_lattice_tesla)
         out["flux"].append(str(model.lattice.flux))
         out["filling"].append(units.filling)
         for key, value in point.items():
@@ -576,7 +737,7 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
               given: Scenario | None = None, units: Derived | None = None,
               streda: StredaResult | None = None, streda_error: str | None = None,
               hallbar: dict | None = None, hallbar_error: str | None = None,
-              subspace: dict | None = None) -> dict:
+              subspace: dict | None = None, solver_reason: str | None = None) -> dict:
     """JSON-able summary of a run.
 
     ``scenario`` is in lattice units; ``given`` (default: the same) is the
@@ -591,6 +752,11 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
     ``hbar omega_c = 4 pi t |phi|``; on the honeycomb lattice the Dirac limit:
     ``l_B = sqrt(A_hex / (2 pi |phi|))`` (a_cc) and the first Landau level
     ``E_1 = sqrt(2) hbar v_F / l_B`` with ``hbar v_F = 3 t a_cc / 2``.
+
+    Hall resistance: ``R_xy = -1/sigma_xy`` (``rho_xy`` for ``sigma_xx = 0``),
+    one sign in every output; electrons in ``B || +z`` have ``C < 0`` and
+    ``R_xy = +R_K/nu`` (see :mod:`topoedge.units`). With ``units`` the
+    ``physical`` block repeats the results in the units of the scenario.
     """
     lat = scenario.lattice
     phi = abs(float(lat.flux))
@@ -620,7 +786,7 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
         converged = [(g.below, g.chern) for g in chern.gaps] == [(g.below, g.chern) for g in refined.gaps]
     c = gap.chern
     routes = hall_routes(gap, edges, streda, hallbar)
-    return {
+    summary = {
         "topoedge_version": __version__,
         "title": scenario.title,
         "source": scenario.source,
@@ -651,6 +817,10 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
             "energy_max": float(energies.max()) if energies.size else None,
         },
         "bulk": {
+            "solver": chern.solver,
+            "solver_reason": solver_reason,
+            "bands_computed": len(chern.bands),
+            "bands_total": chern.total_bands or len(chern.bands),
             "grid": list(chern.grid),
             "gap_min": chern.gap_min,
             "bands": [b.to_dict() for b in chern.bands],
@@ -679,8 +849,8 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
         "hall": {
             "sigma_xy": c,
             "sigma_xy_siemens": c / VON_KLITZING,
-            "r_xy_ohm": VON_KLITZING / c if c else None,
-            "units": "sigma_xy in e^2/h; r_xy_ohm = h/(C e^2), null for C = 0",
+            "r_xy_ohm": -VON_KLITZING / c if c else None,
+            "units": "sigma_xy in e^2/h; r_xy_ohm = -1/sigma_xy = -h/(C e^2) (rho_xy), null for C = 0",
             "routes": routes["routes"],
             "streda": streda.to_dict() if streda is not None else None,
             "streda_error": streda_error,
@@ -690,4 +860,68 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
         "check": {**bulk_edge_check(gap, edges, width=scenario.ribbon.width),
                   "routes_agree": routes["routes_agree"]},
         "seconds": round(seconds, 3),
+    }
+    if units is not None:
+        summary["physical"] = physical_summary(scenario, units, ef=ef, gap=gap, edges=edges, potential=potential)
+        for name in ("bottom", "top"):
+            for mode, extra in zip(summary["edges"][name]["modes"], summary["physical"]["edges"][name]):
+                mode.update(extra)
+    return summary
+
+
+def physical_summary(scenario: Scenario, units: Derived, *, ef: float, gap: Gap, edges: EdgeCount,
+                     potential: np.ndarray) -> dict:
+    """The run's results in the units of a physical scenario.
+
+    Energies in meV above the band bottom of the lattice model (``-4 t +
+    onsite``, the conduction-band edge of the discretised electron gas);
+    lengths in nm and magnetic lengths ``l_B`` (of the field asked for);
+    edge-mode velocities ``v = (1/hbar) dE/dk`` in m/s beside the drift
+    velocity ``v_x = U'(y) / (e B_z)`` of the edge potential ``U`` at the
+    mode (``E x B`` drift of a guiding centre; None where the potential is
+    flat, e.g. a hard wall); Hall resistance ``R_xy = -1/sigma_xy`` in ohm.
+    """
+    import scipy.constants as const
+
+    t_mev, a_nm = units.hopping_mev, units.lattice_constant_nm
+    bottom = -4.0 + scenario.lattice.onsite
+
+    def mev(e):
+        return float((e - bottom) * t_mev) if np.isfinite(e) else None
+
+    t_joule = t_mev * 1e-3 * const.e
+    v_unit = t_joule * a_nm * 1e-9 / const.hbar               # m/s per t a (hbar = 1)
+    y_rows = np.arange(len(potential), dtype=float)
+    slope = np.gradient(np.asarray(potential, dtype=float)) if len(potential) > 1 else np.zeros(1)
+
+    def mode_extra(m) -> dict:
+        drift = None
+        if scenario.lattice.kind == "square" and len(potential) > 1:
+            du = float(np.interp(m.y, y_rows, slope))                 # t per a
+            if abs(du) > 1e-12:
+                drift = du * t_joule / (a_nm * 1e-9) / (const.e * units.b_tesla)
+        return {"y_nm": m.y * a_nm, "y_lb": m.y * a_nm / units.magnetic_length_nm,
+                "velocity_m_s": m.velocity * v_unit, "drift_m_s": drift}
+
+    c = gap.chern
+    return {
+        "b_tesla": units.b_tesla,
+        "b_lattice_tesla": units.b_lattice_tesla,
+        "b_relative_error": units.b_relative_error,
+        "field_direction": "+z" if units.b_tesla > 0 else "-z",
+        "lattice_constant_nm": a_nm,
+        "hopping_mev": t_mev,
+        "magnetic_length_nm": units.magnetic_length_nm,
+        "cyclotron_mev": units.cyclotron_mev,
+        "zeeman_mev": units.zeeman_mev,
+        "coulomb_mev": units.coulomb_mev,
+        "filling": units.filling,
+        "fermi_energy_mev": mev(ef),
+        "gap_mev": [mev(gap.energy_min), mev(gap.energy_max)],
+        "ribbon_width_nm": (scenario.ribbon.width - 1) * a_nm,
+        "sigma_xy_e2_h": c,
+        "r_xy_ohm": -VON_KLITZING / c if c else None,
+        "edges": {name: [mode_extra(m) for m in getattr(edges, name).modes] for name in ("bottom", "top")},
+        "units": "energies in meV above the band bottom; lengths in nm (y from the bottom row) and l_B; "
+                 "velocities in m/s; R_xy = -1/sigma_xy in ohm",
     }

@@ -8,20 +8,67 @@ results folder. None of them shows a window or writes a file (see
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 from matplotlib import colors
 from matplotlib.lines import Line2D
+from matplotlib.patches import Rectangle
 
 from .config import ZERO_FIELD
 from .spectrum import RibbonSpectrum
 
 __all__ = [
-    "plot_ribbon_spectrum", "plot_edge_modes", "edge_mode_legend", "plot_bulk_bands",
+    "Display", "display_units", "plot_ribbon_spectrum", "plot_level_diagram", "plot_edge_modes", "edge_mode_legend", "plot_bulk_bands",
     "default_energy_range", "ribbon_figure", "bulk_figure", "hallbar_figure", "hartree_fock_figure", "edge_scan_figure",
     "RUN_FIGURES",
 ]
 
 _SPIN_MARKERS = {"up": "^", "down": "v", "none": "o"}
+
+
+@dataclass(frozen=True)
+class Display:
+    """Units of the figure axes: lattice units by default, meV / nm / 1/nm for physical scenarios.
+
+    ``energy(E) = (E - energy_zero) * energy_scale``, ``momentum(k) = k *
+    k_scale``, ``length(y) = y * length_scale``.
+    """
+
+    energy_unit: str = "$t$"
+    energy_scale: float = 1.0
+    energy_zero: float = 0.0
+    energy_label: str = "$E$"
+    k_unit: str = "$1/a$"
+    k_scale: float = 1.0
+    length_unit: str = "a"
+    length_scale: float = 1.0
+    magnetic_length: float | None = None     # in length units, for a second scale
+
+    @property
+    def physical(self) -> bool:
+        return self.energy_unit == "meV"
+
+    def energy(self, e):
+        return (np.asarray(e, dtype=float) - self.energy_zero) * self.energy_scale
+
+    def momentum(self, k):
+        return np.asarray(k, dtype=float) * self.k_scale
+
+    def length(self, y):
+        return np.asarray(y, dtype=float) * self.length_scale
+
+
+def display_units(result) -> Display:
+    """The :class:`Display` of a run: physical with ``[material]`` and ``[field]``, else lattice units."""
+    units = getattr(result, "units", None)
+    if units is None:
+        return Display()
+    a = units.lattice_constant_nm
+    return Display(energy_unit="meV", energy_scale=units.hopping_mev,
+                   energy_zero=-4.0 + result.scenario.lattice.onsite,
+                   energy_label="$E$ above the band bottom", k_unit="1/nm", k_scale=1.0 / a,
+                   length_unit="nm", length_scale=a, magnetic_length=units.magnetic_length_nm)
 
 
 def default_energy_range(spec: RibbonSpectrum, fermi_energy: float | None) -> tuple[float, float]:
@@ -47,6 +94,7 @@ def plot_ribbon_spectrum(
     energy_range: tuple[float, float] | None = None,
     extent: tuple[float, float] | None = None,
     length_unit: str = "a",
+    display: Display | None = None,
 ):
     """Ribbon bands ``E_n(k)`` coloured by the mean position across the ribbon.
 
@@ -67,6 +115,9 @@ def plot_ribbon_spectrum(
         instead of ``0 .. W - 1`` (e.g. a honeycomb ribbon).
     length_unit : str
         Unit of the lengths along and across the ribbon, for the axis label.
+    display : Display, optional
+        Units of the axes (``energy_range`` and ``extent`` are given in
+        lattice units and converted); lattice units by default.
 
     Returns
     -------
@@ -77,11 +128,12 @@ def plot_ribbon_spectrum(
     """
     if spec.y_mean is None:
         raise ValueError("the spectrum was computed without observables; nothing to colour by")
+    d = display or Display()
     lo, hi = energy_range or default_energy_range(spec, fermi_energy)
     kk = np.broadcast_to(spec.k[:, None], spec.energy.shape)
     shown = np.isfinite(spec.energy) & (spec.energy >= lo) & (spec.energy <= hi)
     vmin, vmax = extent if extent is not None else (0.0, max(width - 1, 1))
-    norm = colors.Normalize(vmin=vmin, vmax=vmax)
+    norm = colors.Normalize(vmin=float(d.length(vmin)), vmax=float(d.length(vmax)))
     artists = {"norm": norm}
     sz = spec.sz if spec.sz is not None else np.full(spec.energy.shape, np.nan)
     groups = {"up": sz > 0.25, "down": sz < -0.25, "none": ~(np.abs(sz) > 0.25)}
@@ -90,13 +142,14 @@ def plot_ribbon_spectrum(
         if not mask.any():
             continue
         artists[name] = ax.scatter(
-            kk[mask], spec.energy[mask], c=spec.y_mean[mask], cmap="coolwarm", norm=norm,
-            s=7, marker=_SPIN_MARKERS[name], linewidths=0, rasterized=True,
+            d.momentum(kk[mask]), d.energy(spec.energy[mask]), c=d.length(spec.y_mean[mask]), cmap="coolwarm",
+            norm=norm, s=7, marker=_SPIN_MARKERS[name], linewidths=0, rasterized=True,
         )
     if fermi_energy is not None:
-        artists["fermi"] = ax.axhline(fermi_energy, color="k", ls="--", lw=0.8, label="$E_F$")
-    ax.set_xlim(spec.k.min(), spec.k.max() + (spec.k[1] - spec.k[0] if spec.k.size > 1 else 0))
-    ax.set_ylim(lo, hi)
+        artists["fermi"] = ax.axhline(float(d.energy(fermi_energy)), color="k", ls="--", lw=0.8, label="$E_F$")
+    ax.set_xlim(float(d.momentum(spec.k.min())),
+                float(d.momentum(spec.k.max() + (spec.k[1] - spec.k[0] if spec.k.size > 1 else 0))))
+    ax.set_ylim(float(d.energy(lo)), float(d.energy(hi)))
     handles = [
         Line2D([], [], ls="", marker=_SPIN_MARKERS[name], color="0.3", label=label)
         for name, label in (("up", "spin up"), ("down", "spin down"))
@@ -106,16 +159,19 @@ def plot_ribbon_spectrum(
         handles.append(artists["fermi"])
     if handles:
         artists["legend"] = ax.legend(handles=handles, loc="upper left", fontsize=8)
-    ax.set_xlabel("$k$ along the ribbon ($1/a$)" if length_unit == "a"
-                  else f"$k$ along the ribbon (1/period; period {length_unit})")
-    ax.set_ylabel("$E$ ($t$)")
+    if d.physical:
+        ax.set_xlabel(f"$k$ along the ribbon ({d.k_unit})")
+    else:
+        ax.set_xlabel("$k$ along the ribbon ($1/a$)" if length_unit == "a"
+                      else f"$k$ along the ribbon (1/period; period {length_unit})")
+    ax.set_ylabel(f"{d.energy_label} ({d.energy_unit})")
     return artists
 
 
 _EDGE_COLOURS = {"bottom": "#08306b", "top": "#67000d", "bulk": "k"}
 
 
-def plot_edge_modes(edges, *, ax):
+def plot_edge_modes(edges, *, ax, display: Display | None = None):
     """Mark the crossings of E_F: colour by edge, triangle by direction, fill by spin.
 
     Parameters
@@ -129,6 +185,7 @@ def plot_edge_modes(edges, *, ax):
         One per drawn crossing group; legend handles are added to ``ax``'s
         legend by :func:`edge_mode_legend`.
     """
+    d = display or Display()
     artists = []
     groups = [("bottom", edges.bottom.modes), ("top", edges.top.modes), ("bulk", edges.bulk)]
     for edge, modes in groups:
@@ -137,7 +194,7 @@ def plot_edge_modes(edges, *, ax):
             filled = mode.spin != "down"
             colour = _EDGE_COLOURS[edge]
             artists.append(ax.scatter(
-                [mode.k], [mode.energy], s=70, marker=marker, zorder=5, linewidths=1.4,
+                [float(d.momentum(mode.k))], [float(d.energy(mode.energy))], s=70, marker=marker, zorder=5, linewidths=1.4,
                 facecolors=colour if filled else "white", edgecolors=colour,
             ))
     return artists
@@ -161,7 +218,7 @@ def edge_mode_legend(ax, *, spinful: bool):
 
 
 def plot_bulk_bands(path: dict, chern, *, ax, fermi_energy: float | None = None,
-                    energy_range: tuple[float, float] | None = None):
+                    energy_range: tuple[float, float] | None = None, display: Display | None = None):
     """Bulk bands along Gamma-X-M-Gamma with each band's Chern number beside it.
 
     Parameters
@@ -175,21 +232,25 @@ def plot_bulk_bands(path: dict, chern, *, ax, fermi_energy: float | None = None,
     fermi_energy : float, optional
     energy_range : (float, float), optional
         Vertical limits (units of t); all bands by default.
+    display : Display, optional
+        Units of the energy axis (lattice units by default).
 
     Returns
     -------
     dict
         ``{"lines": [...], "labels": [...]}``.
     """
+    d = display or Display()
+    E = d.energy
     s = path["distance"]
     styles = {"up": dict(color="C0", ls="-"), "down": dict(color="C3", ls="--"), None: dict(color="k", ls="-")}
     lines, labels = [], []
     for spin, energies in path["energies"].items():
         for n in range(energies.shape[1]):
-            lines += ax.plot(s, energies[:, n], lw=1.0, **styles[spin])
+            lines += ax.plot(s, E(energies[:, n]), lw=1.0, **styles[spin])
     lo, hi = energy_range or (min(b.energy_min for b in chern.bands), max(b.energy_max for b in chern.bands))
     pad = 0.04 * (hi - lo)
-    ax.set_ylim(lo - pad, hi + pad)
+    ax.set_ylim(float(E(lo - pad)), float(E(hi + pad)))
     shown_groups = set()
     for band in chern.bands:
         centre = 0.5 * (band.energy_min + band.energy_max)
@@ -205,29 +266,115 @@ def plot_bulk_bands(path: dict, chern, *, ax, fermi_energy: float | None = None,
         else:
             text = f"C={band.chern}"
         colour = styles[band.spin]["color"]
-        labels.append(ax.annotate(text, (1.0, centre), xycoords=("axes fraction", "data"),
+        labels.append(ax.annotate(text, (1.0, float(E(centre))), xycoords=("axes fraction", "data"),
                                   xytext=(4, 0),
                                   textcoords="offset points", va="center", fontsize=7, color=colour,
                                   annotation_clip=False))
     for gap in chern.gaps:  # Chern sum of everything below each gap in view
         if gap.energy_min >= lo - pad and gap.energy_max <= hi + pad:
-            ax.axhspan(gap.energy_min, gap.energy_max, color="0.93", zorder=0)
+            ax.axhspan(float(E(gap.energy_min)), float(E(gap.energy_max)), color="0.93", zorder=0)
             labels.append(ax.annotate(
-                f"gap {gap.below}: sum C = {gap.chern}", (0.02, gap.middle),
+                f"gap {gap.below}: sum C = {gap.chern}", (0.02, float(E(gap.middle))),
                 xycoords=("axes fraction", "data"), ha="left", va="bottom", fontsize=7, color="0.35"))
     if fermi_energy is not None:
-        ax.axhline(fermi_energy, color="k", ls=":", lw=0.8)
+        ax.axhline(float(E(fermi_energy)), color="k", ls=":", lw=0.8)
     for pos, name in path["ticks"]:
         ax.axvline(pos, color="0.85", lw=0.6, zorder=0)
     ax.set_xticks([p for p, _ in path["ticks"]], [n for _, n in path["ticks"]])
     ax.set_xlim(s[0], s[-1])
-    ax.set_ylabel("$E$ ($t$)")
+    ax.set_ylabel(f"{d.energy_label} ({d.energy_unit})")
     ax.set_xlabel("reduced momentum $(k_1, k_2)$ of the magnetic unit cell")
     return {"lines": lines, "labels": labels}
 
 
+def plot_level_diagram(chern, *, ax, fermi_energy: float | None = None,
+                       energy_range: tuple[float, float] | None = None, display: Display | None = None,
+                       continuum: dict | None = None):
+    """Landau-level diagram of flat bulk bands: one column per spin, each group a bar with its Chern number.
+
+    For the Landau-level regime, where bands are flat on the scale of the
+    gaps and a momentum path shows only horizontal lines. Each group of
+    bands (a Landau level of ``|p|`` subbands) is drawn over its energy range
+    with its Chern number; ``continuum`` (``{spin: energies in t}``) adds the
+    continuum levels as dashed lines for comparison; E_F's gap is shaded
+    and labelled with the Chern sum below it.
+
+    Returns
+    -------
+    dict
+        ``{"bars": [...], "labels": [...]}``.
+    """
+    d = display or Display()
+    E = d.energy
+    spins = [s for s in chern.sectors]
+    columns = {spin: i for i, spin in enumerate(spins)}
+    styles = {"up": "C0", "down": "C3", None: "k"}
+    lo, hi = energy_range or (min(b.energy_min for b in chern.bands), max(b.energy_max for b in chern.bands))
+    pad = 0.04 * (hi - lo)
+    bars, labels = [], []
+    for group in chern.groups:
+        centre = 0.5 * (group.energy_min + group.energy_max)
+        if not lo - pad <= centre <= hi + pad:
+            continue
+        x = columns[group.spin]
+        top, bottom = float(E(group.energy_max)), float(E(group.energy_min))
+        thick = max(top - bottom, 0.004 * float(E(hi) - E(lo)))
+        bars.append(ax.add_patch(Rectangle(
+            (x + 0.1, 0.5 * (top + bottom) - thick / 2), 0.55, thick, color=styles[group.spin])))
+        labels.append(ax.annotate(f"C = {group.chern}" + (f" ({len(group.bands)} bands)" if len(group.bands) > 1
+                                                          else ""),
+                                  (x + 0.68, 0.5 * (top + bottom)), va="center", fontsize=7,
+                                  color=styles[group.spin]))
+    if continuum:
+        for spin, levels in continuum.items():
+            if spin not in columns:
+                continue
+            x = columns[spin]
+            for e in levels:
+                if lo - pad <= e <= hi + pad:
+                    ax.plot([x + 0.1, x + 0.65], [float(E(e))] * 2, color="0.4", ls="--", lw=0.8)
+    if fermi_energy is not None:
+        ax.axhline(float(E(fermi_energy)), color="k", ls=":", lw=0.8)
+        for gap in chern.gaps:
+            if gap.energy_min < fermi_energy < gap.energy_max:
+                ax.axhspan(float(E(gap.energy_min)), float(E(gap.energy_max)), color="0.93", zorder=0)
+                labels.append(ax.annotate(f"gap above {gap.below} bands: sum C = {gap.chern}",
+                                          (0.02, float(E(fermi_energy))), xycoords=("axes fraction", "data"),
+                                          xytext=(0, 3), textcoords="offset points", fontsize=7, color="0.3"))
+    ax.set_xlim(0, len(spins))
+    ax.set_ylim(float(E(lo - pad)), float(E(hi + pad)))
+    ax.set_xticks([i + 0.4 for i in range(len(spins))],
+                  [f"spin {s}" if s else "spinless" for s in spins])
+    ax.set_ylabel(f"{d.energy_label} ({d.energy_unit})")
+    return {"bars": bars, "labels": labels}
+
+
+def _continuum_levels(result, lo: float, hi: float) -> dict:
+    """Continuum Landau levels ``hbar omega_c (n + 1/2) -+ Delta/2`` (t) of a square-lattice run in [lo, hi]."""
+    sc = result.scenario
+    phi = abs(float(sc.lattice.flux))
+    if sc.lattice.kind != "square" or phi == 0:
+        return {}
+    hw = 4 * np.pi * phi
+    bottom = -4.0 + sc.lattice.onsite
+    n = np.arange(int(max(0, (hi - bottom) / hw)) + 2)
+    base = bottom + hw * (n + 0.5)
+    if not sc.spin.enabled:
+        return {None: base}
+    return {"up": base - sc.spin.zeeman / 2, "down": base + sc.spin.zeeman / 2}
+
+
 def _title(result) -> str:
     sc = result.scenario
+    units = getattr(result, "units", None)
+    if units is not None:
+        field = sc.field
+        carriers = (f", n = {field.density_cm2:.3g} cm$^{{-2}}$, $\\nu$ = {units.filling:.3g}"
+                    if units.filling is not None else
+                    f", $E_F$ = {field.fermi_mev:g} meV" if field.fermi_mev is not None else "")
+        return (f"{sc.title or 'scenario'}: B = {units.b_tesla:g} T along {'+z' if units.b_tesla > 0 else '-z'}"
+                f"{carriers}\nlattice a = {units.lattice_constant_nm:.3g} nm, flux {sc.lattice.flux} per plaquette "
+                f"({units.b_lattice_tesla:.5g} T)")
     if sc.lattice.kind in ZERO_FIELD:
         return f"{sc.title or 'scenario'}: {'Haldane' if sc.lattice.kind == 'haldane' else 'Qi-Wu-Zhang'} model"
     cell = "hexagon" if sc.lattice.kind == "honeycomb" else "plaquette"
@@ -250,17 +397,28 @@ def ribbon_figure(result):
 
     fig, ax = plt.subplots(figsize=(7.5, 5.2), layout="constrained")
     extent, period, across = _ribbon_geometry(result)
+    d = display_units(result)
+    if d.physical:
+        across = "nm; 0 = bottom edge"
     artists = plot_ribbon_spectrum(result.spectrum, ax=ax, width=result.scenario.ribbon.width,
-                                   fermi_energy=result.fermi_energy, extent=extent, length_unit=period)
-    plot_edge_modes(result.edges, ax=ax)
+                                   fermi_energy=result.fermi_energy, extent=extent, length_unit=period, display=d)
+    plot_edge_modes(result.edges, ax=ax, display=d)
     edge_mode_legend(ax, spinful=result.scenario.spin.enabled)
     if "legend" in artists:
         ax.add_artist(artists["legend"])
     sm = plt.cm.ScalarMappable(norm=artists["norm"], cmap="coolwarm")
-    fig.colorbar(sm, ax=ax, label=rf"$\langle y \rangle$ across the ribbon ({across})")
+    bar = fig.colorbar(sm, ax=ax, label=rf"$\langle y \rangle$ across the ribbon ({across})")
+    if d.magnetic_length:
+        twin = bar.ax.secondary_yaxis("left", functions=(lambda y: y / d.magnetic_length,
+                                                         lambda u: u * d.magnetic_length))
+        twin.set_ylabel("$l_B$", fontsize=8)
+        twin.tick_params(labelsize=7)
     s = result.summary
+    hall = ""
+    if s["hall"]["r_xy_ohm"] is not None and d.physical:
+        hall = f", $R_{{xy}}$ = {s['hall']['r_xy_ohm'] / 1e3:.4f} k$\\Omega$"
     ax.set_title(f"{_title(result)}\nC = {s['bulk']['chern_below_fermi']}, edge net "
-                 f"{s['edges']['bottom']['net']:+d} (bottom) / {s['edges']['top']['net']:+d} (top)",
+                 f"{s['edges']['bottom']['net']:+d} (bottom) / {s['edges']['top']['net']:+d} (top){hall}",
                  fontsize=9)
     return fig
 
@@ -289,15 +447,27 @@ def bulk_figure(result):
 
     fig, ax = plt.subplots(figsize=(6.5, 5.2), layout="constrained")
     ef = result.fermi_energy
-    plot_bulk_bands(result.bulk_path, result.chern, ax=ax, fermi_energy=ef,
-                    energy_range=bulk_energy_range(result.chern, ef))
+    d = display_units(result)
+    window = bulk_energy_range(result.chern, ef)
+    if result.chern.solver == "landau":
+        plot_level_diagram(result.chern, ax=ax, fermi_energy=ef, energy_range=window, display=d,
+                           continuum=_continuum_levels(result, *window))
+        fig.legend(handles=[Line2D([], [], color="k", ls=":", label="$E_F$"),
+                            Line2D([], [], color="0.4", ls="--",
+                                   label=r"continuum $\hbar\omega_c(n+1/2) \mp \Delta_Z/2$")],
+                   loc="outside lower center", ncol=2, fontsize=8)
+        ax.set_title(f"{_title(result)}\nLandau levels of the bulk (bars: band ranges), Chern numbers on a "
+                     f"{result.chern.grid[0]}x{result.chern.grid[1]} grid", fontsize=9)
+        return fig
+    plot_bulk_bands(result.bulk_path, result.chern, ax=ax, fermi_energy=ef, energy_range=window, display=d)
     handles = [Line2D([], [], color="k", ls=":", label="$E_F$")]
     if result.scenario.spin.enabled:
         handles = [Line2D([], [], color="C0", label="spin up"),
                    Line2D([], [], color="C3", ls="--", label="spin down")] + handles
     ax.legend(handles=handles, loc="upper left", fontsize=8)
+    solver = ("; lowest bands only (Landau-level solver)" if result.chern.solver == "landau" else "")
     ax.set_title(f"{_title(result)}\nbulk bands, Chern numbers on a "
-                 f"{result.chern.grid[0]}x{result.chern.grid[1]} grid", fontsize=9)
+                 f"{result.chern.grid[0]}x{result.chern.grid[1]} grid{solver}", fontsize=9)
     return fig
 
 

@@ -458,23 +458,26 @@ def _interaction_lines(summary: dict) -> list[str]:
 
 
 def _units_lines(summary: dict) -> list[str]:
-    """Quantities derived from [material] and [field], with units."""
+    """Quantities derived from [material] and [field], with units, at the field asked for."""
     u = summary.get("units")
     if not u:
         return []
-    b = summary["config"]["field"]["b_tesla"]
+    a = u["lattice_constant_nm"]
+    how = ("chosen: flux exactly 1/q" if u["lattice_constant_auto"] else "given")
     lines = [
-        f"  units        t = {u['hopping_mev']:.4f} meV; B = {b:g} T -> flux {u['flux']} "
-        f"(B used {u['b_used_tesla']:.4f} T, {100 * u['b_relative_error']:+.2f} %)",
-        f"               l_B = {u['magnetic_length_nm']:.3f} nm = {u['magnetic_length_a']:.2f} a, "
+        f"  field        B = {u['b_tesla']:g} T along {u['field_direction']} (asked for); lattice flux {u['flux']} "
+        f"per plaquette = {u['b_lattice_tesla']:.6g} T ({100 * u['b_relative_error']:+.3f} %, tolerance "
+        f"{100 * u['tolerance']:g} %)",
+        f"  material     a = {a:.4g} nm ({how}), t = hbar^2/(2 m* a^2) = {u['hopping_mev']:.4f} meV",
+        f"  scales       l_B = {u['magnetic_length_nm']:.3f} nm = {u['magnetic_length_a']:.2f} a, "
         f"hbar*omega_c = {u['cyclotron_mev']:.4f} meV, |g| mu_B B = {u['zeeman_mev']:.4f} meV, "
-        f"e^2/(eps l_B) = {u['coulomb_mev']:.3f} meV",
+        f"e^2/(4 pi eps0 eps_r l_B) = {u['coulomb_mev']:.3f} meV",
     ]
     if u["filling"] is not None:
-        lines.append(f"               filling factor nu = n h/(e B) = {u['filling']:.4f}")
+        lines.append(f"  filling      nu = n h/(e B) = {u['filling']:.4f} at {u['b_tesla']:g} T")
     if u["fermi_t"] is not None:
-        lines.append(f"               E_F = {summary['config']['field']['fermi_mev']:g} meV above the "
-                     f"band bottom = {u['fermi_t']:.5f} t")
+        lines.append(f"  Fermi level  E_F = {summary['config']['field']['fermi_mev']:g} meV above the "
+                     f"band bottom = {u['fermi_t']:.6f} t")
     return lines
 
 
@@ -514,8 +517,15 @@ def _topology_lines(summary: dict) -> list[str]:
     if b["refined_grid"]:
         conv = (f"; {b['refined_grid'][0]}x{b['refined_grid'][1]}: "
                 + ("same Chern numbers" if b["converged"] else "DIFFERENT Chern numbers, refine the grid"))
+    ph = summary.get("physical")
+    solver = ""
+    if b.get("solver") == "landau":
+        solver = (f"Landau-level solver, the lowest {b['bands_computed']} of {b['bands_total']} bands "
+                  "(the rest lie above E_F); ")
+    elif b.get("solver"):
+        solver = "dense solver (every band); "
     lines = [
-        f"  bulk         {len(b['bands'])} bands, {len(b['gaps'])} open gaps on a "
+        f"  bulk         {solver}{len(b['bands'])} bands, {len(b['gaps'])} open gaps on a "
         f"{b['grid'][0]}x{b['grid'][1]} grid{conv}",
         f"  Fermi energy {f['energy']:.5f} t in the gap above {f['gap_below']} bands "
         + (f"({window})" if "note" not in f else "(self-consistent: mid-way between the highest occupied "
@@ -527,8 +537,28 @@ def _topology_lines(summary: dict) -> list[str]:
     ]
     if e["message"]:
         lines.append(f"  warning      {e['message']}")
-    r_xy = "infinite (C = 0)" if h["r_xy_ohm"] is None else f"{h['r_xy_ohm']:.3f} ohm"
-    lines.append(f"  Hall         sigma_xy = {h['sigma_xy']} e^2/h, R_xy = {r_xy}")
+    if ph:
+        lo_m, hi_m = ph["gap_mev"]
+        gap_text = ", ".join("-inf" if x is None else f"{x:.4f}" for x in (lo_m, hi_m))
+        lines.insert(2, f"               = {ph['fermi_energy_mev']:.4f} meV above the band bottom "
+                        f"(gap {gap_text} meV)")
+        for name in ("bottom", "top"):
+            modes = e[name]["modes"]
+            if not modes:
+                continue
+            text = "; ".join(
+                (f"{m['spin']} " if m["spin"] else "") + ("+x" if m["velocity"] > 0 else "-x")
+                + f" at {m['y_nm']:.1f} nm ({m['y_lb']:.2f} l_B), v = {m['velocity_m_s']:.3g} m/s"
+                + ("" if m.get("drift_m_s") is None else f" (E x B drift {m['drift_m_s']:.3g} m/s)")
+                for m in modes)
+            lines.append(f"  {name + ' modes':12s} {text}")
+    if h["r_xy_ohm"] is None:
+        r_xy = "infinite (C = 0)"
+    elif ph:
+        r_xy = f"{h['r_xy_ohm'] / 1e3:.6f} kOhm"
+    else:
+        r_xy = f"{h['r_xy_ohm']:.3f} ohm"
+    lines.append(f"  Hall         sigma_xy = {h['sigma_xy']} e^2/h, R_xy = -1/sigma_xy = {r_xy}")
     r = h["routes"]
     streda = ("n/a" if r["streda"] is None
               else f"{r['streda']:.6f} (off integer by {r['streda_deviation']:.1e})")

@@ -46,10 +46,11 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.linalg as sla
+import scipy.sparse as sp
 from tqdm.auto import tqdm
 
 from ._threads import eigh_stack
-from .hamiltonian import RibbonHamiltonian
+from .hamiltonian import RibbonHamiltonian, abs_max, diagonal
 
 __all__ = ["RibbonSpectrum", "ribbon_spectrum", "k_grid", "BLOCK_SOLVERS"]
 
@@ -106,6 +107,16 @@ class RibbonSpectrum:
     solver: str
 
 
+def _ticks(items, progress, desc: str):
+    """Iterate ``items``, advancing ``progress``: a Stage (``update()``), True (a bar) or False."""
+    if hasattr(progress, "update"):
+        for item in items:
+            yield item
+            progress.update()
+        return
+    yield from tqdm(items, disable=not progress, desc=desc, leave=False)
+
+
 def _observables(prob, ham: RibbonHamiltonian, velocity) -> dict:
     """Per-state observables from ``|psi|^2`` of shape (..., n, m)."""
     y_mean = np.einsum("i,...im->...m", ham.position, prob)
@@ -134,19 +145,18 @@ def _solve_tridiagonal(ham: RibbonHamiltonian, k, window, observables, progress)
     h0, h1 = ham.h0, ham.h1
     n = ham.size
     phase = np.exp(-1j * k)[:, None]
-    lower = np.arange(1, n), np.arange(n - 1)
-    upper = lower[::-1]
-    d = np.real(np.diag(h0))[None, :] + 2 * np.real(np.diag(h1)[None, :] * phase)
-    e = h0[lower][None, :] + h1[lower][None, :] * phase + np.conj(h1[upper])[None, :] / phase
+    h1_lower, h1_upper = diagonal(h1, -1), diagonal(h1, 1)     # h1[i+1, i], h1[i, i+1]
+    d = np.real(diagonal(h0))[None, :] + 2 * np.real(diagonal(h1)[None, :] * phase)
+    e = diagonal(h0, -1)[None, :] + h1_lower[None, :] * phase + np.conj(h1_upper)[None, :] / phase
     e_abs = np.abs(e)
     rotate = np.exp(-1j * np.angle(e))
-    dd = 2 * np.imag(np.diag(h1)[None, :] * phase)
-    de = (-1j * h1[lower][None, :] * phase + 1j * np.conj(h1[upper])[None, :] / phase) * rotate
+    dd = 2 * np.imag(diagonal(h1)[None, :] * phase)
+    de = (-1j * h1_lower[None, :] * phase + 1j * np.conj(h1_upper)[None, :] / phase) * rotate
     de = np.real(de)
 
     rows = []
     _dstevd = sla.lapack.dstevd
-    for i in tqdm(range(len(k)), disable=not progress, desc="ribbon spectrum", leave=False):
+    for i in _ticks(range(len(k)), progress, "ribbon spectrum"):
         if window is None:
             kwargs = {}
         else:
@@ -182,7 +192,7 @@ def _band_storage(hk: np.ndarray, b: int) -> np.ndarray:
 def _solve_banded(ham: RibbonHamiltonian, k, window, observables, progress):
     b = ham.bandwidth()
     rows = []
-    for i in tqdm(range(len(k)), disable=not progress, desc="ribbon spectrum", leave=False):
+    for i in _ticks(range(len(k)), progress, "ribbon spectrum"):
         ab = _band_storage(ham.bloch(k[i]), b)
         kwargs = {} if window is None else dict(select="v", select_range=window)
         if not observables:
@@ -201,7 +211,7 @@ def _solve_dense(ham: RibbonHamiltonian, k, window, observables, progress):
     chunk = max(1, _DENSE_CHUNK_ELEMENTS // (n * n))
     rows = []
     starts = range(0, len(k), chunk)
-    for s in tqdm(starts, disable=not progress, desc="ribbon spectrum", leave=False):
+    for s in _ticks(starts, progress, "ribbon spectrum"):
         ks = k[s : s + chunk]
         hk = ham.bloch(ks)
         if observables:
@@ -239,12 +249,13 @@ def _uniform_shift(a: RibbonHamiltonian, b: RibbonHamiltonian) -> float | None:
         return None
     if len(a.far) != len(b.far):
         return None
-    tol = 1e-14 * max(max(np.abs(m).max(initial=0.0) for m in (a.h0, *a.hoppings)), 1.0)
+    tol = 1e-14 * max(max(abs_max(m) for m in (a.h0, *a.hoppings)), 1.0)
     diff = b.h0 - a.h0
     c = float(np.real(diff[0, 0]))
-    if any(np.abs(mb - ma).max(initial=0.0) > tol for ma, mb in zip(a.hoppings, b.hoppings)):
+    if any(abs_max(mb - ma) > tol for ma, mb in zip(a.hoppings, b.hoppings)):
         return None
-    if np.abs(diff - c * np.eye(a.size)).max(initial=0.0) > tol:
+    identity = sp.identity(a.size, format="csr") if sp.issparse(diff) else np.eye(a.size)
+    if abs_max(diff - c * identity) > tol:
         return None
     return c
 
@@ -287,8 +298,9 @@ def ribbon_spectrum(
     observables : bool
         Compute eigenvectors and the per-state observables; if False only the
         energies are returned (the observable fields are None).
-    progress : bool
-        Show a progress bar.
+    progress : bool or Stage
+        Show a progress bar (True), or advance a
+        :class:`topoedge.progress.Stage` once per momentum.
 
     Returns
     -------
@@ -323,6 +335,11 @@ def ribbon_spectrum(
     keys = _FIELDS if observables else ("energy",)
     names, merged = [], []
     shift = _uniform_shift(parts[0], parts[1]) if len(parts) == 2 else None
+    if hasattr(progress, "set_total"):
+        solves = 1 if shift is not None else len(parts)
+        steps = [len(k) if _choose(p, solver) != "dense" else
+                 len(range(0, len(k), max(1, _DENSE_CHUNK_ELEMENTS // (p.size * p.size)))) for p in parts]
+        progress.set_total(sum(steps[:solves]))
     if shift is not None:
         # The second spin block is the first one shifted by a constant (a
         # spin-independent model with a uniform Zeeman term): diagonalise

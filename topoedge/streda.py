@@ -128,15 +128,21 @@ def neighbour_fluxes(flux: Fraction, *, count: int = 4, q_max: int | None = None
     """The ``count`` fluxes closest to ``flux`` with denominators up to ``q_max``.
 
     ``q_max`` defaults to ``max(4 q, 16)``; fluxes keep the sign of ``flux``
-    and stay within ``(0, 1)`` in magnitude.
+    and stay within ``(0, 1)`` in magnitude. For every denominator ``d`` only
+    the ``count`` numerators next to ``|flux| d`` can be among the closest, so
+    the search costs ``O(q_max count)``.
     """
     q = flux.denominator
     q_max = q_max or max(4 * q, 16)
     sign = -1 if flux < 0 else 1
     target = abs(flux)
-    candidates = {
-        Fraction(p, d) for d in range(1, q_max + 1) for p in range(1, d) if gcd(p, d) == 1
-    } - {target}
+    candidates = set()
+    for d in range(2, q_max + 1):
+        centre = (target.numerator * d) // target.denominator
+        for p in range(centre - count, centre + count + 2):
+            if 1 <= p < d and gcd(p, d) == 1:
+                candidates.add(Fraction(p, d))
+    candidates.discard(target)
     nearest = sorted(candidates, key=lambda f: (abs(f - target), f.denominator))[:count]
     return sorted(sign * f for f in nearest)
 
@@ -148,20 +154,26 @@ def _candidates(flux: Fraction, neighbours: int, q_max: int | None) -> list[Frac
 
 
 def streda_slope(
-    bulk: Callable[[Fraction], BlochHamiltonian],
+    bulk: Callable[[Fraction], BlochHamiltonian] | None,
     flux: Fraction,
     fermi_energy: float,
     *,
     neighbours: int = 4,
     q_max: int | None = None,
+    states: Callable[[Fraction], StredaPoint] | None = None,
 ) -> StredaResult:
     """Hall conductance in e^2/h from ``d n_site / d phi`` at fixed E_F.
 
     Parameters
     ----------
-    bulk : callable
+    bulk : callable or None
         ``bulk(phi)`` returns the BlochHamiltonian of the model at flux ``phi``
-        (everything else fixed).
+        (everything else fixed); the counts are then :func:`states_below`.
+    states : callable, optional
+        Instead of ``bulk``: ``states(phi)`` returns the :class:`StredaPoint`
+        at flux ``phi`` directly (e.g.
+        :func:`topoedge.landau.landau_states_below`, which counts with
+        band-matrix eigenvalues at the band-edge momenta).
     flux : Fraction
         The flux of the scenario; E_F must lie in one of its gaps.
     fermi_energy : float
@@ -182,18 +194,25 @@ def streda_slope(
         When E_F is not in a gap at ``flux`` or no nearby flux keeps it in a gap.
     """
     flux = Fraction(flux)
-    centre = states_below(bulk(flux), fermi_energy, flux=flux)
+    if states is None:
+        if bulk is None:
+            raise ValueError("streda_slope needs bulk or states")
+
+        def states(phi):
+            return states_below(bulk(phi), fermi_energy, flux=phi)
+
+    centre = states(flux)
     if centre.gap is None:
         raise ValueError(f"E_F = {fermi_energy:.6g} t is not in a gap at flux {flux}; the Streda route needs one")
     if q_max is None:  # nearby fluxes with small denominators first, then finer ones
         try:
-            return _slope(bulk, flux, fermi_energy, centre, neighbours, max(2 * flux.denominator, 12))
+            return _slope(states, flux, fermi_energy, centre, neighbours, max(2 * flux.denominator, 12))
         except ValueError:
             q_max = max(4 * flux.denominator, 16)
-    return _slope(bulk, flux, fermi_energy, centre, neighbours, q_max)
+    return _slope(states, flux, fermi_energy, centre, neighbours, q_max)
 
 
-def _slope(bulk, flux, fermi_energy, centre, neighbours, q_max) -> StredaResult:
+def _slope(states, flux, fermi_energy, centre, neighbours, q_max) -> StredaResult:
     points, rejected = [centre], []
     # Nearest fluxes first. The gap must stay open from the centre to a
     # neighbour: on each side, the first flux with E_F in a band ends that
@@ -218,7 +237,7 @@ def _slope(bulk, flux, fermi_energy, centre, neighbours, q_max) -> StredaResult:
         side = 1 if other > flux else -1
         if closed[side]:
             continue
-        point = states_below(bulk(other), fermi_energy, flux=other)
+        point = states(other)
         if point.gap is None or not same_gap(point):
             closed[side] = True
             rejected.append(point)
