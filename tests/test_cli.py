@@ -556,11 +556,27 @@ def test_bench_json(tmp_path):
     scenario = write_config(tmp_path)
     (tmp_path / "sweep.toml").write_text(
         f'scenario = "{scenario.name}"\n\n[[axis]]\nkey = "spin.zeeman"\nvalues = [0.0, 0.1]\n')
+    (tmp_path / "gaas.toml").write_text('[material]\npreset = "gaas"\nlattice_constant_nm = "auto"\n'
+                                        '[field]\nb_tesla = 1.0\ndensity_cm2 = 1e11\n'
+                                        '[ribbon]\nwidth = 70\n[spectrum]\nk_points = 21\n')
     proc = topoedge_cli("bench", "--width", 20, "--k-points", 5, "--chern-q", 6, "--bars", "80x40",
-                        "--hf-size", "40x16", "--sweep", "sweep.toml", "--json", cwd=tmp_path)
+                        "--hf-size", "40x16", "--sweep", "sweep.toml", "--landau-q", "48,60",
+                        "--gaas", "gaas.toml", "--json", cwd=tmp_path)
     assert proc.returncode == 0, proc.stderr
     full = leading_json(proc.stdout)
-    assert full.keys() == {"ribbon", "chern", "hallbar", "hf", "sweep"}
+    assert full.keys() == {"ribbon", "chern", "landau", "gaas", "hallbar", "hf", "sweep"}
+    landau = full["landau"]
+    # dense at 12, 24, 48 (measured), Landau-level solver at those and at 60;
+    # the lowest four gaps have t_r = r at flux 1/q (TKNN, PRL 49, 405 (1982)).
+    assert [row["q"] for row in landau["rows"]] == [12, 24, 48, 60]
+    assert all(row["tknn"] for row in landau["rows"])
+    assert [row["dense"] for row in landau["rows"]] == ["measured"] * 3 + ["extrapolated"]
+    assert all(row["dense_gaps_equal"] for row in landau["rows"][:3])
+    assert all(row["peak_rss_mb"] > 0 for row in landau["rows"])
+    gaas = full["gaas"]["rows"]
+    assert [row["b_tesla"] for row in gaas] == [1.0, 10.0]
+    assert all(row["routes_agree"] and row["bulk_edge_agree"] for row in gaas)
+    assert [row["chern"] for row in gaas] == [-4, -2]   # nu = 4.1 and 2.1, field along +z
     sweep = full["sweep"]
     assert sweep["points"] == 2 and sweep["failed"] == 0 and sweep["tables_identical"] is True
     assert set(sweep["seconds"]) == {"1", "2"} and sweep["ratio"] > 0
@@ -586,7 +602,7 @@ def test_bench_json(tmp_path):
     # SciPy's (unitarity of the S-matrix; rounding ~1e-14 e^2/h).
     assert "scipy_sparse" in bar[0]["seconds"]
     assert all(v < 1e-9 for v in bar[0]["max_conductance_difference"].values())
-    assert listing(tmp_path) == ["sweep.toml", "tiny.toml"]  # bench writes no files of its own
+    assert listing(tmp_path) == ["gaas.toml", "sweep.toml", "tiny.toml"]  # bench writes no files of its own
 
 
 def test_bench_rejects_bad_hf_size(tmp_path):

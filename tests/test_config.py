@@ -23,7 +23,7 @@ FULL = {
                                      "table": [[0, 2.0], [1.5, 0.5], [4, 0]]}},
     "spectrum": {"k_points": 101, "window": 0.5, "solver": "banded"},
     "fermi": {"energy": -0.3},
-    "chern": {"grid": [16, 20], "gap_min": 1e-4, "refine": False},
+    "chern": {"grid": [16, 20], "gap_min": 1e-4, "refine": False, "solver": "dense"},
     "edges": {"k_points": 200},
     "hallbar": {"enabled": True, "length": 60, "width": 30, "disorder": 0.5, "seeds": 3},
 }
@@ -66,6 +66,7 @@ energy = -0.3
 grid = [16, 20]
 gap_min = 1e-4
 refine = false
+solver = "dense"
 
 [edges]
 k_points = 200

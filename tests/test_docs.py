@@ -272,11 +272,12 @@ def test_guaranteed_summary_keys_are_in_a_run(tiny_run):
     for path in documented_paths("**Guaranteed keys.**"):
         lookup(summary, path)
     # The tiny run is what the README says such a run gives: C = 2 (one per
-    # spin), +C on the bottom edge, -C on the top edge, R_xy = h / (C e^2).
+    # spin), +C on the bottom edge, -C on the top edge, R_xy = -1/sigma_xy =
+    # -h / (C e^2) (flux 1/5 > 0 is a field along -z for electrons).
     assert summary["bulk"]["chern_below_fermi"] == 2
     assert (summary["edges"]["bottom"]["net"], summary["edges"]["top"]["net"]) == (2, -2)
     assert summary["check"]["bulk_edge_agree"] is True
-    assert summary["hall"]["r_xy_ohm"] == pytest.approx(25812.807 / 2, rel=1e-7)
+    assert summary["hall"]["r_xy_ohm"] == pytest.approx(-25812.807 / 2, rel=1e-7)
 
 
 def test_every_top_level_summary_key_is_documented(tiny_run):

@@ -15,6 +15,14 @@ several bar sizes.
 DIIS and with linear mixing on the same ribbon, and the scaling of the
 exchange term with N_k and W.
 
+``bench_landau``: Chern numbers of the lowest Landau levels at flux 1/q by
+the Landau-level solver against the dense route on the same grid (measured
+at small q, extrapolated from its measured growth beyond), with the peak
+memory of the Landau-level solver.
+
+``bench_gaas``: whole ``topoedge run`` processes of a GaAs scenario at 1 T
+and 10 T.
+
 Both sides of each comparison run in one process, one after the other; the
 ratios are what matters, since the machines are shared and absolute times are
 noisy.
@@ -35,7 +43,8 @@ from .pipeline import build_bulk, fermi_level, scenario_potential
 from .builders import model_params, ribbon_builder
 from .spectrum import k_grid, ribbon_spectrum
 
-__all__ = ["bench_ribbon", "bench_chern", "bench_hallbar", "bench_hf", "mumps_available"]
+__all__ = ["bench_ribbon", "bench_chern", "bench_hallbar", "bench_hf", "bench_landau", "bench_gaas",
+           "mumps_available"]
 
 
 def _timed(func):
@@ -375,3 +384,121 @@ def bench_sweep(path, *, workers=(1, 2)) -> dict:
             "seconds": {str(n): s for n, s in seconds.items()},
             "ratio": seconds[min(workers)] / seconds[max(workers)],
             "tables_identical": all(t == tables[0] for t in tables)}
+
+
+_LANDAU_CHILD = """
+import json, sys, time
+from fractions import Fraction
+from topoedge.harper import HarperCell
+from topoedge.landau import landau_chern
+q, levels = int(sys.argv[1]), int(sys.argv[2])
+start = time.perf_counter()
+result = landau_chern(HarperCell(Fraction(1, q), spin=False), bands=levels)
+seconds = time.perf_counter() - start
+# VmHWM: the peak resident memory of this process image (ru_maxrss would carry the parent's over)
+peak = next(int(line.split()[1]) for line in open("/proc/self/status") if line.startswith("VmHWM:"))
+print(json.dumps({"seconds": seconds, "grid": list(result.grid),
+                  "gaps": [[g.below, g.chern] for g in result.gaps if g.below <= levels],
+                  "peak_rss_mb": peak / 1024}))
+"""
+
+
+def _landau_child(q: int, levels: int) -> dict:
+    """The Landau-level solver at flux 1/q in a fresh process: time, gaps and peak resident memory."""
+    import json
+    import subprocess
+    import sys
+
+    proc = subprocess.run([sys.executable, "-c", _LANDAU_CHILD, str(q), str(levels)], capture_output=True,
+                          text=True, check=True)
+    return json.loads(proc.stdout.strip().splitlines()[-1])
+
+
+def bench_landau(qs=(200, 1000, 2000), *, levels: int = 4, dense_qs=(50, 100, 200), k2_points: int = 8) -> dict:
+    """Chern numbers of the lowest Landau levels: the Landau-level solver against the dense route.
+
+    At flux ``1/q`` (spinless) the Chern numbers of the ``levels`` lowest
+    bands are computed by :func:`topoedge.landau.landau_chern` on the ``q x
+    k2_points`` grid, each ``q`` in a fresh process (its peak resident memory
+    is measured there, interpreter and libraries included), and by the dense
+    route (:func:`topoedge.chern.chern_numbers`: every band at every point
+    of the same grid) for ``dense_qs``. The dense time grows as a power of
+    ``q``, fitted to the measured points; at larger ``q`` it is extrapolated
+    from that fit (marked ``extrapolated``: a dense run there would take hours
+    and ``16 q^2 n`` bytes per grid row).
+
+    Returns
+    -------
+    dict
+        Per ``q``: Landau-level seconds, gap Chern numbers (TKNN: ``r`` below
+        gap ``r``), peak memory, dense seconds (measured or extrapolated)
+        and their ratio; the fitted exponent.
+    """
+    from fractions import Fraction
+
+    from .bloch import BlochHamiltonian
+    from .builders import bulk_builder
+
+    dense = {}
+    for q in dense_qs:
+        phi = Fraction(1, q)
+        bloch = BlochHamiltonian.from_kwant(bulk_builder(phi, spin=False), params=model_params(phi=phi))
+        t, result = _timed(lambda: chern_numbers(bloch, grid=(q, k2_points)))
+        dense[q] = (t, [[g.below, g.chern] for g in result.gaps if g.below <= levels])
+    xs = np.log(np.array(sorted(dense), dtype=float))
+    ys = np.log(np.array([dense[q][0] for q in sorted(dense)]))
+    exponent, intercept = np.polyfit(xs, ys, 1)
+    rows = []
+    for q in sorted(set(qs) | set(dense_qs)):
+        child = _landau_child(q, levels)
+        measured = q in dense
+        dense_seconds = dense[q][0] if measured else float(np.exp(intercept + exponent * np.log(q)))
+        rows.append({
+            "q": q, "grid": child["grid"], "landau_seconds": child["seconds"], "peak_rss_mb": child["peak_rss_mb"],
+            "gaps": child["gaps"], "tknn": all(c == r for r, c in child["gaps"]) and len(child["gaps"]) == levels,
+            "dense_seconds": dense_seconds, "dense": "measured" if measured else "extrapolated",
+            "dense_gaps_equal": (dense[q][1] == child["gaps"]) if measured else None,
+            "ratio_dense_over_landau": dense_seconds / child["seconds"],
+        })
+    return {"levels": levels, "k2_points": k2_points, "dense_exponent": float(exponent), "rows": rows}
+
+
+def bench_gaas(config, runs=((1.0, 1e11), (10.0, 5e11))) -> dict:
+    """Whole ``topoedge run`` commands of a GaAs scenario at several fields, timed as processes.
+
+    Each ``(B in T, n in cm^-2)`` is one ``topoedge run CONFIG --set
+    field.b_tesla=B --set field.density_cm2=n`` in a fresh process, from the
+    start of the interpreter to the last file written (bulk Chern numbers
+    with their finer-grid check, the subspace check, ribbon spectrum, edge
+    count, Streda route, figures, HDF5), into a temporary folder.
+    """
+    import json
+    import subprocess
+    import sys
+    import tempfile
+    from pathlib import Path
+
+    rows = []
+    with tempfile.TemporaryDirectory() as tmp:
+        for i, (b, n) in enumerate(runs):
+            out = Path(tmp) / f"run{i}"
+            cmd = [sys.executable, "-m", "topoedge", "run", str(config), "--set", f"field.b_tesla={b}",
+                   "--set", f"field.density_cm2={n}", "--out", str(out), "--quiet"]
+            start = time.perf_counter()
+            proc = subprocess.run(cmd, capture_output=True, text=True)
+            seconds = time.perf_counter() - start
+            if proc.returncode != 0:
+                raise RuntimeError(f"topoedge run at {b} T failed: {proc.stderr.strip()}")
+            s = json.loads((out / "summary.json").read_text())
+            u = s["units"]
+            rows.append({
+                "b_tesla": b, "density_cm2": n, "seconds": seconds, "compute_seconds": s["seconds"],
+                "flux": u["flux"], "lattice_constant_nm": u["lattice_constant_nm"],
+                "b_relative_error": u["b_relative_error"], "filling": u["filling"],
+                "a_over_lb": u["lattice_constant_nm"] / u["magnetic_length_nm"],
+                "solver": s["bulk"]["solver"], "chern": s["bulk"]["chern_below_fermi"],
+                "edges": [s["edges"]["bottom"]["net"], s["edges"]["top"]["net"]],
+                "streda": s["hall"]["routes"]["streda"], "routes_agree": s["check"]["routes_agree"],
+                "bulk_edge_agree": s["check"]["bulk_edge_agree"], "ribbon_width": s["model"]["ribbon_width_sites"],
+            })
+    return {"config": str(config), "rows": rows}

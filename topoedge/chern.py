@@ -169,7 +169,7 @@ class ChernResult:
         n = self.total_bands or len(self.bands)
         if not 1 <= r < n:
             raise GapClosedError(f"fermi.gap = {r}: expected 1 <= gap < {n} (the number of bulk bands)")
-        if r >= len(self.bands):
+        if r > len(self.bands):
             raise GapClosedError(f"fermi.gap = {r}: only the lowest {len(self.bands)} bands were computed; "
                                  "compute more bands")
         for gap in self.gaps:
@@ -177,7 +177,7 @@ class ChernResult:
                 return gap
         lower, upper = self.bands[:r], self.bands[r:]
         top = max(b.energy_max for b in lower) + 0.0  # + 0.0: no "-0.000000" in the message
-        bottom = min(b.energy_min for b in upper) + 0.0
+        bottom = min((b.energy_min for b in upper), default=self.energy_ceiling) + 0.0
         top, bottom = (0.0 if abs(x) < 5e-7 else x for x in (top, bottom))
         raise GapClosedError(
             f"fermi.gap = {r}: the gap above band {r - 1} is closed (bands below reach {top:.6f} t, "

@@ -68,8 +68,14 @@ def _parser() -> argparse.ArgumentParser:
                        help="half-width of the energy window around E_F, units of t (default 0.5)")
     bench.add_argument("--chern-q", type=int, default=50,
                        help="Chern benchmark at flux 1/q, spinless (default 50)")
-    bench.add_argument("--parts", default="ribbon,chern,hallbar,hf,sweep",
-                       help="comma-separated benchmarks to run: ribbon, chern, hallbar, hf, sweep (default all)")
+    bench.add_argument("--parts", default="ribbon,chern,landau,gaas,hallbar,hf,sweep",
+                       help="comma-separated benchmarks to run: ribbon, chern, landau, gaas, hallbar, hf, sweep "
+                            "(default all)")
+    bench.add_argument("--landau-q", default="200,1000,2000", metavar="Q,...",
+                       help="landau part: fluxes 1/q of the Landau-level Chern benchmark (default 200,1000,2000); "
+                            "the dense route runs at the smallest (at most 200), half and a quarter of it (at least 12)")
+    bench.add_argument("--gaas", default=None, metavar="SCENARIO",
+                       help="gaas part: the GaAs scenario run at 1 T and 10 T (default: configs/gaas-1T.toml)")
     bench.add_argument("--sweep", default=None, metavar="SWEEP",
                        help="sweep file of the sweep part, run with 1 and with 2 workers "
                             "(default: configs/sweeps/nu2-width-zeeman.toml)")
@@ -270,10 +276,22 @@ def _cmd_bench(args) -> int:
     from .bench import bench_chern, bench_ribbon
 
     parts = [p.strip() for p in args.parts.split(",") if p.strip()]
-    unknown = sorted(set(parts) - {"ribbon", "chern", "hallbar", "hf", "sweep"})
+    unknown = sorted(set(parts) - {"ribbon", "chern", "landau", "gaas", "hallbar", "hf", "sweep"})
     if unknown or not parts:
         raise ConfigError(f"bench --parts: got {args.parts!r}; expected a comma-separated subset of "
-                          "ribbon, chern, hallbar, hf, sweep")
+                          "ribbon, chern, landau, gaas, hallbar, hf, sweep")
+    try:
+        landau_qs = [int(x) for x in args.landau_q.split(",")]
+        assert landau_qs and all(24 <= q <= 20000 for q in landau_qs)
+    except (ValueError, AssertionError):
+        raise ConfigError(f"bench --landau-q: got {args.landau_q!r}; expected comma-separated integers "
+                          "from 24 to 20000 (e.g. 200,1000,2000)") from None
+    gaas_file = Path(args.gaas) if args.gaas else DEFAULT_SCENARIO.parent / "gaas-1T.toml"
+    if "gaas" in parts:
+        gaas_scenario = load_scenario(gaas_file)
+        if gaas_scenario.field.b_tesla is None:
+            raise ConfigError(f"bench --gaas: {gaas_file} has no [field] section; expected a scenario in "
+                              "physical units (e.g. configs/gaas-1T.toml)")
     sweep_file = Path(args.sweep) if args.sweep else DEFAULT_SCENARIO.parent / "sweeps" / "nu2-width-zeeman.toml"
     if "sweep" in parts:
         from .sweep import load_sweep
@@ -327,6 +345,35 @@ def _cmd_bench(args) -> int:
         _say(args, f"  bare diagonalisation {s['bare_diagonalisation']:.3f} s, whole Chern computation "
                    f"{s['chern_whole']:.3f} s: ratio {c['ratio_whole_over_bare']:.2f}")
         _say(args, f"  (convergence check on the 1.5x finer grid: {s['chern_refined_grid']:.3f} s)")
+    if "landau" in parts:
+        from .bench import bench_landau
+
+        _say(args, "Landau-level Chern benchmark: the lowest 4 levels at flux 1/q (spinless), the Landau-level "
+                   "solver against the dense route on the same q x 8 grid ...")
+        smallest = min(landau_qs)
+        top = smallest if smallest <= 200 else 200      # the dense route beyond ~200 takes minutes
+        report["landau"] = r = bench_landau(landau_qs, dense_qs=sorted({max(12, top // 4), max(16, top // 2), top}))
+        _say(args, f"  {'q':>6s} {'grid':>10s} {'landau s':>9s} {'peak MB':>8s} {'dense s':>10s} "
+                   f"{'':12s} {'ratio':>8s}  gaps (r, C), TKNN")
+        for row in r["rows"]:
+            _say(args, f"  {row['q']:6d} {row['grid'][0]:>5d}x{row['grid'][1]:<4d} {row['landau_seconds']:9.3f} "
+                       f"{row['peak_rss_mb']:8.0f} {row['dense_seconds']:10.3g} {row['dense']:12s} "
+                       f"{row['ratio_dense_over_landau']:8.0f}  {row['gaps']} {'yes' if row['tknn'] else 'NO'}"
+                       + ("" if row["dense_gaps_equal"] is None else
+                          f"; dense gaps equal: {'yes' if row['dense_gaps_equal'] else 'NO'}"))
+        _say(args, f"  dense time grows as q^{r['dense_exponent']:.2f} (fitted to the measured points)")
+    if "gaas" in parts:
+        from .bench import bench_gaas
+
+        _say(args, f"GaAs benchmark: whole `topoedge run {gaas_file}` processes at 1 T and 10 T ...")
+        report["gaas"] = r = bench_gaas(gaas_file)
+        for row in r["rows"]:
+            _say(args, f"  {row['b_tesla']:5g} T, n = {row['density_cm2']:.1e} cm^-2 (nu = {row['filling']:.2f}): "
+                       f"{row['seconds']:6.2f} s end to end ({row['compute_seconds']:.2f} s computing); flux "
+                       f"{row['flux']}, a = {row['lattice_constant_nm']:.3g} nm = {row['a_over_lb']:.3f} l_B, field "
+                       f"error {100 * row['b_relative_error']:+.3f} %, {row['solver']} solver; C = {row['chern']}, "
+                       f"edges {row['edges']}, Streda {row['streda']:.6f}, agree: "
+                       f"{'yes' if row['routes_agree'] and row['bulk_edge_agree'] else 'NO'}")
     if "hallbar" in parts:
         from .bench import bench_hallbar
 
@@ -428,7 +475,9 @@ def _cmd_hallbar(args) -> int:
     from .pipeline import bulk_chern, fermi_level, hallbar_field_scan, hallbar_scan, replace_chern_refine
 
     model, _ = lattice_scenario(scenario)
-    progress = sys.stdout.isatty() and not args.quiet
+    from .progress import Progress, progress_mode
+
+    progress = Progress(progress_mode(quiet=args.quiet))
     if fields is not None:
         try:
             scan = hallbar_field_scan(scenario, np.linspace(*fields), jobs=args.jobs, progress=progress)
@@ -615,14 +664,17 @@ def main(argv: list[str] | None = None) -> int:
     # kwant warns at import that its sparse solver falls back to SciPy; the
     # ribbon and bulk calculations do not use that solver.
     warnings.filterwarnings("ignore", message="MUMPS is not available")
+    from .budget import MemoryBudgetError
     from .chern import GapClosedError
+    from .landau import LandauSolverError
     from .results import RestartFileError, ResultsExistError
 
     try:
         commands = {"run": _cmd_run, "bench": _cmd_bench, "butterfly": _cmd_butterfly, "hallbar": _cmd_hallbar,
                     "sweep": _cmd_sweep}
         return commands[args.command](args)
-    except (ConfigError, ResultsExistError, GapClosedError, RestartFileError) as err:
+    except (ConfigError, ResultsExistError, GapClosedError, RestartFileError, MemoryBudgetError,
+            LandauSolverError) as err:
         print(f"topoedge: error: {err}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except OSError as err:  # e.g. an --out whose parent is a file or read-only

@@ -534,7 +534,8 @@ _KEYS: dict[str, _Key] = {key.path: key for key in (
          "Put E_F mid-gap above the r lowest bulk bands (spin bands included).",
          "an integer number of bands >= 1", lambda r: r >= 1, optional=True),
     _Key("chern.grid", "grid", "-",
-         "Momentum grid [n1, n2] of the link-variable method; unset: a multiple of 2 points per band, at least 12.",
+         "Momentum grid [n1, n2] of the link-variable method; unset: a multiple of 2 points per band, at least 12 "
+         "(Landau-level solver: q x n2, n2 = 8 unset).",
          "an array of two integers >= 3", optional=True),
     _Key("chern.gap_min", "float", "t", "Direct gaps below this count as closed.",
          "a gap > 0 in t", _positive),
@@ -939,6 +940,14 @@ def _check_lattice(s: Scenario) -> None:
         if value != 0 and lat.kind not in kinds:
             raise ConfigError(f"{key}: got {value!r} with lattice.kind = {lat.kind!r}; expected 0 (it belongs "
                               f"to lattice.kind = {' or '.join(map(repr, kinds))})")
+    if s.chern.solver == "landau" and (lat.kind != "square" or s.spin.rashba != 0
+                                       or (s.field.b_tesla is None and lat.flux.denominator < 3)
+                                       or (s.field.b_tesla is None and lat.flux == 0)):
+        why = (f"lattice.kind = {lat.kind!r}" if lat.kind != "square" else
+               f"spin.rashba = {s.spin.rashba!r} (S_z not conserved)" if s.spin.rashba != 0 else
+               f"lattice.flux = {_fraction(lat.flux)} (fewer than 3 bands per spin)")
+        raise ConfigError(f"chern.solver: got 'landau' with {why}; expected 'auto' or 'dense' (the "
+                          "Landau-level solver is built for the square lattice with S_z conserved)")
     allowed = {"honeycomb": ORIENTATIONS, "haldane": ("zigzag",)}.get(lat.kind, ())
     if s.ribbon.orientation is not None and s.ribbon.orientation not in allowed:
         where = "on the square lattice" if lat.kind == "square" else f"with lattice.kind = {lat.kind!r}"

@@ -45,7 +45,7 @@ periodic function of ``k``, and by Weyl's inequality [3]_ it is Lipschitz::
 4. *Touching.* Values with ``|E_n - E_F| <= tol`` count as zero. A run of
    such points is a band touching ``E_F`` (a flat band or an extremum), a
    single one between opposite signs is an ordinary crossing. A band that
-   passes within ``_NEAR_GAP`` (1e-4 t) of ``E_F`` without crossing it, away
+   passes within ``near_gap`` (default 1e-4 t) of ``E_F`` without crossing it, away
    from any crossing, is reported too (with its ``gap``): typically two
    counter-propagating modes of opposite edges meeting at ``E_F`` and
    hybridising through the ribbon, which leaves no crossing to count.
@@ -485,8 +485,9 @@ class _Search:
       are halved ``_LOCAL_DEPTH`` more times and settled at the extremum.
     """
 
-    def __init__(self, sector: _Sector, ef: float, tol: float, h: float):
+    def __init__(self, sector: _Sector, ef: float, tol: float, h: float, near_gap: float = _NEAR_GAP):
         self.sector = sector
+        self.near_gap = near_gap
         self.ef = ef
         self.tol = tol
         self.lipschitz = sector.lipschitz
@@ -556,7 +557,7 @@ class _Search:
             self.brackets.append((n, km, b))
         elif g <= self.tol:
             self.touch.append((n, km))
-        elif g < _NEAR_GAP:
+        elif g < self.near_gap:
             self.near.append((n, km, g))
 
 
@@ -611,7 +612,7 @@ def _decisions(F, V, S, width, lipschitz, fine, tol):
     return sure, (change & ~sure) | same
 
 
-def _search_sector(sector: _Sector, ef: float, k: np.ndarray, tol: float) -> _Search:
+def _search_sector(sector: _Sector, ef: float, k: np.ndarray, tol: float, near_gap: float = _NEAR_GAP) -> _Search:
     """Scan a sector on the grid ``k`` and collect brackets and touching points.
 
     Intervals in which the Lipschitz bound lets a band reach ``E_F`` without
@@ -620,7 +621,7 @@ def _search_sector(sector: _Sector, ef: float, k: np.ndarray, tol: float) -> _Se
     undecided bands are then settled one by one (:meth:`_Search.resolve`).
     """
     h = _TWO_PI / len(k)
-    search = _Search(sector, ef, tol, h)
+    search = _Search(sector, ef, tol, h, near_gap)
     half = _WINDOW_MARGIN * sector.lipschitz * h + 10 * tol
     window = (ef - half, ef + half)
     kk = np.asarray(k, dtype=float)
@@ -646,7 +647,7 @@ def _search_sector(sector: _Sector, ef: float, k: np.ndarray, tol: float) -> _Se
         velocities = [(velocities + v2)[j] for j in order]
 
     # Grid points where a band passes within _NEAR_GAP of E_F (beyond tol).
-    close = np.isfinite(F) & (np.abs(F) > tol) & (np.abs(F) < _NEAR_GAP)
+    close = np.isfinite(F) & (np.abs(F) > tol) & (np.abs(F) < near_gap)
     for b, i in zip(*np.nonzero(close)):
         search.near.append((n0 + b, kk[i], float(abs(F[b, i]))))
     for b, i in zip(*np.nonzero(sure)):
@@ -697,6 +698,7 @@ def find_crossings(
     k_points: int = 400,
     tol: float = 1e-9,
     bulk_spread: float | None = None,
+    near_gap: float = _NEAR_GAP,
 ) -> tuple[list[EdgeMode], list[dict]]:
     """Every state of a ribbon at the Fermi energy, refined and measured.
 
@@ -717,6 +719,10 @@ def find_crossings(
     bulk_spread : float, optional
         Spread (lattice constants) above which a state counts as delocalised
         (``edge = "bulk"``); default a quarter of the ribbon width.
+    near_gap : float
+        A band passing closer than this (t) to E_F without crossing it is
+        reported as touching (default 1e-4 t); it should be well below the
+        distance from E_F to the bulk bands (a narrow Zeeman gap).
 
     Returns
     -------
@@ -751,6 +757,8 @@ def find_crossings(
         raise ValueError(f"k_points must be an integer >= 2, got {k_points!r}")
     if not (tol > 0 and math.isfinite(tol)):
         raise ValueError(f"tol must be a positive energy in units of t, got {tol!r}")
+    if not near_gap > tol:
+        raise ValueError(f"near_gap must exceed tol = {tol!r}, got {near_gap!r}")
     y0 = float(ham.position.min())
     width = float(ham.position.max()) - y0
     if bulk_spread is None:
@@ -763,7 +771,7 @@ def find_crossings(
     touching: list[dict] = []
     near: list[dict] = []
     for sector in _sectors(ham):
-        search = _search_sector(sector, fermi_energy, k, tol)
+        search = _search_sector(sector, fermi_energy, k, tol, near_gap)
         roots = [(n, brentq(lambda x: sector.energy(n, x) - fermi_energy, a, b, xtol=_XTOL))
                  for n, a, b in sorted(set(search.brackets), key=lambda x: x[1])]
         found = [_measure(sector, n, root, y0, width, bulk_spread) for n, root in roots]
@@ -831,6 +839,7 @@ def count_edge_modes(
     k_points: int = 400,
     tol: float = 1e-9,
     bulk_spread: float | None = None,
+    near_gap: float = _NEAR_GAP,
 ) -> EdgeCount:
     """Count the modes per edge, direction and spin at a Fermi energy.
 
@@ -847,6 +856,8 @@ def count_edge_modes(
     bulk_spread : float, optional
         Spread in lattice constants from which a state counts as bulk;
         default a quarter of the ribbon width ``(max(y) - min(y)) / 4``.
+    near_gap : float
+        See :func:`find_crossings`.
 
     Returns
     -------
@@ -884,7 +895,7 @@ def count_edge_modes(
     (True, 1, -1)
     """
     crossings, touching = find_crossings(
-        ham, fermi_energy, k_points=k_points, tol=tol, bulk_spread=bulk_spread
+        ham, fermi_energy, k_points=k_points, tol=tol, bulk_spread=bulk_spread, near_gap=near_gap
     )
     fermi_energy = float(fermi_energy)
     spinful = ham.sz is not None

@@ -49,7 +49,6 @@ References
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from fractions import Fraction
 
@@ -76,7 +75,7 @@ _RESIDUAL = 1e-10
 # Smallest |det| of the link overlaps accepted before the k1 grid is refined.
 _LINK_MIN = 0.3
 # Largest number of complex numbers held by the cumulative overlap sums of one link row.
-_CUMSUM_ELEMENTS = 16_000_000
+_CUMSUM_ELEMENTS = 2_000_000
 
 
 class LandauSolverError(RuntimeError):

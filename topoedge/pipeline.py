@@ -46,9 +46,10 @@ from .profiles import edge_potential
 from .spectrum import RibbonSpectrum, k_grid, ribbon_spectrum
 from .streda import StredaResult, streda_slope
 from .harper import HarperCell
-from .landau import (DEFAULT_K2_POINTS, LandauSolverError, bands_for, count_below, landau_chern,
-                     landau_path_bands, landau_states_below, landau_subspace_chern)
-from .progress import Progress, as_progress
+from .landau import (DEFAULT_K2_POINTS, LandauSolverError, bands_for, landau_chern, landau_path_bands, landau_states_below,
+                     landau_subspace_chern)
+from .progress import as_progress, ticks
+from .budget import KWANT_SITE_BYTES, require
 
 __all__ = [
     "RunResult", "VON_KLITZING", "build_bulk", "build_ribbon", "bulk_chern", "bulk_edge_check",
@@ -171,6 +172,54 @@ LANDAU_MIN_Q = 60
 # Largest fraction of a sector's bands the Landau-level solver computes under "auto"
 # (above it the bands are no longer Landau levels; the dense solver is used).
 _LANDAU_MAX_FRACTION = 1 / 3
+
+
+def memory_estimate(scenario: Scenario, solver: str) -> list[tuple[str, float, str]]:
+    """Upper bounds (bytes) of what each stage of a run holds at once, with the key that shrinks it.
+
+    For :func:`topoedge.budget.require`, before anything is built.
+    """
+    from .hamiltonian import SPARSE_FROM
+
+    complex_bytes, lat = 16, scenario.lattice
+    spin = scenario.spin.enabled
+    orbitals_per_site = 2 if spin or lat.kind == "qwz" else 1
+    sites = scenario.ribbon.width * (2 if lat.kind in ("honeycomb", "haldane") else 1)
+    n = sites * orbitals_per_site
+    per_block = n // 2 if spin and scenario.spin.rashba == 0 else n
+    parts = [("building the ribbon", sites * KWANT_SITE_BYTES, "expected a smaller ribbon.width")]
+    matrices = 6 * n * n * complex_bytes if n <= SPARSE_FROM else 40 * n * complex_bytes
+    parts.append(("the ribbon Hamiltonian", matrices, "expected a smaller ribbon.width"))
+    k = scenario.spectrum.k_points
+    window = scenario.spectrum.window
+    everything = window is None and per_block <= AUTO_WINDOW_FROM
+    # states per momentum in a window: the share of the bandwidth (8 t) it covers, twice over
+    # (Landau levels and edge states); an automatic window holds the levels below E_F only
+    kept = n if everything else min(n, 64 + (n // 50 if window is None else int(n * min(1.0, window / 2))))
+    vectors = per_block * (per_block if everything else kept) * (8 if scenario.spectrum.solver != "dense" else
+                                                                   complex_bytes)
+    parts.append((f"the ribbon spectrum ({k} momenta x {kept} states)", 12 * k * kept * 8 + 3 * vectors,
+                  "expected fewer spectrum.k_points, a spectrum.window or a smaller ribbon.width"))
+    if solver == "landau":
+        q = lat.flux.denominator
+        n2 = scenario.chern.grid[1] if scenario.chern.grid else DEFAULT_K2_POINTS
+        p = abs(lat.flux.numerator)
+        # one group's eigenvectors on every base momentum (k1 refined up to 8 times)
+        parts.append((f"the Landau-level bulk solver ({n2} momenta k2, {q} bands per spin)",
+                      8 * 1.5 * n2 * q * (p + 2) * complex_bytes + 64 * 2**20,
+                      "expected fewer chern.grid[1] momenta along k2"))
+    if solver == "dense" and lat.kind not in ZERO_FIELD:
+        q = lat.flux.denominator
+        cells = q if lat.kind == "square" else 2 * q
+        m = cells * (2 if spin and scenario.spin.rashba != 0 else 1)
+        total = cells * (2 if spin else 1)
+        grid = scenario.chern.grid or (max(12, 2 * cells), max(12, 2 * cells))
+        scale = 1.5 ** 2 if scenario.chern.refine else 1.0
+        parts.append((f"the dense bulk solver ({grid[0]}x{grid[1]} grid, {m} bands per sector)",
+                      max(18 * total * total * complex_bytes, 3 * scale * grid[0] * grid[1] * m * m * complex_bytes),
+                      "expected chern.solver = 'auto' or 'landau' (square lattice), a coarser chern.grid or a "
+                      "flux with a smaller denominator"))
+    return parts
 
 
 def harper_cell(scenario: Scenario) -> HarperCell:
@@ -310,8 +359,19 @@ def run_scenario(scenario: Scenario, *, progress=False) -> RunResult:
     given = scenario
     scenario, units = lattice_scenario(scenario)
     solver, solver_reason = bulk_solver(scenario)
+    require(memory_estimate(scenario, solver))
     bulk = build_bulk(scenario) if solver == "dense" else None
-    chern, refined, path = bulk_chern(scenario, bulk, progress=progress, solver=solver)
+    try:
+        chern, refined, path = bulk_chern(scenario, bulk, progress=progress, solver=solver)
+    except LandauSolverError as err:
+        if scenario.chern.solver == "landau":
+            raise
+        # "auto" chose the Landau-level solver but the bands are not narrow
+        # against their gaps there: every band, if that fits.
+        solver, solver_reason = "dense", f"the Landau-level solver could not resolve the bands ({err})"
+        require(memory_estimate(scenario, solver))
+        bulk = build_bulk(scenario)
+        chern, refined, path = bulk_chern(scenario, bulk, progress=progress, solver=solver)
     ef, gap = fermi_level(scenario, chern)
     with progress.stage("ribbon: building the Hamiltonian"):
         ham, potential = build_ribbon(scenario)
@@ -320,7 +380,7 @@ def run_scenario(scenario: Scenario, *, progress=False) -> RunResult:
         spec = ribbon_spectrum(ham, k_grid(scenario.spectrum.k_points), window=window,
                                solver=scenario.spectrum.solver, progress=st)
     with progress.stage("ribbon: edge modes at E_F"):
-        edges = count_edge_modes(ham, ef, k_points=scenario.edges.k_points)
+        edges = count_edge_modes(ham, ef, k_points=scenario.edges.k_points, near_gap=near_gap_of(gap, ef))
     subspace = None
     if np.isfinite(gap.middle):
         with progress.stage("bulk: the occupied subspace as a whole (cross-check)"):
@@ -346,6 +406,17 @@ def run_scenario(scenario: Scenario, *, progress=False) -> RunResult:
                         hallbar_error=hallbar_error, subspace=subspace, solver_reason=solver_reason)
     return RunResult(scenario, potential, ham, spec, chern, refined, ef, gap, edges, path, summary, units,
                      streda)
+
+
+def near_gap_of(gap: Gap, ef: float) -> float:
+    """Distance (t) from E_F below which a band that does not cross it makes the edge count unreliable.
+
+    1e-4 t, or a fifth of the distance from E_F to the nearer bulk band when
+    that is smaller (a narrow Zeeman gap of a real material: 2.7e-4 t at
+    0.5 T in GaAs with a = 3.5 nm).
+    """
+    room = min(ef - gap.energy_min, gap.energy_max - ef)
+    return float(min(1e-4, max(0.2 * room, 1e-8))) if np.isfinite(room) else 1e-4
 
 
 #: Orbitals per spin block from which the ribbon spectrum keeps only a window around E_F
@@ -382,16 +453,19 @@ def streda_route(scenario: Scenario, ef: float, *, solver: str = "dense"
                  ) -> tuple[StredaResult | None, str | None]:
     """Hall conductance from the density response at fixed E_F, or why not.
 
-    With the Landau-level solver the states below E_F at every flux are
-    counted from band-matrix eigenvalues at the band-edge momenta
-    (:func:`topoedge.landau.landau_states_below`).
+    On the square lattice with S_z conserved the states below E_F at every
+    flux are counted from band-matrix eigenvalues at the band-edge momenta
+    (:func:`topoedge.landau.landau_states_below`, exact and ``O(q)``); the
+    other lattices diagonalise their bulk on a grid.
     """
     from dataclasses import replace
 
     if scenario.lattice.kind in ZERO_FIELD:
         return None, (f"no Streda route for the zero-field {scenario.lattice.kind} model "
                       "(it has no flux to vary)")
-    if solver == "landau":
+    if _landau_possible(scenario) is None:
+        # The square lattice with S_z conserved: exact counts from band
+        # eigenvalues at the band-edge momenta, whatever the bulk solver.
         def states(phi):
             return landau_states_below(replace(harper_cell(scenario), flux=phi), ef)
 
@@ -505,7 +579,7 @@ def _hall_point(fsyst, params: dict, energy: float, seeds: int) -> tuple[dict, s
     return point, None
 
 
-def hallbar_scan(scenario: Scenario, energies, *, progress: bool = False) -> dict:
+def hallbar_scan(scenario: Scenario, energies, *, progress=False) -> dict:
     """R_xy and R_xx of the scenario's Hall bar over a range of Fermi energies.
 
     Returns a JSON-able dict of lists: ``energy`` (t), ``r_xy``, ``r_xx``
@@ -518,14 +592,12 @@ def hallbar_scan(scenario: Scenario, energies, *, progress: bool = False) -> dic
     (None for C = 0 or in a band), and ``errors`` (energy, message) where the
     bar could not be solved.
     """
-    from tqdm.auto import tqdm
-
     scenario, _ = lattice_scenario(scenario)
     chern, _, _ = bulk_chern(replace_chern_refine(scenario))
     fsyst, params = _hallbar_system(scenario)
     out: dict = {"energy": []}
     errors = []
-    for energy in tqdm(np.asarray(energies, dtype=float), disable=not progress, desc="Hall bar", leave=False):
+    for energy in ticks(np.asarray(energies, dtype=float), progress, "Hall bars over E_F"):
         values, error = _hall_point(fsyst, params, float(energy), scenario.hallbar.seeds)
         point = {**_bulk_point(chern, float(energy)), **values}
         out["energy"].append(float(energy))
@@ -556,7 +628,7 @@ def _field_bulk(model: Scenario, fermi_t: float) -> ChernResult:
 
 
 def hallbar_field_scan(scenario: Scenario, fields_tesla, *, jobs: int | None = None,
-                       progress: bool = False) -> dict:
+                       progress=False) -> dict:
     """R_xy and R_xx of the scenario's Hall bar over the magnetic field at fixed E_F.
 
     The scenario must be in physical units (``[material]`` and ``[field]``).
@@ -579,8 +651,9 @@ def hallbar_field_scan(scenario: Scenario, fields_tesla, *, jobs: int | None = N
     jobs : int, optional
         Worker processes for the bulk Chern numbers (default: all cores; 1
         computes them here).
-    progress : bool
-        Show a progress bar.
+    progress : bool or Progress
+        True: a progress bar; a :class:`topoedge.progress.Progress`: one
+        stage over the bars (a bar or log lines).
 
     Returns
     -------
@@ -602,7 +675,6 @@ def hallbar_field_scan(scenario: Scenario, fields_tesla, *, jobs: int | None = N
     from concurrent.futures import ProcessPoolExecutor
     from dataclasses import replace
 
-    from tqdm.auto import tqdm
 
     if scenario.field.b_tesla is None:
         raise ValueError("a field scan needs a scenario in physical units: add [material] and [field] "
@@ -637,8 +709,7 @@ def hallbar_field_scan(scenario: Scenario, fields_tesla, *, jobs: int | None = N
         bulk = {key: pool.submit(_field_bulk, model, fermi_t) if pool else None
                 for key, model in distinct.items()}
         bars = []
-        for b, (model, _) in tqdm(list(zip(fields, models)), disable=not progress, desc="Hall bars",
-                                  leave=False):
+        for b, (model, _) in ticks(list(zip(fields, models)), progress, "Hall bars over B"):
             params = dict(_params(model), disorder=model.hallbar.disorder, seed=0)
             bars.append(_hall_point(fsyst, params, fermi_t, model.hallbar.seeds))
         chern = {key: future.result() if pool else _field_bulk(distinct[key], fermi_t)
@@ -894,13 +965,16 @@ def physical_summary(scenario: Scenario, units: Derived, *, ef: float, gap: Gap,
     y_rows = np.arange(len(potential), dtype=float)
     slope = np.gradient(np.asarray(potential, dtype=float)) if len(potential) > 1 else np.zeros(1)
 
-    def mode_extra(m) -> dict:
+    top_row = float(scenario.ribbon.width - 1)
+
+    def mode_extra(m, edge: str) -> dict:
         drift = None
         if scenario.lattice.kind == "square" and len(potential) > 1:
             du = float(np.interp(m.y, y_rows, slope))                 # t per a
             if abs(du) > 1e-12:
                 drift = du * t_joule / (a_nm * 1e-9) / (const.e * units.b_tesla)
-        return {"y_nm": m.y * a_nm, "y_lb": m.y * a_nm / units.magnetic_length_nm,
+        depth = m.y if edge == "bottom" else top_row - m.y
+        return {"y_nm": m.y * a_nm, "depth_nm": depth * a_nm, "depth_lb": depth * a_nm / units.magnetic_length_nm,
                 "velocity_m_s": m.velocity * v_unit, "drift_m_s": drift}
 
     c = gap.chern
@@ -921,7 +995,8 @@ def physical_summary(scenario: Scenario, units: Derived, *, ef: float, gap: Gap,
         "ribbon_width_nm": (scenario.ribbon.width - 1) * a_nm,
         "sigma_xy_e2_h": c,
         "r_xy_ohm": -VON_KLITZING / c if c else None,
-        "edges": {name: [mode_extra(m) for m in getattr(edges, name).modes] for name in ("bottom", "top")},
-        "units": "energies in meV above the band bottom; lengths in nm (y from the bottom row) and l_B; "
-                 "velocities in m/s; R_xy = -1/sigma_xy in ohm",
+        "edges": {name: [mode_extra(m, name) for m in getattr(edges, name).modes] for name in ("bottom", "top")},
+        "units": "energies in meV above the band bottom; y_nm from the bottom row, depth_nm and depth_lb from "
+                 "the mode's own edge; velocities in m/s (drift_m_s: U'(y)/(e B), null where U is flat); "
+                 "R_xy = -1/sigma_xy in ohm",
     }

@@ -504,6 +504,12 @@ def hallbar_figure(scan: dict, *, axis: str = "energy", title: str = ""):
     top.set_ylabel(r"$R_{xy}$ ($h/e^2$)")
     top.axhline(0, color="0.85", lw=0.6, zorder=0)
     top.legend(fontsize=8)
+    # the same resistance in kOhm (R_K = h/e^2 from scipy.constants, exact)
+    from scipy.constants import e, h
+
+    r_k = h / e**2 / 1e3
+    right = top.secondary_yaxis("right", functions=(lambda r: r * r_k, lambda k: k / r_k))
+    right.set_ylabel(r"$R_{xy}$ (k$\Omega$)")
     bottom.set_ylabel(r"$R_{xx}$ ($h/e^2$)")
     if len(bottom.get_legend_handles_labels()[0]) > 1:
         bottom.legend(fontsize=8)

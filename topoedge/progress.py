@@ -26,7 +26,7 @@ import sys
 import threading
 import time
 
-__all__ = ["Progress", "Stage", "progress_mode", "as_progress"]
+__all__ = ["Progress", "Stage", "progress_mode", "as_progress", "ticks"]
 
 
 def progress_mode(quiet: bool = False, stream=None) -> str | None:
@@ -131,3 +131,30 @@ def as_progress(progress) -> Progress:
     if isinstance(progress, Progress):
         return progress
     return Progress("bar" if progress else None)
+
+
+def ticks(items, progress, desc: str):
+    """Iterate ``items``, advancing ``progress`` once per item.
+
+    ``progress`` is a :class:`Stage` (``update()``), a :class:`Progress`
+    (a stage named ``desc`` is opened for the loop), True (a tqdm bar) or
+    False/None (nothing).
+    """
+    if isinstance(progress, Progress):
+        items = list(items)
+        with progress.stage(desc, len(items)) as stage:
+            for item in items:
+                yield item
+                stage.update()
+        return
+    if hasattr(progress, "update"):
+        for item in items:
+            yield item
+            progress.update()
+        return
+    if progress:
+        from tqdm.auto import tqdm
+
+        yield from tqdm(items, desc=desc, leave=False)
+        return
+    yield from items

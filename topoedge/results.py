@@ -5,7 +5,8 @@ place only when every file is complete, so an interrupted or failed run never
 leaves a half-written folder under the requested name. An existing folder is
 replaced only when asked to (``force=True``).
 
-``spectrum.h5`` layout (all energies in ``t``, lengths in lattice constants):
+``spectrum.h5`` layout (all energies in ``t``, lengths in lattice constants;
+every dataset carries its ``unit`` attribute):
 
 ``/k``                  (Nk,) momenta along the ribbon, 1/a
 ``/energy``             (Nk, M) sorted eigenvalues, NaN-padded
@@ -17,9 +18,16 @@ replaced only when asked to (``force=True``).
 ``/bulk``               bulk bands (energy ranges, Chern numbers, spin +1/-1/0),
                         gaps (bands below, energy range, Chern sum) and the
                         bands along Gamma-X-M-Gamma (``path_*``)
-``/units``              (with ``field.b_tesla``) attributes: t in meV, the flux
-                        used, B used and its relative error, Zeeman, l_B,
-                        hbar*omega_c, Coulomb energy, E_F, filling
+``/units``              (with ``field.b_tesla``) attributes: t in meV, a in nm,
+                        the flux, B asked for and the lattice field with its
+                        relative error, Zeeman, l_B, hbar*omega_c, Coulomb
+                        energy, E_F, filling (at the field asked for)
+``/physical``           (with ``field.b_tesla``) the same spectrum in the
+                        scenario's units: ``k_per_nm``, ``energy_mev`` (above
+                        the band bottom), ``velocity_m_s``, ``y_mean_nm``,
+                        ``y_spread_nm``, ``potential_mev``, ``fermi_energy_mev``
+                        and ``edge_modes/`` (``k_per_nm``, ``y_nm``, ``y_lb``,
+                        ``velocity_m_s``); attributes ``b_tesla``, ``r_xy_ohm``
 ``/edge_modes``         one entry per crossing of E_F: k, energy, velocity,
                         y, spread, sz and edge (0 bottom, 1 top, 2 bulk)
 ``/config``             group: one attribute per key path of the resolved scenario
@@ -113,10 +121,12 @@ def write_spectrum_h5(path: Path, result: RunResult) -> None:
         modes.create_dataset("edge", data=np.array([{"bottom": 0, "top": 1, "bulk": 2}[s] for _, s in rows], dtype=int))
         modes.attrs["edge_codes"] = "0 = bottom, 1 = top, 2 = bulk"
         f.attrs["fermi_energy"] = result.fermi_energy
+        _unit_attrs(f, modes)
         if result.units is not None:
             units = f.create_group("units")
             for key, value in result.units.to_dict().items():
                 units.attrs[key] = json.dumps(value) if value is None or isinstance(value, list) else value
+            _write_physical(f.create_group("physical"), result)
         f.attrs["topoedge_version"] = __version__
         f.attrs["scenario_json"] = json.dumps(config, sort_keys=True)
         f.attrs["solver"] = spec.solver
@@ -125,6 +135,53 @@ def write_spectrum_h5(path: Path, result: RunResult) -> None:
         group = f.create_group("config")
         for key, value in _flatten("", config).items():
             group.attrs[key] = json.dumps(value) if isinstance(value, (list, tuple)) else value
+
+
+_LATTICE_UNITS = {"k": "1/a", "energy": "t", "velocity": "t a (hbar = 1)", "y_mean": "a", "y_spread": "a",
+                  "sz": "hbar", "count": "-", "potential": "t", "y": "a", "spread": "a"}
+
+
+def _unit_attrs(f, modes) -> None:
+    """A ``unit`` attribute on every dataset in lattice units."""
+    for group in (f, modes):
+        for name, dataset in group.items():
+            if isinstance(dataset, h5py.Dataset) and name in _LATTICE_UNITS:
+                dataset.attrs["unit"] = _LATTICE_UNITS[name]
+
+
+def _write_physical(group, result: RunResult) -> None:
+    """The spectrum and the edge modes in the units of a physical scenario (``/physical``)."""
+    import scipy.constants as const
+
+    units, spec = result.units, result.spectrum
+    a_nm, t_mev = units.lattice_constant_nm, units.hopping_mev
+    bottom = -4.0 + result.scenario.lattice.onsite
+    v_unit = t_mev * 1e-3 * const.e * a_nm * 1e-9 / const.hbar
+    data = {
+        "k_per_nm": (spec.k / a_nm, "1/nm"),
+        "energy_mev": ((spec.energy - bottom) * t_mev, "meV above the band bottom"),
+        "fermi_energy_mev": (np.float64((result.fermi_energy - bottom) * t_mev), "meV above the band bottom"),
+        "potential_mev": (np.asarray(result.potential) * t_mev, "meV"),
+    }
+    if spec.velocity is not None:
+        data["velocity_m_s"] = (spec.velocity * v_unit, "m/s")
+        data["y_mean_nm"] = (spec.y_mean * a_nm, "nm from the bottom row")
+        data["y_spread_nm"] = (spec.y_spread * a_nm, "nm")
+    rows = [m for side in ("bottom", "top") for m in getattr(result.edges, side).modes] + list(result.edges.bulk)
+    data["edge_modes/k_per_nm"] = (np.array([m.k / a_nm for m in rows]), "1/nm")
+    data["edge_modes/y_nm"] = (np.array([m.y * a_nm for m in rows]), "nm from the bottom row")
+    data["edge_modes/y_lb"] = (np.array([m.y * a_nm / units.magnetic_length_nm for m in rows]), "l_B")
+    data["edge_modes/velocity_m_s"] = (np.array([m.velocity * v_unit for m in rows]), "m/s")
+    for name, (value, unit) in data.items():
+        dataset = group.create_dataset(name, data=value)
+        dataset.attrs["unit"] = unit
+    c = result.gap.chern
+    group.attrs["b_tesla"] = units.b_tesla
+    group.attrs["b_lattice_tesla"] = units.b_lattice_tesla
+    group.attrs["magnetic_length_nm"] = units.magnetic_length_nm
+    group.attrs["lattice_constant_nm"] = a_nm
+    group.attrs["r_xy_ohm"] = -const.h / (c * const.e**2) if c else np.nan
+    group.attrs["field_direction"] = "+z" if units.b_tesla > 0 else "-z"
 
 
 def write_hartree_fock_h5(path: Path, result: RunResult) -> None:
@@ -359,7 +416,7 @@ def format_summary(summary: dict) -> str:
             f"  scales       l_B = {m['magnetic_length_a']:.3f} a_cc, "
             f"E_1 = sqrt(2) hbar v_F / l_B = {m['landau_level_1_t']:.4f} t (Dirac limit)"
         )
-    elif m["magnetic_length_a"] is not None:
+    elif m["magnetic_length_a"] is not None and not summary.get("units"):
         lines.append(
             f"  scales       l_B = {m['magnetic_length_a']:.3f} a, "
             f"hbar*omega_c = {m['cyclotron_energy_t']:.4f} t (effective-mass limit)"
@@ -466,8 +523,9 @@ def _units_lines(summary: dict) -> list[str]:
     how = ("chosen: flux exactly 1/q" if u["lattice_constant_auto"] else "given")
     lines = [
         f"  field        B = {u['b_tesla']:g} T along {u['field_direction']} (asked for); lattice flux {u['flux']} "
-        f"per plaquette = {u['b_lattice_tesla']:.6g} T ({100 * u['b_relative_error']:+.3f} %, tolerance "
-        f"{100 * u['tolerance']:g} %)",
+        f"per plaquette = {u['b_lattice_tesla']:.6g} T ("
+        + ("exactly" if abs(u["b_relative_error"]) < 1e-12 else
+           f"{100 * u['b_relative_error']:+.3f} %, tolerance {100 * u['tolerance']:g} %") + ")",
         f"  material     a = {a:.4g} nm ({how}), t = hbar^2/(2 m* a^2) = {u['hopping_mev']:.4f} meV",
         f"  scales       l_B = {u['magnetic_length_nm']:.3f} nm = {u['magnetic_length_a']:.2f} a, "
         f"hbar*omega_c = {u['cyclotron_mev']:.4f} meV, |g| mu_B B = {u['zeeman_mev']:.4f} meV, "
@@ -546,11 +604,14 @@ def _topology_lines(summary: dict) -> list[str]:
             modes = e[name]["modes"]
             if not modes:
                 continue
+            shown = modes if len(modes) <= 6 else modes[:4]
             text = "; ".join(
                 (f"{m['spin']} " if m["spin"] else "") + ("+x" if m["velocity"] > 0 else "-x")
-                + f" at {m['y_nm']:.1f} nm ({m['y_lb']:.2f} l_B), v = {m['velocity_m_s']:.3g} m/s"
+                + f" {m['depth_nm']:.1f} nm ({m['depth_lb']:.2f} l_B) inside, v = {m['velocity_m_s']:.3g} m/s"
                 + ("" if m.get("drift_m_s") is None else f" (E x B drift {m['drift_m_s']:.3g} m/s)")
-                for m in modes)
+                for m in shown)
+            if len(shown) < len(modes):
+                text += f"; ... {len(modes) - len(shown)} more (summary.json)"
             lines.append(f"  {name + ' modes':12s} {text}")
     if h["r_xy_ohm"] is None:
         r_xy = "infinite (C = 0)"

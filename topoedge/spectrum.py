@@ -47,10 +47,10 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.linalg as sla
 import scipy.sparse as sp
-from tqdm.auto import tqdm
 
 from ._threads import eigh_stack
 from .hamiltonian import RibbonHamiltonian, abs_max, diagonal
+from .progress import ticks as _ticks
 
 __all__ = ["RibbonSpectrum", "ribbon_spectrum", "k_grid", "BLOCK_SOLVERS"]
 
@@ -105,16 +105,6 @@ class RibbonSpectrum:
     count: np.ndarray
     window: tuple[float, float] | None
     solver: str
-
-
-def _ticks(items, progress, desc: str):
-    """Iterate ``items``, advancing ``progress``: a Stage (``update()``), True (a bar) or False."""
-    if hasattr(progress, "update"):
-        for item in items:
-            yield item
-            progress.update()
-        return
-    yield from tqdm(items, disable=not progress, desc=desc, leave=False)
 
 
 def _observables(prob, ham: RibbonHamiltonian, velocity) -> dict:
