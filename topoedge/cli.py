@@ -494,9 +494,13 @@ def _cmd_hallbar(args) -> int:
             window = (bottom, ef + 1.5 * (ef - bottom), 41)
         scan = hallbar_scan(scenario, np.linspace(*window), progress=progress)
         axis, units = "energy", "E_F in t"
+    from .units import VON_KLITZING
+
+    for key in ("r_xy", "r_xx"):  # the same resistances in ohm (R_K = h/e^2, CODATA)
+        scan[f"{key}_ohm"] = [None if v is None or v != v else v * VON_KLITZING for v in scan[key]]
     summary = {"title": scenario.title, "source": scenario.source, "config": scenario.to_dict(),
-               "units": f"{units}; r_xy, r_xx in h/e^2 (per spin: r_xy_up, ...); r_xy_bulk = -1/C "
-                        "from the bulk Chern sum", **scan}
+               "units": f"{units}; r_xy, r_xx in h/e^2 (per spin: r_xy_up, ...), r_xy_ohm, r_xx_ohm in ohm; "
+                        "R_xy = -1/sigma_xy; r_xy_bulk = -1/C from the bulk Chern sum", **scan}
     summary = json.loads(json.dumps(summary).replace("NaN", "null"))
 
     import matplotlib
