@@ -312,8 +312,11 @@ def plot_level_diagram(chern, *, ax, fermi_energy: float | None = None,
     lo, hi = energy_range or (min(b.energy_min for b in chern.bands), max(b.energy_max for b in chern.bands))
     pad = 0.04 * (hi - lo)
     bars, labels = [], []
+    index = {spin: 0 for spin in spins}            # Landau level n = order of the group in its sector
     for group in chern.groups:
         centre = 0.5 * (group.energy_min + group.energy_max)
+        n = index[group.spin]
+        index[group.spin] += 1
         if not lo - pad <= centre <= hi + pad:
             continue
         x = columns[group.spin]
@@ -321,9 +324,9 @@ def plot_level_diagram(chern, *, ax, fermi_energy: float | None = None,
         thick = max(top - bottom, 0.004 * float(E(hi) - E(lo)))
         bars.append(ax.add_patch(Rectangle(
             (x + 0.1, 0.5 * (top + bottom) - thick / 2), 0.55, thick, color=styles[group.spin])))
-        labels.append(ax.annotate(f"C = {group.chern}" + (f" ({len(group.bands)} bands)" if len(group.bands) > 1
-                                                          else ""),
-                                  (x + 0.68, 0.5 * (top + bottom)), va="center", fontsize=7,
+        labels.append(ax.annotate(f"n = {n}: C = {group.chern}"
+                                  + (f" ({len(group.bands)} bands)" if len(group.bands) > 1 else ""),
+                                  (x + 0.72, 0.5 * (top + bottom)), va="center", fontsize=7,
                                   color=styles[group.spin]))
     if continuum:
         for spin, levels in continuum.items():
@@ -332,17 +335,21 @@ def plot_level_diagram(chern, *, ax, fermi_energy: float | None = None,
             x = columns[spin]
             for e in levels:
                 if lo - pad <= e <= hi + pad:
-                    ax.plot([x + 0.1, x + 0.65], [float(E(e))] * 2, color="0.4", ls="--", lw=0.8)
+                    ax.plot([x + 0.04, x + 0.71], [float(E(e))] * 2, color="0.4", ls="--", lw=0.8, zorder=3)
     if fermi_energy is not None:
         ax.axhline(float(E(fermi_energy)), color="k", ls=":", lw=0.8)
         for gap in chern.gaps:
             if gap.energy_min < fermi_energy < gap.energy_max:
                 ax.axhspan(float(E(gap.energy_min)), float(E(gap.energy_max)), color="0.93", zorder=0)
-                labels.append(ax.annotate(f"gap above {gap.below} bands: sum C = {gap.chern}",
-                                          (0.02, float(E(fermi_energy))), xycoords=("axes fraction", "data"),
-                                          xytext=(0, 3), textcoords="offset points", fontsize=7, color="0.3"))
-    ax.set_xlim(0, len(spins))
-    ax.set_ylim(float(E(lo - pad)), float(E(hi + pad)))
+                per_level = max(len(g.bands) for g in chern.groups) if chern.groups else 1
+                nu = (f" ($\\nu$ = {gap.below // per_level})" if per_level > 1 and gap.below % per_level == 0
+                      else "")
+                labels.append(ax.annotate(f"gap above {gap.below} bands{nu}: sum C = {gap.chern}",
+                                          (0.02, float(E(0.5 * (fermi_energy + gap.energy_max)))),
+                                          xycoords=("axes fraction", "data"), va="center", fontsize=7,
+                                          color="0.3"))
+    ax.set_xlim(0, len(spins) + 0.25)     # room for the labels of the last column
+    ax.set_ylim(float(E(lo - pad)), float(E(hi + 2 * pad)))
     ax.set_xticks([i + 0.4 for i in range(len(spins))],
                   [f"spin {s}" if s else "spinless" for s in spins])
     ax.set_ylabel(f"{d.energy_label} ({d.energy_unit})")
@@ -369,12 +376,18 @@ def _title(result) -> str:
     units = getattr(result, "units", None)
     if units is not None:
         field = sc.field
-        carriers = (f", n = {field.density_cm2:.3g} cm$^{{-2}}$, $\\nu$ = {units.filling:.3g}"
-                    if units.filling is not None else
-                    f", $E_F$ = {field.fermi_mev:g} meV" if field.fermi_mev is not None else "")
-        return (f"{sc.title or 'scenario'}: B = {units.b_tesla:g} T along {'+z' if units.b_tesla > 0 else '-z'}"
-                f"{carriers}\nlattice a = {units.lattice_constant_nm:.3g} nm, flux {sc.lattice.flux} per plaquette "
-                f"({units.b_lattice_tesla:.5g} T)")
+        carriers = ""
+        if units.filling is not None:
+            mantissa, exponent = f"{field.density_cm2:.3e}".split("e")
+            carriers = (f", $n$ = ${float(mantissa):g}\\times 10^{{{int(exponent)}}}$ cm$^{{-2}}$, "
+                        f"$\\nu$ = {units.filling:.3f}")
+        elif field.fermi_mev is not None:
+            carriers = f", $E_F$ = {field.fermi_mev:g} meV"
+        exact = abs(units.b_relative_error) < 1e-12
+        lattice_b = "exactly" if exact else f"{units.b_lattice_tesla:.4f} T"
+        return (f"{sc.title or 'scenario'}\n$B$ = {units.b_tesla:g} T along {'+z' if units.b_tesla > 0 else '-z'}"
+                f"{carriers}\nlattice $a$ = {units.lattice_constant_nm:.3g} nm, flux {sc.lattice.flux} "
+                f"$h/e$ per plaquette ({lattice_b})")
     if sc.lattice.kind in ZERO_FIELD:
         return f"{sc.title or 'scenario'}: {'Haldane' if sc.lattice.kind == 'haldane' else 'Qi-Wu-Zhang'} model"
     cell = "hexagon" if sc.lattice.kind == "honeycomb" else "plaquette"
@@ -408,15 +421,16 @@ def ribbon_figure(result):
         ax.add_artist(artists["legend"])
     sm = plt.cm.ScalarMappable(norm=artists["norm"], cmap="coolwarm")
     bar = fig.colorbar(sm, ax=ax, label=rf"$\langle y \rangle$ across the ribbon ({across})")
-    if d.magnetic_length:
-        twin = bar.ax.secondary_yaxis("left", functions=(lambda y: y / d.magnetic_length,
-                                                         lambda u: u * d.magnetic_length))
-        twin.set_ylabel("$l_B$", fontsize=8)
-        twin.tick_params(labelsize=7)
+    lb = d.magnetic_length
+    if lb is None and result.scenario.lattice.kind == "square" and result.scenario.lattice.flux != 0:
+        lb = 1.0 / np.sqrt(2 * np.pi * abs(float(result.scenario.lattice.flux)))   # effective-mass l_B in a
+    if lb:
+        twin = bar.ax.secondary_yaxis("left", functions=(lambda y: y / lb, lambda u: u * lb))
+        twin.set_ylabel(rf"$\langle y \rangle / l_B$ ($l_B$ = {lb:.3g} {d.length_unit})")
     s = result.summary
     hall = ""
     if s["hall"]["r_xy_ohm"] is not None and d.physical:
-        hall = f", $R_{{xy}}$ = {s['hall']['r_xy_ohm'] / 1e3:.4f} k$\\Omega$"
+        hall = f", $R_{{xy}}$ = {s['hall']['r_xy_ohm'] / 1e3:.3f} k$\\Omega$"
     ax.set_title(f"{_title(result)}\nC = {s['bulk']['chern_below_fermi']}, edge net "
                  f"{s['edges']['bottom']['net']:+d} (bottom) / {s['edges']['top']['net']:+d} (top){hall}",
                  fontsize=9)
@@ -456,8 +470,8 @@ def bulk_figure(result):
                             Line2D([], [], color="0.4", ls="--",
                                    label=r"continuum $\hbar\omega_c(n+1/2) \mp \Delta_Z/2$")],
                    loc="outside lower center", ncol=2, fontsize=8)
-        ax.set_title(f"{_title(result)}\nLandau levels of the bulk (bars: band ranges), Chern numbers on a "
-                     f"{result.chern.grid[0]}x{result.chern.grid[1]} grid", fontsize=9)
+        ax.set_title(f"{_title(result)}\nbulk Landau levels (bars: band ranges, at least a line wide), "
+                     f"Chern numbers on {result.chern.grid[0]}x{result.chern.grid[1]}", fontsize=9)
         return fig
     plot_bulk_bands(result.bulk_path, result.chern, ax=ax, fermi_energy=ef, energy_range=window, display=d)
     handles = [Line2D([], [], color="k", ls=":", label="$E_F$")]
