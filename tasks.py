@@ -5,6 +5,9 @@
     python3 tasks.py test [ARGS...]    set up, then pytest ARGS; fails if no test ran
     python3 tasks.py bench [ARGS...]   set up, then `topoedge bench ARGS`
     python3 tasks.py setup             set up only
+    python3 tasks.py install-check     install topoedge non-editable into a fresh
+                                       .venv-install and run the default scenario
+                                       from another directory (CI runs it)
     python3 tasks.py setup --mumps     set up with kwant's MUMPS solver (installs the
                                        system package libmumps-seq-dev with apt-get
                                        when missing; needs root) and rebuild kwant
@@ -32,6 +35,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parent
 VENV = ROOT / ".venv"
 PY = VENV / "bin" / "python"
+WHEELS = VENV / "wheels"       # the kwant wheel built here, reused by install-check
 STAMP = VENV / ".topoedge-setup"
 KWANT = "kwant==1.5.0"
 KWANT_BUILD_DEPS = ["numpy", "scipy", "tinyarray", "cython", "setuptools", "wheel"]
@@ -83,8 +87,52 @@ def _build_kwant(mumps: bool) -> None:
         options.append(f"--config-settings=--build-option=--configfile={conf}")
     print(f"building kwant from source{' with MUMPS' if mumps else ''} (about 90 s) ...", flush=True)
     # No wheel cache: a cached build would ignore the MUMPS configuration.
-    _run(PY, "-m", "pip", "install", "-q", "--no-build-isolation", "--no-cache-dir",
-         "--force-reinstall", "--no-deps", *options, KWANT)
+    WHEELS.mkdir(parents=True, exist_ok=True)
+    for old in WHEELS.glob("kwant-*.whl"):
+        old.unlink()
+    _run(PY, "-m", "pip", "wheel", "-q", "--no-build-isolation", "--no-cache-dir", "--no-deps",
+         "-w", WHEELS, *options, KWANT)
+    _run(PY, "-m", "pip", "install", "-q", "--force-reinstall", "--no-deps", _kwant_wheel())
+
+
+def _kwant_wheel() -> Path:
+    wheels = sorted(WHEELS.glob("kwant-*.whl"))
+    if not wheels:
+        raise SystemExit(f"tasks.py: no kwant wheel in {WHEELS}")
+    return wheels[-1]
+
+
+def install_check() -> int:
+    """Install topoedge (not editable) into a fresh .venv-install; run the default scenario elsewhere.
+
+    The package's data (default scenario, presets, sweeps) must come with the
+    installed package: the run happens in a temporary directory, away from
+    the checkout, and must write its results folder.
+    """
+    import tempfile
+
+    if not list(WHEELS.glob("kwant-*.whl")):
+        _build_kwant(_have_mumps_headers())
+    target = ROOT / ".venv-install"
+    if target.exists():
+        shutil.rmtree(target)
+    print(f"creating virtual environment {target}", flush=True)
+    venv.EnvBuilder(with_pip=True).create(target)
+    tpy = target / "bin" / "python"
+    _run(tpy, "-m", "pip", "install", "-q", "--upgrade", "pip")
+    _run(tpy, "-m", "pip", "install", "-q", _kwant_wheel())
+    _run(tpy, "-m", "pip", "install", "-q", str(ROOT))
+    with tempfile.TemporaryDirectory() as tmp:
+        for args in (["run"], ["run", "gaas-5T"]):
+            out = Path(tmp) / f"out-{len(args)}"
+            cmd = [str(target / "bin" / "topoedge"), *args, "--out", str(out), "--quiet"]
+            print("+", " ".join(cmd), f"(in {tmp})", flush=True)
+            code = subprocess.run(cmd, cwd=tmp).returncode
+            if code != 0 or not (out / "summary.json").exists():
+                print(f"tasks.py: the installed topoedge failed: {' '.join(args)} (exit {code})", file=sys.stderr)
+                return 1
+    print("tasks.py: the non-editable install runs the shipped scenarios from another directory", flush=True)
+    return 0
 
 
 def setup(mumps: bool = False) -> None:
@@ -109,7 +157,7 @@ def setup(mumps: bool = False) -> None:
 
 
 def main(argv: list[str]) -> int:
-    if not argv or argv[0] not in ("setup", "run", "test", "bench"):
+    if not argv or argv[0] not in ("setup", "run", "test", "bench", "install-check"):
         print(__doc__, file=sys.stderr)
         return 2
     task, rest = argv[0], [a for a in argv[1:] if a != "--"]
@@ -125,6 +173,12 @@ def main(argv: list[str]) -> int:
         return 1
     if task == "setup":
         return 0
+    if task == "install-check":
+        try:
+            return install_check()
+        except subprocess.CalledProcessError as err:
+            print(f"tasks.py: install-check failed at: {' '.join(map(str, err.cmd))}", file=sys.stderr)
+            return 1
     if task == "test":
         code = subprocess.run([str(PY), "-m", "pytest", *rest], cwd=ROOT).returncode
         if code == 5:

@@ -31,15 +31,15 @@ import numpy as np
 import pytest
 
 from topoedge import cli
-from topoedge.butterfly import (
+from topoedge.workflows.butterfly import (
     BUTTERFLY_FILES, butterfly_fluxes, butterfly_grid, compute_butterfly, mirror_spectrum,
 )
 
 with warnings.catch_warnings():
     warnings.simplefilter("ignore")
-    from topoedge.bloch import BlochHamiltonian
-    from topoedge.builders import bulk_builder, model_params
-    from topoedge.chern import chern_numbers
+    from topoedge.systems.bloch import BlochHamiltonian
+    from topoedge.models.square import bulk_builder, model_params
+    from topoedge.solvers.chern import chern_numbers
 
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 # Energies computed twice from the same matrices (up to complex conjugation
@@ -169,7 +169,7 @@ def test_both_spin_species_appear_with_a_zeeman_term(spinless, spinful):
 
 def test_reduced_grid_gives_the_chern_numbers_of_the_full_grid(spinless):
     # The butterfly grid (2q x 8) against chern.default_grid (2q x 2q): the
-    # convergence argument of topoedge.butterfly, checked for q <= 12.
+    # convergence argument of topoedge.workflows.butterfly, checked for q <= 12.
     full = compute_butterfly(12, spin=False, jobs=2, full_grid=True)
     assert full.full_grid and full.entry("1/12").grid == (24, 24)
     for a, b in zip(spinless.entries, full.entries):

@@ -25,9 +25,9 @@ with warnings.catch_warnings():
     warnings.simplefilter("ignore")
     import kwant
 
-from topoedge.bloch import BlochHamiltonian
-from topoedge.builders import bulk_builder, model_params
-from topoedge.chern import GapClosedError, chern_numbers, link_chern
+from topoedge.systems.bloch import BlochHamiltonian
+from topoedge.models.square import bulk_builder, model_params
+from topoedge.solvers.chern import GapClosedError, chern_numbers, link_chern
 
 
 def tknn(p: int, q: int, r: int) -> int:
@@ -186,7 +186,7 @@ def test_divide_and_conquer_failure_falls_back_to_mrrr():
     # LAPACK's divide-and-conquer eigensolver does not converge on this
     # Hofstadter Bloch Hamiltonian (flux 3/50 at k = (0, pi/2)) here; the
     # stack solver must fall back and still return an exact eigensystem.
-    from topoedge._threads import eigh_stack
+    from topoedge.util.threads import eigh_stack
 
     bloch = bulk(Fraction(3, 50))
     hk = bloch.at(np.array([0.0, 0.3]), np.array([np.pi / 2, 0.1]))

@@ -22,12 +22,13 @@ import numpy as np
 import pytest
 
 import topoedge
-from topoedge import cli, plotting
-from topoedge.config import DEFAULT_SCENARIO, load_scenario, parse_scenario
-from topoedge.pipeline import run_scenario
-from topoedge.results import ResultsExistError, write_run
+from topoedge import cli
+from topoedge.plotting import run as plotting
+from topoedge.scenario import DEFAULT_SCENARIO, load_scenario, parse_scenario
+from topoedge.workflows.run import run_scenario
+from topoedge.outputs.results import ResultsExistError, write_run
 
-CONFIGS = sorted((Path(__file__).resolve().parent.parent / "configs").glob("*.toml"))
+CONFIGS = sorted((Path(__file__).resolve().parent.parent / "topoedge" / "data" / "scenarios").glob("*.toml"))
 
 # A ribbon small enough to run in a fraction of a second: W = 30 sites,
 # flux 1/10 (l_B = 1.26 a, so W is about 24 magnetic lengths), 21 momenta.
@@ -201,7 +202,7 @@ def test_run_summary_json(cli_run):
 def test_run_summary_topology(cli_run):
     # Filling 2 of the Zeeman-split lowest Landau level: Chern sum 2, one
     # spin-up and one spin-down mode per edge, bottom along +x, top along -x
-    # (the bulk-edge convention of topoedge.pipeline).
+    # (the bulk-edge convention of topoedge.workflows.run).
     _, out, _ = cli_run
     summary = strict_json((out / "summary.json").read_text())
     bulk, fermi, edges = summary["bulk"], summary["fermi"], summary["edges"]

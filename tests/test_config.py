@@ -1,4 +1,4 @@
-"""Tests of topoedge.config: schema, messages, overrides and files."""
+"""Tests of topoedge.scenario: schema, messages, overrides and files."""
 
 import dataclasses
 import math
@@ -8,8 +8,8 @@ from fractions import Fraction
 import pytest
 from hypothesis import given, strategies as st
 
-from topoedge import config
-from topoedge.config import (
+import topoedge.scenario as config
+from topoedge.scenario import (
     ConfigError, EdgeConfig, FermiConfig, LatticeConfig, RibbonConfig, Scenario,
     SpectrumConfig, SpinConfig, apply_overrides, key_docs, load_scenario, parse_scenario,
 )
@@ -392,7 +392,7 @@ def test_load_file_with_overrides(tmp_path):
 def test_load_default_path(tmp_path, monkeypatch):
     path = tmp_path / "default.toml"
     path.write_text('title = "stand-in"\n')
-    monkeypatch.setattr(config, "DEFAULT_SCENARIO", path)
+    monkeypatch.setattr("topoedge.scenario.load.DEFAULT_SCENARIO", path)
     assert load_scenario().title == "stand-in"
 
 

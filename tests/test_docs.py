@@ -1,8 +1,8 @@
 """README.md against the code: configuration keys, edge profiles, quick start,
 the Python example, the guaranteed ``summary.json`` keys and ``spectrum.h5``.
 
-The reference here is the code itself (``topoedge.config.key_docs``,
-``topoedge.profiles.EDGE_PROFILES``, a run of a tiny scenario) and the CI
+The reference here is the code itself (``topoedge.scenario.key_docs``,
+``topoedge.models.profiles.EDGE_PROFILES``, a run of a tiny scenario) and the CI
 script ``.ci/run``; the README must follow them.
 """
 
@@ -19,8 +19,9 @@ from pathlib import Path
 
 import pytest
 
-from topoedge import config, profiles
-from topoedge.config import key_docs
+from topoedge.models import profiles
+import topoedge.scenario as config
+from topoedge.scenario import key_docs
 
 ROOT = Path(__file__).resolve().parent.parent
 README = (ROOT / "README.md").read_text(encoding="utf-8")
@@ -228,8 +229,8 @@ def tiny_run(tmp_path_factory):
     """The tiny scenario, computed and written (without figures)."""
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        from topoedge.pipeline import run_scenario
-        from topoedge.results import write_run
+        from topoedge.workflows.run import run_scenario
+        from topoedge.outputs.results import write_run
     result = run_scenario(config.parse_scenario(TINY))
     out = write_run(tmp_path_factory.mktemp("docs") / "run", result, {})
     return result, out

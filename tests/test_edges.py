@@ -33,12 +33,11 @@ with warnings.catch_warnings():
     warnings.simplefilter("ignore")
     import kwant
 
-from topoedge import edges
-from topoedge.builders import bulk_builder, model_params, ribbon_builder
-from topoedge.edges import EdgeCount, count_edge_modes, find_crossings
-from topoedge.hamiltonian import RibbonHamiltonian
-from topoedge.profiles import edge_potential
-from topoedge.spectrum import k_grid, ribbon_spectrum
+from topoedge.models.square import bulk_builder, model_params, ribbon_builder
+from topoedge.solvers.edges import EdgeCount, count_edge_modes, find_crossings
+from topoedge.systems.ribbon import RibbonHamiltonian
+from topoedge.models.profiles import edge_potential
+from topoedge.solvers.spectrum import k_grid, ribbon_spectrum
 
 
 def _ribbon(width, *, spin=False, profile="none", ramp=0.0, height=0.0, **params):
@@ -87,7 +86,7 @@ HARD_WALL_PAIRS = {(1, 7, 3): 1, (1, 7, 4): 1, (6, 7, 3): 1, (6, 7, 4): 1, (5, 1
 @pytest.mark.parametrize("p, q", FLUXES, ids=[f"{p}/{q}" for p, q in FLUXES])
 def test_edge_chirality_equals_tknn_integer(p, q):
     # TKNN / Hatsugai: net chirality of each edge in gap r is +-t_r. With
-    # the conventions of topoedge.builders (phi > 0) the bottom edge carries
+    # the conventions of topoedge.models.square (phi > 0) the bottom edge carries
     # exactly +t_r and the top edge -t_r; reversing the flux flips both.
     width = 12 * q + 5
     ham = _ribbon(width, phi=p / q)
@@ -287,15 +286,17 @@ def test_spin_mixing_path_agrees_with_spin_sectors():
     assert (merged.bottom.net, merged.top.net) == (split.bottom.net, split.top.net) == (2, -2)
 
 
-@pytest.mark.parametrize("kind", ["_BandedSector", "_DenseSector"])
+@pytest.mark.parametrize("kind", ["BandedBlock", "DenseBlock"])
 def test_band_and_dense_sectors_agree_with_the_tridiagonal_one(kind, monkeypatch):
     # The same ribbon through each eigensolver path: identical modes.
     ham = _ribbon(37, profile="linear", ramp=3, height=0.5, phi=2 / 7)
     ef = -0.4
     ref, _ = find_crossings(ham, ef, k_points=100)
     assert len(ref) == 4
-    solver = getattr(edges, kind)
-    monkeypatch.setattr(edges, "_sectors", lambda h: [solver(h.block(np.arange(h.size)))])
+    from topoedge.solvers import blocks, crossings
+
+    solver = getattr(blocks, kind)
+    monkeypatch.setattr(crossings, "spin_blocks", lambda h: [solver(h.block(np.arange(h.size)))])
     got, _ = find_crossings(ham, ef, k_points=100)
     assert len(got) == len(ref)
     for m, r in zip(got, ref):

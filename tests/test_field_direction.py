@@ -21,9 +21,9 @@ import numpy as np
 import pytest
 import scipy.constants as const
 
-from topoedge.config import lattice_scenario, parse_scenario
-from topoedge.pipeline import build_ribbon, run_scenario
-from topoedge.spectrum import ribbon_spectrum
+from topoedge.scenario import lattice_scenario, parse_scenario
+from topoedge.workflows.run import build_ribbon, run_scenario
+from topoedge.solvers.spectrum import ribbon_spectrum
 
 R_K = const.h / const.e**2
 

@@ -1,4 +1,4 @@
-"""Six-terminal Hall bar: quantised R_xy and vanishing R_xx (topoedge.hallbar)."""
+"""Six-terminal Hall bar: quantised R_xy and vanishing R_xx (topoedge.solvers.transport)."""
 
 import warnings
 from fractions import Fraction
@@ -11,14 +11,14 @@ with warnings.catch_warnings():
     warnings.simplefilter("ignore", RuntimeWarning)  # kwant: MUMPS absent, SciPy solver used
     import kwant  # noqa: F401
 
-from topoedge.bloch import BlochHamiltonian
-from topoedge.builders import bulk_builder, model_params
-from topoedge.chern import chern_numbers
-from topoedge.hallbar import (
+from topoedge.systems.bloch import BlochHamiltonian
+from topoedge.models.square import bulk_builder, model_params
+from topoedge.solvers.chern import chern_numbers
+from topoedge.solvers.transport import (
     disorder_average, hall_resistances, hallbar_builder, hallbar_params,
 )
-from topoedge.pipeline import VON_KLITZING
-from topoedge.profiles import EDGE_PROFILES
+from topoedge.workflows.run import VON_KLITZING
+from topoedge.models.profiles import EDGE_PROFILES
 
 PHI = Fraction(1, 10)           # magnetic length sqrt(1 / (2 pi phi)) = 1.26 a
 ZEEMAN = 0.1                    # units of t
@@ -48,7 +48,7 @@ def test_von_klitzing_constant():
 
 
 def test_gauge_plaquette_phase(spinless):
-    # Source: topoedge.builders convention, counter-clockwise plaquette phase +2 pi phi
+    # Source: topoedge.models.square convention, counter-clockwise plaquette phase +2 pi phi
     # (Peierls substitution, Hofstadter PRB 14, 2239 (1976)); checked from the
     # finalized Hamiltonian in the bar, across the probe columns (where the gauge
     # is transformed) and at the corners.
@@ -149,7 +149,7 @@ def test_plateau_transition_has_longitudinal_resistance(spinless):
 
 def test_field_reversal_flips_hall_sign(spinless, spinless_gaps):
     # Source: Onsager reciprocity, R_xy(B) = -R_xy(-B) for this probe pair (Buttiker PRL 57, 1761
-    # (1986)); sign convention of topoedge.hallbar: phi > 0 gives R_xy < 0 with leads (1, 5).
+    # (1986)); sign convention of topoedge.solvers.transport: phi > 0 gives R_xy < 0 with leads (1, 5).
     e = spinless_gaps[0].middle
     plus = hall_resistances(spinless, e, dict(phi=float(PHI)))
     minus = hall_resistances(spinless, e, dict(phi=-float(PHI)))
@@ -159,7 +159,7 @@ def test_field_reversal_flips_hall_sign(spinless, spinless_gaps):
 
 def test_edge_potential_keeps_plateau(spinless_gaps):
     # Source: Buttiker PRB 38, 9375 (1988): a smooth confinement moves the edge channels but not
-    # the quantisation; linear ramp of topoedge.profiles, 2 sites, height 1 t.
+    # the quantisation; linear ramp of topoedge.models.profiles, 2 sites, height 1 t.
     def pot(d):
         return EDGE_PROFILES["linear"](d, width=2.0, height=1.0, table=())
 
@@ -170,7 +170,7 @@ def test_edge_potential_keeps_plateau(spinless_gaps):
 
 
 def test_bar_narrower_than_potential():
-    # Source: topoedge.profiles: the bulk must be flat between the two edge ramps.
+    # Source: topoedge.models.profiles: the bulk must be flat between the two edge ramps.
     def pot(d):
         return EDGE_PROFILES["linear"](d, width=10.0, height=1.0, table=())
 
@@ -199,7 +199,7 @@ def test_energy_outside_lead_bands(spinless):
 
 
 def test_missing_phi(spinless):
-    # Source: topoedge.hallbar.hallbar_params contract.
+    # Source: topoedge.solvers.transport.hallbar_params contract.
     with pytest.raises(ValueError, match="must contain 'phi'"):
         hall_resistances(spinless, -2.0, dict(t=1.0))
 
@@ -213,8 +213,8 @@ def test_four_routes_agree_through_the_pipeline(flux, gap, expected, size):
     # Chern sum, edge chirality, Streda slope and Hall-bar transport give the
     # same integer (TKNN, PRL 49, 405 (1982); Buttiker, PRB 38, 9375 (1988));
     # the Hall bar to 1e-6 relative (R_K = h/e^2, CODATA via scipy.constants).
-    from topoedge.config import parse_scenario
-    from topoedge.pipeline import run_scenario
+    from topoedge.scenario import parse_scenario
+    from topoedge.workflows.run import run_scenario
 
     scenario = parse_scenario({
         "lattice": {"flux": flux}, "spin": {"enabled": False}, "ribbon": {"width": 80},
@@ -231,7 +231,7 @@ def test_four_routes_agree_through_the_pipeline(flux, gap, expected, size):
 
 
 def test_hallbar_narrower_than_the_edge_ramps_is_refused():
-    from topoedge.config import ConfigError, parse_scenario
+    from topoedge.scenario import ConfigError, parse_scenario
 
     with pytest.raises(ConfigError, match=r"^hallbar\.width: got 12, not wider than the two edge ramps"):
         parse_scenario({"ribbon": {"edge": {"profile": "linear", "width": 8, "height": 1}},
@@ -285,7 +285,7 @@ def test_conductance_sum_rules_and_solvers_agree(spinless):
     # Current conservation and no current at equal voltages: every row and
     # column of the conductance matrix sums to zero (Buttiker, PRL 57, 1761
     # (1986)). Every solver available here gives the same matrix.
-    from topoedge.hallbar import solvers, sum_rule_violation
+    from topoedge.solvers.transport import solvers, sum_rule_violation
 
     params = hallbar_params(spinless, dict(phi=PHI))
     matrices = {name: np.asarray(smatrix(spinless, -2.9, params=params).conductance_matrix())
@@ -312,8 +312,8 @@ def test_disorder_average_keeps_per_spin_values():
 
 
 def test_run_reports_per_spin_hall_bar_values():
-    from topoedge.config import parse_scenario
-    from topoedge.pipeline import run_scenario
+    from topoedge.scenario import parse_scenario
+    from topoedge.workflows.run import run_scenario
 
     scenario = parse_scenario({
         "lattice": {"flux": "1/10"}, "spin": {"enabled": True, "zeeman": 0.1}, "ribbon": {"width": 60},
@@ -352,8 +352,8 @@ def test_field_scan_follows_the_landau_levels_through_e_f(tmp_path):
     # The field points along +z (B > 0): electrons have C = -nu and
     # R_xy = -1/sigma_xy = +h/(nu e^2) (Drude/Hall sign for negative carriers,
     # common practice). Hall bar and bulk Chern sum agree at every field.
-    from topoedge.config import load_scenario
-    from topoedge.pipeline import hallbar_field_scan
+    from topoedge.scenario import load_scenario
+    from topoedge.workflows.run import hallbar_field_scan
 
     scan = hallbar_field_scan(load_scenario(_field_scenario(tmp_path)), [2.0, 3.0, 8.0], jobs=1)
     assert scan["fermi_mev"] == pytest.approx(10.0, rel=1e-9)

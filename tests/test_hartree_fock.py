@@ -1,13 +1,13 @@
-"""Self-consistent Hartree-Fock on the ribbon (topoedge.hartree_fock)."""
+"""Self-consistent Hartree-Fock on the ribbon (topoedge.solvers.hartree_fock)."""
 
 from fractions import Fraction
 
 import numpy as np
 import pytest
 
-from topoedge.builders import model_params, ribbon_builder
-from topoedge.hamiltonian import RibbonHamiltonian
-from topoedge.hartree_fock import (
+from topoedge.models.square import model_params, ribbon_builder
+from topoedge.systems.ribbon import RibbonHamiltonian
+from topoedge.solvers.hartree_fock import (
     HartreeFockRibbon, Interaction, background_density, line_kernel, pair_kernel,
 )
 
@@ -267,7 +267,7 @@ def test_effective_hamiltonian_reproduces_the_self_consistent_bands():
     # The self-consistent Hamiltonian as a ribbon with far hoppings equals the
     # loop's H_s(k) on its momentum grid (Fourier series, to rounding), and
     # its spectrum from the ribbon solvers gives the same bands.
-    from topoedge.spectrum import ribbon_spectrum
+    from topoedge.solvers.spectrum import ribbon_spectrum
 
     hf, _ = _nu_one(width=40)
     result = hf.solve("polarised", tol=1e-9)
@@ -289,7 +289,7 @@ def test_self_consistent_edge_of_filling_one_has_one_mode_per_edge():
     # 0.157 t) keeps a single chiral spin-up mode per edge (Chamon and Wen,
     # PRB 49, 8227 (1994): the sharp nu = 1 edge is stable); net chirality
     # +1 / -1 = the Chern number of the filled level.
-    from topoedge.edges import count_edge_modes
+    from topoedge.solvers.edges import count_edge_modes
 
     # 40 momenta make the electrons per grid (1.4 per cell x 40) an integer,
     # so the last level is full and E_F lies between it and the next one.
@@ -325,7 +325,7 @@ def test_far_hoppings_velocity_is_the_derivative_of_the_bloch_matrix():
 
 def _edge_of_filling_one(ramp):
     """Lowest-energy solution (polarised or edge start) of a 100-row nu = 1 ribbon and its edge count."""
-    from topoedge.edges import count_edge_modes
+    from topoedge.solvers.edges import count_edge_modes
 
     hf, _ = _nu_one(width=100, ramp=ramp, k_points=40, coulomb=0.4)
     best, runs = hf.solve_all(("polarised", "edge"), tol=1e-7)
@@ -362,7 +362,7 @@ def test_hartree_fock_figure_draws_the_profiles_of_the_result():
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from topoedge.plotting import hartree_fock_figure
+    from topoedge.plotting.run import hartree_fock_figure
 
     hf, phi = _nu_one(width=40)
     result = hf.solve("polarised")

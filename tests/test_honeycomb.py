@@ -10,17 +10,17 @@ import kwant
 import numpy as np
 import pytest
 
-from topoedge.bloch import BlochHamiltonian
-from topoedge.builders import bulk_builder, model_params
-from topoedge.chern import GapClosedError, chern_numbers, subspace_chern
-from topoedge.config import ConfigError, parse_scenario
-from topoedge.hamiltonian import RibbonHamiltonian
-from topoedge.honeycomb import (
+from topoedge.systems.bloch import BlochHamiltonian
+from topoedge.models.square import bulk_builder, model_params
+from topoedge.solvers.chern import GapClosedError, chern_numbers, subspace_chern
+from topoedge.scenario import ConfigError, parse_scenario
+from topoedge.systems.ribbon import RibbonHamiltonian
+from topoedge.models.honeycomb import (
     HEXAGON_AREA, dirac_landau_level, honeycomb_bulk_builder, honeycomb_params,
     honeycomb_ribbon_builder,
 )
-from topoedge.pipeline import run_scenario
-from topoedge.spectrum import ribbon_spectrum
+from topoedge.workflows.run import run_scenario
+from topoedge.solvers.spectrum import ribbon_spectrum
 
 
 def _bulk(phi, *, spin=False, **params):

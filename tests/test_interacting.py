@@ -1,4 +1,4 @@
-"""Self-consistent runs from scenarios (topoedge.interacting and ``topoedge run`` with [interaction])."""
+"""Self-consistent runs from scenarios (topoedge.workflows.interacting and ``topoedge run`` with [interaction])."""
 
 from __future__ import annotations
 
@@ -18,8 +18,8 @@ import scipy.constants as sc
 
 from test_cli import to_toml  # the tests' TOML writer (tests/ is on sys.path under pytest)
 from topoedge import cli
-from topoedge.config import ConfigError, lattice_scenario, parse_scenario
-from topoedge.interacting import CELL_AVERAGE, choose_k_points, interaction_of, run_interacting
+from topoedge.scenario import ConfigError, lattice_scenario, parse_scenario
+from topoedge.workflows.interacting import CELL_AVERAGE, choose_k_points, interaction_of, run_interacting
 
 ROOT = Path(__file__).resolve().parent.parent
 
@@ -185,7 +185,7 @@ def test_results_folder_of_a_self_consistent_run(tmp_path, nu1_run):
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from topoedge.results import read_restart, write_run
+    from topoedge.outputs.results import read_restart, write_run
 
     figures = cli._interacting_figures(nu1_run)
 
@@ -277,7 +277,7 @@ def test_killed_run_restarts_from_its_checkpoint(tmp_path):
 
 
 def test_restart_for_another_model_is_refused(tmp_path, nu1_run):
-    from topoedge.results import write_restart
+    from topoedge.outputs.results import write_restart
 
     config = _write(tmp_path, NU1)
     restart = tmp_path / "restart.h5"
@@ -318,7 +318,7 @@ def test_width_scan_reports_spin_order_and_reconstruction(tmp_path):
     assert separation(rows[12.0]) > separation(rows[0.0]) + 2.0
     assert i["reconstruction"] == {"found": False, "widest_without_a": 12.0,
                                    "widest_without_lB": pytest.approx(12.0 / i["magnetic_length_a"])}
-    from topoedge.results import format_summary
+    from topoedge.outputs.results import format_summary
 
     text = format_summary(result.summary)
     assert "scan         w (a)" in text and "no counter-propagating pair up to w = 12 a" in text
@@ -328,7 +328,7 @@ def test_gated_self_consistent_run(tmp_path):
     # A metal gate 5 a away (2 l_B) screens the interaction: the run still
     # converges to a neutral nu = 1 ferromagnet with one mode per edge, and
     # the summary names the gate.
-    from topoedge.results import format_summary
+    from topoedge.outputs.results import format_summary
 
     result = run_interacting(_scenario(interaction__gate_distance=5.0, interaction__starts=["polarised"]))
     i = result.summary["interaction"]
@@ -384,7 +384,7 @@ def test_near_degenerate_starts_are_warned_about():
     # nu = 2, tiny Zeeman, w = 8 rows on 40 momenta: the polarised and
     # unpolarised starts end in different states 4e-4 t per cell apart (the
     # grid decides between them; see the test above), which the run says.
-    from topoedge.results import format_summary
+    from topoedge.outputs.results import format_summary
 
     s = _scenario(fermi__gap=2, spin__zeeman=0.002, ribbon__width=80, interaction__k_points=40,
                   interaction__starts=["polarised", "unpolarised"],

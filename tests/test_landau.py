@@ -2,7 +2,7 @@
 
 Sources:
 - kwant (reference library): the Bloch Hamiltonian of the 1 x q magnetic cell
-  (kwant.wraparound of topoedge.builders.bulk_builder) equals the ring form.
+  (kwant.wraparound of topoedge.models.square.bulk_builder) equals the ring form.
 - Magnetic translation (Zak, Phys. Rev. 134, A1602 (1964)): shifting the rows
   of the Landau-gauge cell by one maps H(k1) onto H(k1 - 2 pi phi).
 - Chambers' relation (Phys. Rev. 140, A135 (1965), from memory): every band
@@ -27,13 +27,13 @@ from fractions import Fraction
 import numpy as np
 import pytest
 
-from topoedge.bloch import BlochHamiltonian
-from topoedge.builders import bulk_builder, model_params
-from topoedge.chern import chern_numbers, default_grid
-from topoedge.harper import HarperCell, magnetic_shift
-from topoedge.landau import (LandauSolverError, band_ranges, count_below, landau_chern, landau_states_below,
+from topoedge.systems.bloch import BlochHamiltonian
+from topoedge.models.square import bulk_builder, model_params
+from topoedge.solvers.chern import chern_numbers, default_grid
+from topoedge.systems.harper import HarperCell, magnetic_shift
+from topoedge.solvers.landau import (LandauSolverError, band_ranges, count_below, landau_chern, landau_states_below,
                              landau_subspace_chern, lattice_levels)
-from topoedge.streda import states_below
+from topoedge.solvers.streda import states_below
 
 
 def _kwant_bulk(flux, zeeman=0.0, spin=False, onsite=0.0):
@@ -217,7 +217,7 @@ def test_wide_groups_are_refused_not_miscounted():
     # iteration cannot converge there and says so (not the Landau-level regime).
     cell = HarperCell(Fraction(1, 60), spin=False)
     with pytest.raises(LandauSolverError, match="not the Landau-level regime|did not converge"):
-        from topoedge.landau import _solve_group
+        from topoedge.solvers.landau import _solve_group
 
         lo, hi = band_ranges(cell, 31)
         _solve_group(cell, 0.0, float(lo[0]), float(hi[29]), 30, 1, 4, np.random.default_rng(0))

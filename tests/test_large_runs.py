@@ -22,9 +22,9 @@ import numpy as np
 import pytest
 import scipy.constants as const
 
-from topoedge.builders import model_params, ribbon_builder
-from topoedge.hamiltonian import RibbonHamiltonian
-from topoedge.spectrum import ribbon_spectrum
+from topoedge.models.square import model_params, ribbon_builder
+from topoedge.systems.ribbon import RibbonHamiltonian
+from topoedge.solvers.spectrum import ribbon_spectrum
 
 
 def test_sparse_wide_ribbon_has_the_kwant_spectrum():
@@ -80,7 +80,7 @@ def test_forced_landau_solver_on_another_lattice_is_a_configuration_error(tmp_pa
 
 
 def test_progress_log_lines():
-    from topoedge.progress import Progress
+    from topoedge.util.progress import Progress
 
     stream = io.StringIO()
     progress = Progress("log", stream=stream, every=0.05, min_seconds=0.0)
@@ -104,7 +104,7 @@ def test_progress_log_lines():
 
 
 def test_batch_run_writes_stage_lines_to_stderr(tmp_path):
-    proc = _cli("run", "configs/gaas-5T.toml", "--out", tmp_path / "out", cwd=".")
+    proc = _cli("run", "topoedge/data/scenarios/gaas-5T.toml", "--out", tmp_path / "out", cwd=".")
     assert proc.returncode == 0, proc.stderr
     # stderr is a pipe here: no bar, only `topoedge | ...` lines (stages of a second or more)
     assert "\r" not in proc.stderr
@@ -112,7 +112,7 @@ def test_batch_run_writes_stage_lines_to_stderr(tmp_path):
 
 
 def test_physical_outputs_in_the_scenario_units(tmp_path):
-    proc = _cli("run", "configs/gaas-5T.toml", "--out", tmp_path / "out", "--quiet", cwd=".")
+    proc = _cli("run", "topoedge/data/scenarios/gaas-5T.toml", "--out", tmp_path / "out", "--quiet", cwd=".")
     assert proc.returncode == 0, proc.stderr
     summary = json.loads((tmp_path / "out" / "summary.json").read_text())
     units, ph = summary["units"], summary["physical"]

@@ -1,4 +1,4 @@
-"""Zero-field Chern insulators and user-built kwant systems (topoedge.models, chern.builder_chern)."""
+"""Zero-field Chern insulators and user-built kwant systems (topoedge.models.zero_field, chern.builder_chern)."""
 
 from __future__ import annotations
 
@@ -7,9 +7,9 @@ from fractions import Fraction
 import numpy as np
 import pytest
 
-from topoedge.bloch import BlochHamiltonian
-from topoedge.chern import GapClosedError, builder_chern
-from topoedge.models import haldane_builder, honeycomb_vectors, qwz_builder
+from topoedge.systems.bloch import BlochHamiltonian
+from topoedge.solvers.chern import GapClosedError, builder_chern
+from topoedge.models.zero_field import haldane_builder, honeycomb_vectors, qwz_builder
 
 SX = np.array([[0, 1], [1, 0]], dtype=complex)
 SY = np.array([[0, -1j], [1j, 0]])
@@ -31,7 +31,7 @@ def _qwz(kx, ky, m):
 
 def test_qwz_builder_is_the_published_hamiltonian():
     # Pointwise spectrum of the published H(k) at -k (the Fourier sign of
-    # kwant's Bloch convention, see topoedge.models), to rounding.
+    # kwant's Bloch convention, see topoedge.models.zero_field), to rounding.
     rng = np.random.default_rng(3)
     for m in (-2.5, -1.0, 0.7):
         bloch = BlochHamiltonian.from_kwant(qwz_builder(), params=dict(m=m))
@@ -109,9 +109,9 @@ def test_user_builder_path_equals_the_built_in_lattice():
     # builder gives the run's Chern numbers, and at flux 1/5 the band Chern
     # numbers 1, 1, -4, 1, 1 (TKNN, PRL 49, 405 (1982); table in
     # ../shared/REFERENCES.md section 1).
-    from topoedge.builders import bulk_builder, model_params
-    from topoedge.config import parse_scenario
-    from topoedge.pipeline import bulk_chern
+    from topoedge.models.square import bulk_builder, model_params
+    from topoedge.scenario import parse_scenario
+    from topoedge.workflows.run import bulk_chern
 
     phi = Fraction(1, 5)
     user = builder_chern(bulk_builder(phi, spin=False), params=model_params(phi=phi, zeeman=0.0))
@@ -154,7 +154,7 @@ def test_user_ribbon_edges_follow_the_bulk_chern_number(model, params, period):
     # model): net chirality of one edge = the lower band's Chern number, the
     # other edge the opposite, at an E_F inside the bulk gap but off the
     # symmetric point E = 0 (see the next test).
-    from topoedge.edges import builder_edge_modes
+    from topoedge.solvers.edges import builder_edge_modes
 
     template = qwz_builder() if model == "qwz" else haldane_builder()
     if period == "b1":
@@ -172,10 +172,10 @@ def test_user_ribbon_path_equals_the_built_in_ribbon():
     # edge) handed in as a user's builder gives the run's spectrum and edge
     # count: net chirality = C = 2 = the TKNN value of the gap above two spin
     # bands (common practice: one per filled Landau level of each spin).
-    from topoedge.builders import model_params, ribbon_builder
-    from topoedge.config import parse_scenario
-    from topoedge.edges import builder_edge_modes
-    from topoedge.pipeline import run_scenario, scenario_potential
+    from topoedge.models.square import model_params, ribbon_builder
+    from topoedge.scenario import parse_scenario
+    from topoedge.solvers.edges import builder_edge_modes
+    from topoedge.workflows.run import run_scenario, scenario_potential
 
     scenario = parse_scenario({"lattice": {"flux": "1/10"}, "spin": {"zeeman": 0.05},
                                "ribbon": {"width": 40, "edge": {"profile": "linear", "width": 6.0, "height": 1.0}},
@@ -196,8 +196,8 @@ def test_finite_size_gap_at_the_fermi_energy_is_reported():
     # gap of 2.9e-6 t (measured) with E_F in its middle. No band crosses E_F,
     # yet the edges carry modes: the count must say it is not meaningful
     # rather than report zero modes.
-    from topoedge.edges import count_edge_modes
-    from topoedge.hamiltonian import RibbonHamiltonian
+    from topoedge.solvers.edges import count_edge_modes
+    from topoedge.systems.ribbon import RibbonHamiltonian
 
     params = dict(t1=1.0, t2=0.1, phi=np.pi / 2, M=0.0)
     ham = RibbonHamiltonian.from_kwant(_ribbon(haldane_builder(), tuple(honeycomb_vectors()[1][0]), 30),
@@ -224,8 +224,8 @@ def test_zero_field_presets_run_from_a_scenario(lattice, chern):
     # Haldane, PRL 61, 2015 (1988): |C| = 1 inside |M| < 3 sqrt(3) |t2 sin
     # phi| = 0.52, sign with phi, 0 outside) and one edge mode per unit of C
     # on each edge (bulk-edge correspondence, Hatsugai, PRL 71, 3697 (1993)).
-    from topoedge.config import parse_scenario
-    from topoedge.pipeline import run_scenario
+    from topoedge.scenario import parse_scenario
+    from topoedge.workflows.run import run_scenario
 
     s = parse_scenario({"lattice": lattice, "ribbon": {"width": 30}, "spectrum": {"k_points": 32},
                         "fermi": {"energy": 0.1}})
@@ -242,8 +242,8 @@ def test_zero_field_presets_run_from_a_scenario(lattice, chern):
 def test_zero_field_preset_with_a_smooth_edge_keeps_its_net_chirality():
     # An edge ramp of 1.5 t over 6 a_cc on the Haldane ribbon bends the edge
     # bands; whatever crosses E_F, the net chirality stays C = -1.
-    from topoedge.config import parse_scenario
-    from topoedge.pipeline import run_scenario
+    from topoedge.scenario import parse_scenario
+    from topoedge.workflows.run import run_scenario
 
     s = parse_scenario({"lattice": {"kind": "haldane", "t2": 0.1, "t2_phase": np.pi / 2},
                         "ribbon": {"width": 40, "edge": {"profile": "linear", "width": 6.0, "height": 1.5}},
@@ -266,7 +266,7 @@ def test_zero_field_preset_with_a_smooth_edge_keeps_its_net_chirality():
      r"hallbar.enabled: the Hall bar with lattice.kind = 'qwz'; expected the square lattice"),
 ])
 def test_bad_preset_keys_are_refused(data, match):
-    from topoedge.config import ConfigError, parse_scenario
+    from topoedge.scenario import ConfigError, parse_scenario
 
     with pytest.raises(ConfigError, match=match):
         parse_scenario(data)
@@ -275,8 +275,8 @@ def test_bad_preset_keys_are_refused(data, match):
 def test_ribbon_edge_potential_keeps_the_model_on_site_terms():
     # A zero edge profile leaves the Haldane (M != 0) and QWZ ribbons exactly
     # as without one: the rebuilt on-site terms keep +-M per sublattice and m sigma_z.
-    from topoedge.hamiltonian import RibbonHamiltonian
-    from topoedge.models import haldane_ribbon_builder, qwz_ribbon_builder
+    from topoedge.systems.ribbon import RibbonHamiltonian
+    from topoedge.models.zero_field import haldane_ribbon_builder, qwz_ribbon_builder
 
     for make, params in ((haldane_ribbon_builder, dict(t1=1.0, t2=0.1, phi=np.pi / 2, M=0.2)),
                          (qwz_ribbon_builder, dict(m=1.3))):

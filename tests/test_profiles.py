@@ -1,10 +1,10 @@
-"""Edge-potential profiles: the formulas documented in topoedge.profiles."""
+"""Edge-potential profiles: the formulas documented in topoedge.models.profiles."""
 
 import numpy as np
 import pytest
 from scipy.special import erfc
 
-from topoedge.profiles import EDGE_PROFILES, edge_potential
+from topoedge.models.profiles import EDGE_PROFILES, edge_potential
 
 
 def test_linear_ramp_rises_over_w_sites_to_v0_at_both_edges():

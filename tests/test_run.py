@@ -1,7 +1,7 @@
 """Acceptance checks of a whole run: bulk Chern numbers, edge modes, Hall response.
 
-Every check goes through `topoedge.pipeline.run_scenario` with scenarios
-validated by `topoedge.config.parse_scenario`, as ``topoedge run`` does, and
+Every check goes through `topoedge.workflows.run.run_scenario` with scenarios
+validated by `topoedge.scenario.parse_scenario`, as ``topoedge run`` does, and
 compares the summary with a published or exactly known result:
 
 - D. J. Thouless, M. Kohmoto, M. P. Nightingale, M. den Nijs, Phys. Rev. Lett.
@@ -30,10 +30,10 @@ import numpy as np
 import pytest
 import scipy.constants as const
 
-from topoedge import pipeline
-from topoedge.chern import GapClosedError
-from topoedge.config import parse_scenario
-from topoedge.pipeline import run_scenario
+from topoedge.workflows import run as pipeline
+from topoedge.solvers.chern import GapClosedError
+from topoedge.scenario import parse_scenario
+from topoedge.workflows.run import run_scenario
 
 # ---------------------------------------------------------------- helpers
 

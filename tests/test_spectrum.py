@@ -26,10 +26,10 @@ with warnings.catch_warnings():
     warnings.simplefilter("ignore")
     import kwant
 
-from topoedge.builders import bulk_builder, model_params, ribbon_builder, square_lattice
-from topoedge.hamiltonian import RibbonHamiltonian
-from topoedge.profiles import edge_potential
-from topoedge.spectrum import k_grid, ribbon_spectrum
+from topoedge.models.square import bulk_builder, model_params, ribbon_builder, square_lattice
+from topoedge.systems.ribbon import RibbonHamiltonian
+from topoedge.models.profiles import edge_potential
+from topoedge.solvers.spectrum import k_grid, ribbon_spectrum
 
 # Double precision eigenvalues of matrices with entries O(t) and size <= 200
 # agree to ~1e-13; the contract of the ribbon solvers is 1e-10 t.

@@ -13,10 +13,10 @@ from fractions import Fraction
 
 import pytest
 
-from topoedge.bloch import BlochHamiltonian
-from topoedge.builders import bulk_builder, model_params
-from topoedge.chern import chern_numbers
-from topoedge.streda import neighbour_fluxes, streda_slope
+from topoedge.systems.bloch import BlochHamiltonian
+from topoedge.models.square import bulk_builder, model_params
+from topoedge.solvers.chern import chern_numbers
+from topoedge.solvers.streda import neighbour_fluxes, streda_slope
 
 
 def bulk_factory(*, spin=False, zeeman=0.0):
@@ -75,8 +75,8 @@ def test_neighbours_are_the_nearest_fractions():
 def test_routes_agree_through_the_pipeline(flux, gap, expected):
     # Chern sum, bottom-edge chirality and Streda slope: three routes sharing
     # no code beyond the model give the TKNN integer (PRL 49, 405; Streda 1982).
-    from topoedge.config import parse_scenario
-    from topoedge.pipeline import run_scenario
+    from topoedge.scenario import parse_scenario
+    from topoedge.workflows.run import run_scenario
 
     q = Fraction(flux).denominator
     scenario = parse_scenario({
@@ -100,8 +100,8 @@ def test_streda_follows_the_gap_through_a_zeeman_level_crossing(zeeman):
     # 0.3 t and -78 at 0.31 t before this check); the Streda slope must be
     # the Chern sum 2 of the gap (common practice: one per filled spin level)
     # or no slope at all.
-    from topoedge.config import parse_scenario
-    from topoedge.pipeline import bulk_chern, fermi_level, streda_route
+    from topoedge.scenario import parse_scenario
+    from topoedge.workflows.run import bulk_chern, fermi_level, streda_route
 
     s = parse_scenario({"lattice": {"flux": "1/40"}, "spin": {"zeeman": zeeman},
                         "chern": {"grid": [24, 24], "refine": False}, "fermi": {"gap": 2}})

@@ -1,4 +1,4 @@
-"""Parameter sweeps (topoedge.sweep and ``topoedge sweep``)."""
+"""Parameter sweeps (topoedge.workflows.sweep and ``topoedge sweep``)."""
 
 from __future__ import annotations
 
@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 
 from test_cli import to_toml  # the tests' TOML writer (tests/ is on sys.path under pytest)
-from topoedge.sweep import (
+from topoedge.workflows.sweep import (
     QUANTITIES, SweepError, gather, load_sweep, parse_sweep, point_key, run_sweep, sweep_figures, write_table,
 )
 
@@ -146,8 +146,8 @@ def local_run(tmp_path_factory):
 
 
 def test_sweep_points_are_the_runs_of_their_scenarios(local_run):
-    from topoedge.config import parse_scenario
-    from topoedge.pipeline import run_scenario
+    from topoedge.scenario import parse_scenario
+    from topoedge.workflows.run import run_scenario
 
     sweep, out, stats, rows = local_run
     assert stats == {**stats, "total": 9, "skipped": 0, "computed": 9, "failed": 0}
@@ -310,7 +310,7 @@ def test_command_writes_table_and_figures(tmp_path):
     assert (tmp_path / "out" / "lines.pdf").read_bytes()[:5] == b"%PDF-"
 
 
-@pytest.mark.parametrize("path", sorted((ROOT / "configs" / "sweeps").glob("*.toml")),
+@pytest.mark.parametrize("path", sorted((ROOT / "topoedge" / "data" / "sweeps").glob("*.toml")),
                          ids=lambda p: p.name)
 def test_shipped_sweeps_load(path):
     sweep = load_sweep(path)

@@ -21,11 +21,11 @@ import numpy as np
 import pytest
 import scipy.constants as const
 
-from topoedge.builders import model_params, ribbon_builder
-from topoedge.config import ConfigError, lattice_scenario, load_scenario, parse_scenario
-from topoedge.hamiltonian import RibbonHamiltonian
-from topoedge.spectrum import ribbon_spectrum
-from topoedge.units import cyclotron_mev, hopping_mev, magnetic_length_nm, zeeman_mev
+from topoedge.models.square import model_params, ribbon_builder
+from topoedge.scenario import ConfigError, lattice_scenario, load_scenario, parse_scenario
+from topoedge.systems.ribbon import RibbonHamiltonian
+from topoedge.solvers.spectrum import ribbon_spectrum
+from topoedge.scenario.units import cyclotron_mev, hopping_mev, magnetic_length_nm, zeeman_mev
 
 GAAS = {"material": {"preset": "gaas", "lattice_constant_nm": 3.5},
         "field": {"b_tesla": 5.0, "density_cm2": 2.4e11}}
@@ -60,7 +60,7 @@ def test_gaas_at_5_tesla_has_filling_two():
     assert derived.filling == pytest.approx(2.4e15 * const.h / (const.e * 5.0), rel=1e-12)
     assert abs(derived.filling - 1.985) < 1e-3
     # The flux of simplest form within the default tolerance 0.1 %: -2/135
-    # (negative: B along +z for electrons, topoedge.units).
+    # (negative: B along +z for electrons, topoedge.scenario.units).
     assert lattice.lattice.flux == Fraction(-2, 135)
     assert lattice.fermi.gap == 4 and lattice.fermi.energy is None   # nu = 2 levels of 2 sub-bands
     b_lattice = 2 / 135 * (const.h / const.e) / (3.5e-9) ** 2
@@ -80,7 +80,7 @@ def test_density_puts_fermi_energy_above_whole_landau_levels_when_p_exceeds_one(
     # (Hofstadter, Phys. Rev. B 14, 2239 (1976)), so filling 2 is the gap above
     # 4 bands, where the Chern sum is -2 (TKNN: 4 = 135 s - 2 t has t = -2,
     # s = 0; Phys. Rev. Lett. 49, 405 (1982)).
-    from topoedge.pipeline import bulk_chern, fermi_level
+    from topoedge.workflows.run import bulk_chern, fermi_level
 
     s = parse_scenario({**GAAS, "chern": {"refine": False}})
     lattice, d = lattice_scenario(s)
@@ -134,7 +134,7 @@ def test_coarse_lattice_warns_and_says_how_to_fix_it():
 
 
 def test_shipped_gaas_scenario_loads():
-    lattice, d = lattice_scenario(load_scenario("configs/gaas-5T.toml"))
+    lattice, d = lattice_scenario(load_scenario("topoedge/data/scenarios/gaas-5T.toml"))
     assert lattice.lattice.flux == Fraction(-2, 135) and d.magnetic_length_a > 3
     assert abs(d.b_relative_error) <= 1e-3
 
@@ -184,7 +184,7 @@ def test_preset_keys_are_overridable_one_by_one():
 def test_simplest_fraction_has_the_smallest_denominator_in_the_interval():
     # Brute force over denominators (definition of the simplest rational in
     # an interval; the continued-fraction algorithm is textbook).
-    from topoedge.units import simplest_fraction
+    from topoedge.scenario.units import simplest_fraction
 
     rng = np.random.default_rng(3)
     for x in rng.uniform(1e-4, 0.6, 40):
@@ -197,11 +197,11 @@ def test_simplest_fraction_has_the_smallest_denominator_in_the_interval():
 
 @pytest.mark.parametrize("b, a", [(0.5, 3.5), (1.0, 3.5), (2.0, 3.5), (5.0, 3.5), (10.0, 2.5), (-3.0, 4.0)])
 def test_lattice_field_is_within_the_tolerance(b, a):
-    from topoedge.units import derive
+    from topoedge.scenario.units import derive
 
     d = derive(effective_mass=0.067, g_factor=-0.44, permittivity=12.9, lattice_constant_nm=a, b_tesla=b)
     assert abs(d.b_lattice_tesla / b - 1) <= 1e-3 and abs(d.b_relative_error) <= 1e-3
-    # flux = -B a^2 / (h/e) within the tolerance (B along +z, electrons: topoedge.units)
+    # flux = -B a^2 / (h/e) within the tolerance (B along +z, electrons: topoedge.scenario.units)
     exact = -b * (a * 1e-9) ** 2 / (const.h / const.e)
     assert float(d.flux) == pytest.approx(exact, rel=1e-3)
     assert np.sign(float(d.flux)) == -np.sign(b)
@@ -227,7 +227,7 @@ def test_tolerance_that_cannot_be_met_is_refused_in_one_line():
 def test_automatic_lattice_constant_gives_flux_exactly_one_over_q(b, density):
     # a = sqrt((h/e) / (q B)) makes B a^2 / (h/e) = 1/q exactly; q >= 57 puts
     # a <= l_B / 3 (l_B^2 = hbar / (e B) = (h/e) / (2 pi B): a / l_B = sqrt(2 pi / q)).
-    from topoedge.units import lattice_level_error
+    from topoedge.scenario.units import lattice_level_error
 
     s = parse_scenario({"material": {"preset": "gaas", "lattice_constant_nm": "auto"},
                         "field": {"b_tesla": b, "density_cm2": density}})

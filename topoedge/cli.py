@@ -20,7 +20,7 @@ import warnings
 from pathlib import Path
 
 from . import __version__
-from .config import DEFAULT_SCENARIO, ConfigError, lattice_scenario, load_scenario
+from .scenario import DEFAULT_SCENARIO, ConfigError, find_shipped, lattice_scenario, load_scenario
 
 EXIT_BAD_INPUT = 2
 #: A self-consistent run that wrote its results but did not converge everywhere.
@@ -47,7 +47,7 @@ def _parser() -> argparse.ArgumentParser:
     common.add_argument("--quiet", action="store_true", help="print nothing but errors")
 
     run = sub.add_parser("run", parents=[common], help="compute a scenario and write a results folder")
-    run.add_argument("config", nargs="?", default=None, help=f"scenario TOML file (default: {DEFAULT_SCENARIO.name})")
+    run.add_argument("config", nargs="?", default=None, help=f"scenario TOML file or the name of a shipped scenario (default: {DEFAULT_SCENARIO.stem})")
     run.add_argument("--out", type=Path, default=None,
                      help="results folder (default: results/<scenario>-<date-time>)")
     run.add_argument("--force", action="store_true", help="replace an existing results folder")
@@ -75,10 +75,10 @@ def _parser() -> argparse.ArgumentParser:
                        help="landau part: fluxes 1/q of the Landau-level Chern benchmark (default 200,1000,2000); "
                             "the dense route runs at the smallest (at most 200), half and a quarter of it (at least 12)")
     bench.add_argument("--gaas", default=None, metavar="SCENARIO",
-                       help="gaas part: the GaAs scenario run at 1 T and 10 T (default: configs/gaas-1T.toml)")
+                       help="gaas part: the GaAs scenario run at 1 T and 10 T (default: the shipped gaas-1T)")
     bench.add_argument("--sweep", default=None, metavar="SWEEP",
                        help="sweep file of the sweep part, run with 1 and with 2 workers "
-                            "(default: configs/sweeps/nu2-width-zeeman.toml)")
+                            "(default: the shipped nu2-width-zeeman)")
     bench.add_argument("--hf-size", default="200x256", metavar="WxNK",
                        help="Hartree-Fock benchmark: rows per spin x momenta (default 200x256)")
     bench.add_argument("--bars", default=None, metavar="LxW,...",
@@ -148,7 +148,7 @@ def _default_out(config_path: str | None) -> Path:
 
 
 def _cmd_run(args) -> int:
-    from .results import check_destination, format_summary, read_restart, write_run
+    from .outputs.results import check_destination, format_summary, read_restart, write_run
 
     if not (args.checkpoint_every >= 0 and args.checkpoint_every < float("inf")):
         raise ConfigError(f"run --checkpoint-every: got {args.checkpoint_every:g}; expected a finite number of "
@@ -162,13 +162,13 @@ def _cmd_run(args) -> int:
         restart, restart_model = read_restart(args.restart)
     out = args.out if args.out is not None else _default_out(args.config)
     check_destination(out, force=args.force)
-    from .progress import Progress, progress_mode
+    from .util.progress import Progress, progress_mode
 
     progress = Progress(progress_mode(quiet=args.quiet))
     checkpoint_path = None
     if scenario.interaction.enabled:
-        from .interacting import run_interacting  # imports kwant: only once the input is valid
-        from .results import write_restart
+        from .workflows.interacting import run_interacting  # imports kwant: only once the input is valid
+        from .outputs.results import write_restart
 
         checkpoint_path = out.with_name(out.name + ".checkpoint.h5")
         continuing = args.restart is not None and checkpoint_path.exists() and checkpoint_path.samefile(args.restart)
@@ -201,7 +201,7 @@ def _cmd_run(args) -> int:
         except ValueError as err:  # a restart file made for another model, of the wrong shape or charge
             raise ConfigError(str(err)) from None
     else:
-        from .pipeline import run_scenario  # imports kwant: only once the input is valid
+        from .workflows.run import run_scenario  # imports kwant: only once the input is valid
 
         result = run_scenario(scenario, progress=progress)
 
@@ -210,7 +210,7 @@ def _cmd_run(args) -> int:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from .plotting import RUN_FIGURES
+    from .plotting.run import RUN_FIGURES
 
     def saver(make):
         def save(path: Path) -> None:
@@ -246,7 +246,7 @@ def _cmd_run(args) -> int:
 
 def _interacting_figures(result) -> dict:
     """Figure makers of a self-consistent run: profiles and convergence, and the width scan."""
-    from .plotting import edge_scan_figure, hartree_fock_figure
+    from .plotting.run import edge_scan_figure, hartree_fock_figure
 
     run = result.interacting
     title = (f"{result.scenario.title or 'scenario'}: flux {result.scenario.lattice.flux}, "
@@ -273,7 +273,7 @@ def _interacting_figures(result) -> dict:
 
 
 def _cmd_bench(args) -> int:
-    from .bench import bench_chern, bench_ribbon
+    from .workflows.bench import bench_chern, bench_ribbon
 
     parts = [p.strip() for p in args.parts.split(",") if p.strip()]
     unknown = sorted(set(parts) - {"ribbon", "chern", "landau", "gaas", "hallbar", "hf", "sweep"})
@@ -286,15 +286,15 @@ def _cmd_bench(args) -> int:
     except (ValueError, AssertionError):
         raise ConfigError(f"bench --landau-q: got {args.landau_q!r}; expected comma-separated integers "
                           "from 24 to 20000 (e.g. 200,1000,2000)") from None
-    gaas_file = Path(args.gaas) if args.gaas else DEFAULT_SCENARIO.parent / "gaas-1T.toml"
+    gaas_file = find_shipped(args.gaas or "gaas-1T")
     if "gaas" in parts:
         gaas_scenario = load_scenario(gaas_file)
         if gaas_scenario.field.b_tesla is None:
             raise ConfigError(f"bench --gaas: {gaas_file} has no [field] section; expected a scenario in "
-                              "physical units (e.g. configs/gaas-1T.toml)")
-    sweep_file = Path(args.sweep) if args.sweep else DEFAULT_SCENARIO.parent / "sweeps" / "nu2-width-zeeman.toml"
+                              "physical units (e.g. the shipped gaas-1T)")
+    sweep_file = find_shipped(args.sweep or "nu2-width-zeeman", "sweeps")
     if "sweep" in parts:
-        from .sweep import load_sweep
+        from .workflows.sweep import load_sweep
 
         load_sweep(sweep_file)  # a malformed sweep file is refused before anything runs
     try:
@@ -346,7 +346,7 @@ def _cmd_bench(args) -> int:
                    f"{s['chern_whole']:.3f} s: ratio {c['ratio_whole_over_bare']:.2f}")
         _say(args, f"  (convergence check on the 1.5x finer grid: {s['chern_refined_grid']:.3f} s)")
     if "landau" in parts:
-        from .bench import bench_landau
+        from .workflows.bench import bench_landau
 
         _say(args, "Landau-level Chern benchmark: the lowest 4 levels at flux 1/q (spinless), the Landau-level "
                    "solver against the dense route on the same q x 8 grid ...")
@@ -363,7 +363,7 @@ def _cmd_bench(args) -> int:
                           f"; dense gaps equal: {'yes' if row['dense_gaps_equal'] else 'NO'}"))
         _say(args, f"  dense time grows as q^{r['dense_exponent']:.2f} (fitted to the measured points)")
     if "gaas" in parts:
-        from .bench import bench_gaas
+        from .workflows.bench import bench_gaas
 
         _say(args, f"GaAs benchmark: whole `topoedge run {gaas_file}` processes at 1 T and 10 T ...")
         report["gaas"] = r = bench_gaas(gaas_file)
@@ -375,7 +375,7 @@ def _cmd_bench(args) -> int:
                        f"edges {row['edges']}, Streda {row['streda']:.6f}, agree: "
                        f"{'yes' if row['routes_agree'] and row['bulk_edge_agree'] else 'NO'}")
     if "hallbar" in parts:
-        from .bench import bench_hallbar
+        from .workflows.bench import bench_hallbar
 
         _say(args, "Hall-bar benchmark: S-matrix with kwant's MUMPS solver against SciPy's sparse solver "
                    "(same bar, same E_F) ...")
@@ -398,7 +398,7 @@ def _cmd_bench(args) -> int:
                      if "ratio_scipy_over_mumps_amd" in row else "")
             _say(args, f"  {'':23s}  R_xy = {row['r_xy']:.8f} h/e^2{ratio}")
     if "hf" in parts:
-        from .bench import bench_hf
+        from .workflows.bench import bench_hf
 
         _say(args, f"Hartree-Fock benchmark: W = {hf_width} rows per spin, {hf_nk} k points, flux 1/40, "
                    "nu = 1, U_C = 0.4 t; DIIS against linear mixing ...")
@@ -416,7 +416,7 @@ def _cmd_bench(args) -> int:
             _say(args, f"    W = {row['width']:4d}, N_k = {row['k_points']:4d}: {row['build_seconds']:7.3f} s, "
                        f"time ratio {row['time_ratio']:5.2f}, model ratio {row['model_ratio']:5.2f}")
     if "sweep" in parts:
-        from .bench import bench_sweep
+        from .workflows.bench import bench_sweep
 
         _say(args, f"sweep benchmark: {sweep_file} from nothing, 1 worker process against 2 ...")
         report["sweep"] = r = bench_sweep(sweep_file)
@@ -463,19 +463,19 @@ def _cmd_hallbar(args) -> int:
     if fields is not None:
         if scenario.field.b_tesla is None:
             raise ConfigError("hallbar --fields: the scenario has no [field] section; expected a scenario "
-                              "in physical units ([material] and [field], e.g. configs/gaas-5T.toml)")
+                              "in physical units ([material] and [field], e.g. the shipped gaas-5T)")
         if args.jobs is not None and args.jobs < 1:
             raise ConfigError(f"hallbar --jobs: got {args.jobs}; expected at least 1 worker")
         if fields[0] * fields[1] <= 0:
             raise ConfigError(f"hallbar --fields: got {args.fields!r}; expected a range of one sign without 0 T")
     out = args.out if args.out is not None else _default_out(f"hallbar-{Path(args.config or DEFAULT_SCENARIO).stem}")
-    from .results import check_destination, write_folder, write_json
+    from .outputs.results import check_destination, write_folder, write_json
 
     check_destination(out, force=args.force)
-    from .pipeline import bulk_chern, fermi_level, hallbar_field_scan, hallbar_scan, replace_chern_refine
+    from .workflows.run import bulk_chern, fermi_level, hallbar_field_scan, hallbar_scan, replace_chern_refine
 
     model, _ = lattice_scenario(scenario)
-    from .progress import Progress, progress_mode
+    from .util.progress import Progress, progress_mode
 
     progress = Progress(progress_mode(quiet=args.quiet))
     if fields is not None:
@@ -494,7 +494,7 @@ def _cmd_hallbar(args) -> int:
             window = (bottom, ef + 1.5 * (ef - bottom), 41)
         scan = hallbar_scan(scenario, np.linspace(*window), progress=progress)
         axis, units = "energy", "E_F in t"
-    from .units import VON_KLITZING
+    from .scenario.units import VON_KLITZING
 
     for key in ("r_xy", "r_xx"):  # the same resistances in ohm (R_K = h/e^2, CODATA)
         scan[f"{key}_ohm"] = [None if v is None or v != v else v * VON_KLITZING for v in scan[key]]
@@ -509,7 +509,7 @@ def _cmd_hallbar(args) -> int:
     import h5py
     import matplotlib.pyplot as plt
 
-    from .plotting import hallbar_figure
+    from .plotting.run import hallbar_figure
 
     where = (f"flux {model.lattice.flux}" if fields is None
              else f"E_F = {scan['fermi_mev']:.3f} meV above the band bottom")
@@ -553,7 +553,7 @@ def _cmd_hallbar(args) -> int:
 
 def _cmd_sweep(args) -> int:
     """Run the points of a sweep file not run yet, then write the table and figures."""
-    from .sweep import gather, load_sweep, run_sweep, sweep_figures, write_table
+    from .workflows.sweep import gather, load_sweep, run_sweep, sweep_figures, write_table
 
     if args.overrides:
         raise ConfigError("sweep: --set is not used by sweeps; expected the values in the sweep file "
@@ -592,7 +592,7 @@ def _cmd_sweep(args) -> int:
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from .sweep import _write_atomic
+    from .workflows.sweep import _write_atomic
 
     names = []
     for name, fig in sweep_figures(sweep, rows).items():
@@ -624,7 +624,7 @@ def _cmd_butterfly(args) -> int:
     """Flux-energy spectrum of the scenario's model (spin, Zeeman, on-site) into a results folder."""
     import math
 
-    from .butterfly import Q_MAX_LIMIT
+    from .workflows.butterfly import Q_MAX_LIMIT
 
     if not 1 <= args.q_max <= Q_MAX_LIMIT:
         raise ConfigError(f"butterfly --q-max: got {args.q_max}; expected an integer from 1 to {Q_MAX_LIMIT}")
@@ -642,10 +642,10 @@ def _cmd_butterfly(args) -> int:
         while out.exists():
             n += 1
             out = base.with_name(f"{base.name}-{n}")
-    from .results import check_destination
+    from .outputs.results import check_destination
 
     check_destination(out, force=args.force)
-    from .butterfly import butterfly_summary, compute_butterfly, format_butterfly, write_butterfly
+    from .workflows.butterfly import butterfly_summary, compute_butterfly, format_butterfly, write_butterfly
 
     # With [field], the Zeeman splitting (in t) is the one at the scenario's
     # field, kept the same at every flux of the spectrum.
@@ -668,10 +668,10 @@ def main(argv: list[str] | None = None) -> int:
     # kwant warns at import that its sparse solver falls back to SciPy; the
     # ribbon and bulk calculations do not use that solver.
     warnings.filterwarnings("ignore", message="MUMPS is not available")
-    from .budget import MemoryBudgetError
-    from .chern import GapClosedError
-    from .landau import LandauSolverError
-    from .results import RestartFileError, ResultsExistError
+    from .util.budget import MemoryBudgetError
+    from .solvers.chern import GapClosedError
+    from .solvers.landau import LandauSolverError
+    from .outputs.results import RestartFileError, ResultsExistError
 
     try:
         commands = {"run": _cmd_run, "bench": _cmd_bench, "butterfly": _cmd_butterfly, "hallbar": _cmd_hallbar,

@@ -1,0 +1,186 @@
+"""Checks of key combinations, run once a scenario's keys are converted.
+
+One-line :class:`ConfigError` messages ``<key>: <what was wrong>; expected
+<what>``: mutually exclusive keys, keys that belong to another lattice,
+the self-consistent run's requirements and the physical units (which derive
+the lattice model from [material] and [field] with :mod:`topoedge.scenario.units`).
+"""
+
+from __future__ import annotations
+
+import math
+from .units import Derived, UnitsError, derive
+from .sections import ORIENTATIONS, ConfigError, Scenario
+from .schema import fraction_text
+
+__all__ = ["check_combinations", "ribbon_span", "derive_units", "MATERIAL_KEYS"]
+
+
+
+def check_combinations(s: Scenario) -> None:
+    """Constraints that involve more than one key."""
+    edge, width = s.ribbon.edge, s.ribbon.width
+    span = ribbon_span(s)
+    if edge.width > span / 2:
+        across = f", {span:g} a_cc across" if s.lattice.kind in ("honeycomb", "haldane") else ""
+        raise ConfigError(f"ribbon.edge.width: got {edge.width!r}, wider than half the ribbon "
+                          f"(ribbon.width = {width}{across}); expected at most {span / 2:g}")
+    if edge.profile == "table" and not edge.table:
+        raise ConfigError("ribbon.edge.table: empty, but ribbon.edge.profile = 'table' needs it; "
+                          "expected at least one [distance, potential] row")
+    if edge.table and edge.profile != "table":
+        raise ConfigError(f"ribbon.edge.table: given with ribbon.edge.profile = "
+                          f"{edge.profile!r}; expected no table for that profile "
+                          "(set ribbon.edge.profile = 'table' to use it)")
+    _check_units(s)
+    bar = s.hallbar
+    if bar.enabled and bar.width <= 2 * edge.width:
+        raise ConfigError(f"hallbar.width: got {bar.width}, not wider than the two edge ramps "
+                          f"(2 x ribbon.edge.width = {2 * edge.width:g}); expected a wider bar")
+    if s.fermi.energy is not None and s.fermi.gap is not None:
+        raise ConfigError(f"fermi.gap: got {s.fermi.gap} together with fermi.energy = "
+                          f"{s.fermi.energy!r}; expected only one of them")
+    if s.interaction.enabled:
+        _check_interaction(s)
+    _check_lattice(s)
+    if s.spin.zeeman != 0 and not s.spin.enabled:
+        raise ConfigError(f"spin.zeeman: got {s.spin.zeeman!r} with spin.enabled = false; "
+                          f"expected 0 without spin (spin.zeeman = {s.spin.zeeman!r} needs "
+                          "spin.enabled = true)")
+
+
+def ribbon_span(s: Scenario) -> float:
+    """Distance between the outermost sites of the two edges (a, or a_cc on the honeycomb lattice).
+
+    Square: ``W`` rows span ``W - 1``. Honeycomb (``a_cc = 1``): ``N`` zigzag
+    chains span ``3 N / 2 - 1``, ``N`` dimer lines ``(N - 1) sqrt(3) / 2``
+    (the geometry of `topoedge.models.honeycomb`).
+    """
+    width = s.ribbon.width
+    if s.lattice.kind in ("square", "qwz"):
+        return float(width)
+    if (s.ribbon.orientation or "zigzag") == "zigzag":
+        return 1.5 * width - 1.0
+    return (width - 1) * math.sqrt(3.0) / 2
+
+
+def _check_lattice(s: Scenario) -> None:
+    """Keys that belong to one lattice, and what the honeycomb lattice does not have yet."""
+    lat = s.lattice
+    if s.spin.rashba != 0 and not s.spin.enabled:
+        raise ConfigError(f"spin.rashba: got {s.spin.rashba!r} with spin.enabled = false; expected 0 "
+                          "without spin (the Rashba term couples the two spins)")
+    for enabled, key, what in ((s.interaction.enabled, "interaction.enabled", "[interaction]"),
+                               (s.hallbar.enabled, "hallbar.enabled", "the Hall bar")):
+        if enabled and s.spin.rashba != 0:
+            raise ConfigError(f"spin.rashba: got {s.spin.rashba!r} with {what}, which needs S_z conserved "
+                              f"(no Rashba term); expected 0 or {key} = false")
+    for key, value, kinds in (("lattice.staggered", lat.staggered, ("honeycomb", "haldane")),
+                              ("lattice.t2", lat.t2, ("haldane",)), ("lattice.t2_phase", lat.t2_phase, ("haldane",)),
+                              ("lattice.mass", lat.mass, ("qwz",))):
+        if value != 0 and lat.kind not in kinds:
+            raise ConfigError(f"{key}: got {value!r} with lattice.kind = {lat.kind!r}; expected 0 (it belongs "
+                              f"to lattice.kind = {' or '.join(map(repr, kinds))})")
+    if s.chern.solver == "landau" and (lat.kind != "square" or s.spin.rashba != 0
+                                       or (s.field.b_tesla is None and lat.flux.denominator < 3)
+                                       or (s.field.b_tesla is None and lat.flux == 0)):
+        why = (f"lattice.kind = {lat.kind!r}" if lat.kind != "square" else
+               f"spin.rashba = {s.spin.rashba!r} (S_z not conserved)" if s.spin.rashba != 0 else
+               f"lattice.flux = {fraction_text(lat.flux)} (fewer than 3 bands per spin)")
+        raise ConfigError(f"chern.solver: got 'landau' with {why}; expected 'auto' or 'dense' (the "
+                          "Landau-level solver is built for the square lattice with S_z conserved)")
+    allowed = {"honeycomb": ORIENTATIONS, "haldane": ("zigzag",)}.get(lat.kind, ())
+    if s.ribbon.orientation is not None and s.ribbon.orientation not in allowed:
+        where = "on the square lattice" if lat.kind == "square" else f"with lattice.kind = {lat.kind!r}"
+        hint = (" (zigzag and armchair edges need lattice.kind = 'honeycomb')" if lat.kind == "square" else "")
+        raise ConfigError(f"ribbon.orientation: got {s.ribbon.orientation!r} {where}; expected no orientation"
+                          + "".join(f" or {o!r}" for o in allowed) + hint)
+    if lat.kind == "square":
+        return
+    for enabled, key, what in (
+        (s.field.b_tesla is not None, "field.b_tesla", "[material] and [field]"),
+        (s.interaction.enabled, "interaction.enabled", "[interaction]"),
+        (s.hallbar.enabled, "hallbar.enabled", "the Hall bar"),
+    ):
+        if enabled:
+            raise ConfigError(f"{key}: {what} with lattice.kind = {lat.kind!r}; expected the square lattice "
+                              f"({what} is built for the square lattice only)")
+
+
+def _check_interaction(s: Scenario) -> None:
+    """A self-consistent scenario: spinful, filling given, edge from the background only."""
+    inter, width = s.interaction, s.ribbon.width
+    physical = s.field.b_tesla is not None
+    if not s.spin.enabled:
+        raise ConfigError("spin.enabled: false with [interaction]; expected true (the self-consistent "
+                          "run has both spins)")
+    if s.ribbon.edge.profile != "none":
+        raise ConfigError(f"ribbon.edge.profile: got {s.ribbon.edge.profile!r} with [interaction], where the "
+                          "edge is the potential of the background charge (interaction.background.*); "
+                          "expected 'none'")
+    if s.hallbar.enabled:
+        raise ConfigError("hallbar.enabled: true with [interaction]; expected false (the Hall bar is "
+                          "not interacting)")
+    if s.fermi.energy is not None or s.field.fermi_mev is not None:
+        key = "field.fermi_mev" if physical else "fermi.energy"
+        raise ConfigError(f"{key}: given with [interaction], where the electron number equals the "
+                          "background charge; expected fermi.gap (bands filled in the bulk) or "
+                          "field.density_cm2 instead")
+    if s.fermi.gap is None and s.field.density_cm2 is None:
+        raise ConfigError("fermi.gap: missing with [interaction]; expected the number of bulk bands "
+                          "filled (e.g. fermi.gap = 1 for nu = 1 at flux 1/q), or field.density_cm2")
+    if inter.coulomb is None and not physical:
+        raise ConfigError("interaction.coulomb: missing; expected U_C in t, or [material] and [field] "
+                          "to derive it from the permittivity")
+    if inter.coulomb is not None and physical:
+        raise ConfigError("interaction.coulomb: given together with [material] and [field], which set it "
+                          "(e^2/(4 pi eps0 eps_r a)); expected only one of them")
+    for w in (inter.background.width, *inter.scan_widths):
+        key = "interaction.background.width" if w == inter.background.width else "interaction.scan_widths"
+        if w > width / 2:
+            raise ConfigError(f"{key}: got {w!r}, wider than half the ribbon (ribbon.width = {width}); "
+                              f"expected at most {width / 2:g}")
+    if inter.background.setback >= width / 2:
+        raise ConfigError(f"interaction.background.setback: got {inter.background.setback!r}, which leaves "
+                          f"no background in a ribbon of {width} rows, so nothing can neutralise the "
+                          f"electrons; expected less than {width / 2:g}")
+
+
+MATERIAL_KEYS = ("effective_mass", "g_factor", "permittivity", "lattice_constant_nm")
+
+
+def _check_units(s: Scenario) -> None:
+    """The [material] and [field] sections: complete, consistent, usable."""
+    fld, mat = s.field, s.material
+    if fld.b_tesla is None:
+        for name in ("fermi_mev", "density_cm2"):
+            if getattr(fld, name) is not None:
+                raise ConfigError(f"field.{name}: given without field.b_tesla; expected a field in tesla")
+        return
+    if fld.fermi_mev is not None and fld.density_cm2 is not None:
+        raise ConfigError(f"field.density_cm2: got {fld.density_cm2!r} together with field.fermi_mev = "
+                          f"{fld.fermi_mev!r}; expected only one of them")
+    missing = [name for name in MATERIAL_KEYS if getattr(mat, name) is None]
+    if missing:
+        raise ConfigError(f"material.{missing[0]}: missing, but field.b_tesla needs it; expected a value "
+                          "or material.preset (e.g. 'gaas')")
+    derived = derive_units(s)
+    if fld.density_cm2 is not None and derived.filling < 0.5:
+        raise ConfigError(f"field.density_cm2: got {fld.density_cm2!r}, filling factor {derived.filling:.3f} "
+                          "at this field: no filled Landau level; expected a density giving filling >= 0.5")
+
+
+def derive_units(s: Scenario) -> Derived:
+    """Lattice parameters of the scenario's material and field (``field.b_tesla`` set)."""
+    mat, fld = s.material, s.field
+    try:
+        a = None if mat.lattice_constant_nm == "auto" else mat.lattice_constant_nm
+        return derive(effective_mass=mat.effective_mass, g_factor=mat.g_factor,
+                      permittivity=mat.permittivity, lattice_constant_nm=a,
+                      b_tesla=fld.b_tesla, fermi_mev=fld.fermi_mev, density_cm2=fld.density_cm2,
+                      q_max=fld.q_max, tolerance=fld.tolerance, onsite_t=s.lattice.onsite,
+                      spin=s.spin.enabled)
+    except UnitsError as err:
+        raise ConfigError(str(err)) from None
+
+

@@ -1,0 +1,679 @@
+"""Parameter sweeps: many scenarios from one base, run point by point, resumable.
+
+A sweep file (TOML) names a base scenario and axes over configuration key
+paths::
+
+    title = "edge width against Zeeman splitting"
+    scenario = "../default.toml"       # a path relative to this file, or a [scenario] table
+    mode = "grid"                      # every combination (default), or "zip" (axes side by side)
+
+    [[axis]]
+    key = "ribbon.edge.width"
+    values = [0.0, 4.0, 8.0]           # or linspace = [start, stop, count], or range = [start, stop, step]
+
+    [[axis]]
+    key = "spin.zeeman"
+    linspace = [0.0, 0.4, 5]
+
+    [plot]
+    quantities = ["bottom_pairs", "outermost_spin_bottom"]
+
+Every point is the base scenario with the axis values set (as by ``--set``)
+and runs the same pipeline as ``topoedge run`` (self-consistent with
+``[interaction]``). A point is identified by a hash of its resolved
+scenario (:func:`point_key`); once finished (or failed with a one-line
+error) it is written at once, atomically, to ``<out>/points/<key>.json``, so
+a sweep that is stopped or killed loses only the points in progress, and
+running it again computes only the points without a file. The table
+(``table.h5``, ``table.csv``) and the figures are rebuilt from the point
+files at the end of every run.
+
+Executors: worker processes on this machine (``local``), a dask.distributed
+``LocalCluster`` (``dask``), or an existing dask.distributed scheduler
+(``scheduler``: the same file on a cluster). The workers only compute; this
+process writes every file.
+"""
+
+from __future__ import annotations
+
+import csv
+import hashlib
+import io
+import itertools
+import json
+import math
+import os
+import time
+import tomllib
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from .. import __version__
+from ..scenario import ConfigError, apply_overrides, convert_key, parse_scenario
+from ..scenario.schema import plain
+
+__all__ = [
+    "QUANTITIES", "Axis", "Sweep", "SweepError", "load_sweep", "parse_sweep", "point_key", "run_point",
+    "quantities_of", "run_sweep", "gather", "write_table", "sweep_figures",
+]
+
+
+class SweepError(ConfigError):
+    """A malformed sweep file; ``str(err)`` is one line."""
+
+
+#: The summary quantities of every point (column, type, meaning).
+QUANTITIES: dict[str, tuple[str, str]] = {
+    "chern": ("int", "Chern sum of the bulk bands below E_F"),
+    "chern_up": ("int", "spin-up Chern sum below E_F (S_z conserved)"),
+    "chern_down": ("int", "spin-down Chern sum below E_F"),
+    "fermi_energy": ("float", "E_F, t"),
+    "in_gap": ("bool", "E_F lies in a gap of the ribbon (edge counts meaningful)"),
+    "bottom_net": ("int", "net chirality of the bottom edge"),
+    "top_net": ("int", "net chirality of the top edge"),
+    "bottom_pairs": ("int", "counter-propagating pairs on the bottom edge"),
+    "top_pairs": ("int", "counter-propagating pairs on the top edge"),
+    "bottom_pairs_up": ("int", "spin-up counter-propagating pairs, bottom edge"),
+    "bottom_pairs_down": ("int", "spin-down counter-propagating pairs, bottom edge"),
+    "top_pairs_up": ("int", "spin-up counter-propagating pairs, top edge"),
+    "top_pairs_down": ("int", "spin-down counter-propagating pairs, top edge"),
+    "bottom_modes": ("int", "modes on the bottom edge"),
+    "outermost_spin_bottom": ("str", "spin of the mode nearest the bottom boundary"),
+    "outermost_spin_top": ("str", "spin of the mode nearest the top boundary"),
+    "bulk_edge_agree": ("bool", "bottom edge +C and top edge -C"),
+    "routes_agree": ("bool", "every computed Hall route equals C"),
+    "hall_streda": ("float", "Streda slope, e^2/h (NaN where not computed)"),
+    "hall_hallbar": ("float", "-1/R_xy of the Hall bar, e^2/h (NaN where not computed)"),
+    "hf_converged": ("bool", "self-consistent solution found (interacting points)"),
+    "hf_energy": ("float", "Hartree-Fock energy per cell, t (interacting points)"),
+    "hf_best_start": ("str", "start of the kept self-consistent solution"),
+}
+
+
+@dataclass(frozen=True)
+class Axis:
+    """One swept key: its path and its values (converted TOML values)."""
+
+    key: str
+    values: tuple
+
+
+@dataclass(frozen=True)
+class Sweep:
+    """A validated sweep.
+
+    Attributes
+    ----------
+    title : str
+    base : dict
+        Scenario tables of the base scenario (TOML values).
+    axes : tuple of Axis
+    mode : {"grid", "zip"}
+    quantities : tuple of str
+        Quantities drawn in the figures.
+    source : str or None
+        The sweep file.
+    """
+
+    title: str
+    base: dict
+    axes: tuple[Axis, ...]
+    mode: str
+    quantities: tuple[str, ...]
+    source: str | None = None
+
+    def points(self) -> list[dict]:
+        """Every point: ``{"axes": {key: value}, "config": scenario tables}`` in sweep order."""
+        if self.mode == "zip":
+            combos = list(zip(*(a.values for a in self.axes)))
+        else:
+            combos = list(itertools.product(*(a.values for a in self.axes)))
+        out = []
+        for combo in combos:
+            axes = {a.key: v for a, v in zip(self.axes, combo)}
+            overrides = [f"{k}={_toml_value(v)}" for k, v in axes.items()]
+            out.append({"axes": axes, "config": apply_overrides(self.base, overrides)})
+        return out
+
+    def to_dict(self) -> dict:
+        return {"title": self.title, "scenario": self.base, "mode": self.mode,
+                "axis": [{"key": a.key, "values": list(a.values)} for a in self.axes],
+                "plot": {"quantities": list(self.quantities)}}
+
+
+def _toml_value(value: Any) -> str:
+    """A TOML literal of a converted axis value (for :func:`apply_overrides`)."""
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, str):
+        return json.dumps(value)
+    if isinstance(value, float):
+        return repr(value)
+    return str(value)
+
+
+DEFAULT_QUANTITIES = ("bottom_pairs", "bottom_net", "chern", "outermost_spin_bottom")
+_TOP_KEYS = ("title", "scenario", "mode", "axis", "plot")
+
+
+def _axis_values(spec: Any, i: int) -> list:
+    where = f"axis[{i}]"
+    if not isinstance(spec, dict):
+        raise SweepError(f"{where}: got {spec!r}; expected a table with key and one of values, linspace, range")
+    unknown = set(spec) - {"key", "values", "linspace", "range"}
+    if unknown:
+        raise SweepError(f"{where}.{sorted(unknown)[0]}: unknown key; expected key and one of values, "
+                         "linspace, range")
+    given = [name for name in ("values", "linspace", "range") if name in spec]
+    if len(given) != 1:
+        raise SweepError(f"{where}: got {', '.join(given) or 'no values'}; expected exactly one of values, "
+                         "linspace = [start, stop, count], range = [start, stop, step]")
+    name = given[0]
+    data = spec[name]
+    if name == "values":
+        if not isinstance(data, list):
+            raise SweepError(f"{where}.values: got {data!r}; expected an array of values")
+        return data
+    ok = (isinstance(data, list) and len(data) == 3
+          and all(isinstance(x, (int, float)) and not isinstance(x, bool) and math.isfinite(x) for x in data))
+    if name == "linspace":
+        if not ok or not isinstance(data[2], int) or data[2] < 1:
+            raise SweepError(f"{where}.linspace: got {data!r}; expected [start, stop, count] with a whole "
+                             "count >= 1")
+        return [float(x) for x in np.linspace(data[0], data[1], data[2])]
+    if not ok or data[2] == 0:
+        raise SweepError(f"{where}.range: got {data!r}; expected [start, stop, step] with step != 0 "
+                         "(stop excluded)")
+    start, stop, step = data
+    if all(isinstance(x, int) for x in data):
+        return list(range(start, stop, step))
+    count = max(0, math.ceil((stop - start) / step - 1e-9))
+    return [float(start + n * step) for n in range(count)]
+
+
+def parse_sweep(data: dict, *, base_dir: Path | None = None, source: str | None = None) -> Sweep:
+    """Validate a sweep table (see the module notes) before any point runs.
+
+    Raises
+    ------
+    SweepError
+        For an unknown key, a missing or unreadable base scenario, an axis
+        over an unknown key path, an empty axis, a value of the wrong type for
+        its key, zipped axes of different lengths, an unknown quantity.
+    """
+    unknown = set(data) - set(_TOP_KEYS)
+    if unknown:
+        raise SweepError(f"{sorted(unknown)[0]}: unknown key; expected the sweep keys {', '.join(_TOP_KEYS)}")
+    title = data.get("title", "")
+    if not isinstance(title, str):
+        raise SweepError(f"title: got {title!r}; expected a string")
+    base = data.get("scenario")
+    if isinstance(base, str):
+        path = Path(base) if base_dir is None else (base_dir / base)
+        try:
+            base = tomllib.loads(path.read_text(encoding="utf-8"))
+        except FileNotFoundError:
+            raise SweepError(f"scenario: {str(path)!r} not found; expected a scenario file (relative to "
+                             "the sweep file)") from None
+        except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError) as err:
+            raise SweepError(f"scenario: cannot read {str(path)!r}: {err}".replace("\n", " ")) from None
+    elif base is None:
+        raise SweepError("scenario: missing; expected a scenario file path or a [scenario] table")
+    elif not isinstance(base, dict):
+        raise SweepError(f"scenario: got {base!r}; expected a scenario file path or a [scenario] table")
+    try:
+        parse_scenario(base)
+    except ConfigError as err:
+        raise SweepError(f"scenario: {err}") from None
+    mode = data.get("mode", "grid")
+    if mode not in ("grid", "zip"):
+        raise SweepError(f"mode: got {mode!r}; expected 'grid' (every combination) or 'zip' (axes side by side)")
+    specs = data.get("axis")
+    if not isinstance(specs, list) or not specs:
+        raise SweepError("axis: missing; expected at least one [[axis]] table with key and values")
+    axes = []
+    for i, spec in enumerate(specs):
+        values = _axis_values(spec, i)
+        key = spec.get("key")
+        if not isinstance(key, str):
+            raise SweepError(f"axis[{i}].key: got {key!r}; expected a key path such as 'ribbon.edge.width'")
+        if not values:
+            raise SweepError(f"axis[{i}] ({key}): empty; expected at least one value")
+        converted = []
+        for j, value in enumerate(values):
+            try:
+                converted.append(convert_key(key, value, ranges=False))
+            except ConfigError as err:
+                raise SweepError(f"axis[{i}] value {j}: {err}") from None
+        if any(a.key == key for a in axes):
+            raise SweepError(f"axis[{i}].key: {key!r} is swept twice; expected each key once")
+        # Keep the TOML form (a flux stays "p/q") for the overrides and the table.
+        axes.append(Axis(key, tuple(plain(v) for v in converted)))
+    if mode == "zip" and len({len(a.values) for a in axes}) > 1:
+        lengths = ", ".join(f"{a.key}: {len(a.values)}" for a in axes)
+        raise SweepError(f"axis: zipped axes have different lengths ({lengths}); expected the same length")
+    plot = data.get("plot", {})
+    if not isinstance(plot, dict) or set(plot) - {"quantities"}:
+        raise SweepError("plot: expected a table with the key quantities")
+    quantities = plot.get("quantities", list(DEFAULT_QUANTITIES))
+    if not isinstance(quantities, list) or not quantities:
+        raise SweepError(f"plot.quantities: got {quantities!r}; expected a non-empty array of quantity names")
+    for q in quantities:
+        if q not in QUANTITIES:
+            raise SweepError(f"plot.quantities: got {q!r}; expected names from {', '.join(QUANTITIES)}")
+    return Sweep(title, base, tuple(axes), mode, tuple(quantities), source)
+
+
+def load_sweep(path: str | os.PathLike) -> Sweep:
+    """Read and validate a sweep file (:func:`parse_sweep`), or a shipped sweep by name."""
+    from ..scenario import find_shipped, shipped
+
+    path = find_shipped(path, "sweeps")
+    try:
+        data = tomllib.loads(path.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise SweepError(f"sweep file {str(path)!r} not found; expected an existing TOML file or the name of a "
+                         f"shipped sweep ({', '.join(shipped('sweeps'))})") from None
+    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError) as err:
+        raise SweepError(f"sweep file {str(path)!r}: {err}".replace("\n", " ")) from None
+    return parse_sweep(data, base_dir=path.parent, source=str(path))
+
+
+def point_key(config: dict) -> str:
+    """Identity of a point: a hash of its resolved scenario (its TOML tables, sorted).
+
+    A scenario that does not validate (its point will fail) is hashed as
+    written.
+    """
+    try:
+        tables = parse_scenario(config).to_dict()
+    except ConfigError:
+        tables = config
+    text = json.dumps(tables, sort_keys=True, separators=(",", ":"), default=str)
+    return hashlib.sha256(text.encode()).hexdigest()[:20]
+
+
+def quantities_of(summary: dict) -> dict:
+    """The table row of a run summary (see :data:`QUANTITIES`; NaN / "" / None where undefined)."""
+    out = {name: None for name in QUANTITIES}
+    inter = summary.get("interaction")
+    if inter is not None:
+        out["hf_converged"] = bool(inter.get("converged"))
+        out["hf_energy"] = inter.get("energy_t")
+        out["hf_best_start"] = inter.get("best_start") or ""
+    bulk = summary.get("bulk", {})
+    out["chern"] = bulk.get("chern_below_fermi")
+    spin = bulk.get("spin_chern_below_fermi") or {}
+    out["chern_up"], out["chern_down"] = spin.get("up"), spin.get("down")
+    if "edges" not in summary:
+        return out
+    e, h, c = summary["edges"], summary["hall"], summary["check"]
+    out["fermi_energy"] = summary["fermi"]["energy"]
+    out["in_gap"] = e["in_gap"]
+    for side in ("bottom", "top"):
+        edge = e[side]
+        out[f"{side}_net"] = edge["net"]
+        out[f"{side}_pairs"] = edge["counter_pairs"]
+        for s in ("up", "down"):
+            out[f"{side}_pairs_{s}"] = edge["by_spin"].get(s, {}).get("counter_pairs")
+        out[f"outermost_spin_{side}"] = (edge["modes"][0]["spin"] or "") if edge["modes"] else ""
+    out["bottom_modes"] = len(e["bottom"]["modes"])
+    out["bulk_edge_agree"] = c["bulk_edge_agree"]
+    out["routes_agree"] = c["routes_agree"]
+    out["hall_streda"] = h["routes"]["streda"]
+    out["hall_hallbar"] = h["routes"]["hallbar"]
+    return out
+
+
+def run_point(config: dict) -> dict:
+    """Run one point (in a worker): the pipeline of ``topoedge run``, no files.
+
+    Returns ``{"status": "ok", "quantities", "summary", "seconds"}`` or
+    ``{"status": "failed", "error": one line, "seconds"}``: a point that
+    fails never raises.
+    """
+    import warnings
+
+    from ..util.threads import one_blas_thread
+
+    warnings.filterwarnings("ignore", message="MUMPS is not available")
+    start, cpu = time.perf_counter(), time.process_time()
+    try:
+        scenario = parse_scenario(config)
+        with one_blas_thread():
+            if scenario.interaction.enabled:
+                from .interacting import run_interacting
+
+                result = run_interacting(scenario)
+            else:
+                from .run import run_scenario
+
+                result = run_scenario(scenario)
+        summary = json.loads(json.dumps(result.summary, default=float).replace("NaN", "null"))
+        return {"status": "ok", "quantities": quantities_of(summary), "summary": summary,
+                "seconds": time.perf_counter() - start, "cpu_seconds": time.process_time() - cpu}
+    except Exception as err:  # a failed point is recorded, never stops the sweep
+        message = " ".join(str(err).split()) or type(err).__name__
+        return {"status": "failed", "error": f"{type(err).__name__}: {message}",
+                "seconds": time.perf_counter() - start}
+
+
+def _write_atomic(path: Path, text: str | bytes) -> None:
+    """Write a file by a temporary sibling renamed into place (never half-written)."""
+    from ..outputs.results import atomic_file
+
+    with atomic_file(path) as tmp, open(tmp, "wb" if isinstance(text, bytes) else "w") as f:
+        f.write(text)
+        f.flush()
+        os.fsync(f.fileno())
+
+
+def _submitter(executor: str, jobs: int, scheduler: str | None):
+    """(submit(config) -> future, iterate-as-completed(futures), close) for an executor."""
+    if executor == "local":
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor, as_completed
+
+        from ..util.workers import init_worker, stop_pool
+
+        pool = ProcessPoolExecutor(max_workers=jobs, mp_context=multiprocessing.get_context("spawn"),
+                                   initializer=init_worker)
+
+        def close_pool(graceful: bool = False) -> None:
+            # Every point done: let the workers exit and the pool release its
+            # queues (no leaked semaphores); otherwise end the workers now.
+            if graceful:
+                pool.shutdown(wait=True)
+            else:
+                stop_pool(pool)
+
+        return (lambda config: pool.submit(run_point, config)), as_completed, close_pool
+    from dask.distributed import Client, LocalCluster, as_completed
+
+    if scheduler is not None:
+        client = Client(scheduler, timeout="30s")
+        cluster = None
+    else:
+        cluster = LocalCluster(n_workers=jobs, threads_per_worker=1, processes=True, dashboard_address=None,
+                               host="127.0.0.1")
+        client = Client(cluster)
+
+    def close(graceful: bool = False):
+        client.close()
+        if cluster is not None:
+            cluster.close()
+
+    # pure=False: a point is computed even if an equal task ran before on the cluster.
+    return (lambda config: client.submit(run_point, config, pure=False)), as_completed, close
+
+
+def run_sweep(sweep: Sweep, out: Path, *, executor: str = "local", jobs: int | None = None,
+              scheduler: str | None = None, retry_failed: bool = False, progress: bool = False,
+              on_point=None) -> dict:
+    """Run every point of ``sweep`` that has no file under ``out/points`` yet.
+
+    Parameters
+    ----------
+    sweep : Sweep
+    out : Path
+        The sweep folder (created; reused by later runs of the same sweep).
+    executor : {"local", "dask"}
+        Worker processes here, or dask.distributed (a ``LocalCluster`` of
+        ``jobs`` workers, or the scheduler at ``scheduler``).
+    jobs : int, optional
+        Workers (default: all cores); ignored with ``scheduler``.
+    scheduler : str, optional
+        Address of a running dask.distributed scheduler, e.g.
+        ``tcp://10.0.0.5:8786``.
+    retry_failed : bool
+        Run again the points recorded as failed.
+    progress : bool
+        Progress bar with points done, failed and remaining and the time left.
+    on_point : callable, optional
+        ``on_point(record)`` after every point written.
+
+    Returns
+    -------
+    dict
+        ``total``, ``skipped`` (finished before), ``computed``, ``failed``
+        (of this run) and ``seconds``.
+    """
+    from ..util.workers import default_jobs
+
+    start = time.perf_counter()
+    out = Path(out)
+    points_dir = out / "points"
+    todo, skipped = [], 0
+    for point in sweep.points():
+        key = point_key(point["config"])
+        path = points_dir / f"{key}.json"
+        if path.exists():
+            record = json.loads(path.read_text())
+            if not (retry_failed and record.get("status") == "failed"):
+                skipped += 1
+                continue
+        todo.append((key, point))
+    computed = failed = 0
+    # Connect to the workers first: a scheduler that cannot be reached leaves nothing behind.
+    workers = max(1, min(jobs or default_jobs(), len(todo)))
+    submit, completed, close = _submitter(executor, workers, scheduler) if todo else (None, None, None)
+    try:
+        points_dir.mkdir(parents=True, exist_ok=True)
+        for stale in points_dir.glob(".*.partial-*"):  # left by a process killed while writing
+            stale.unlink(missing_ok=True)
+        _write_atomic(out / "sweep.json", json.dumps(sweep.to_dict(), indent=2, default=str) + "\n")
+    except BaseException:
+        if close is not None:
+            close()
+        raise
+    if todo:
+        from tqdm.auto import tqdm
+
+        bar = tqdm(total=len(todo), disable=not progress, desc="sweep points", unit="point")
+        done = False
+        try:
+            futures = {submit(point["config"]): (key, point) for key, point in todo}
+            for future in completed(list(futures)):
+                key, point = futures[future]
+                result = future.result()
+                record = {"key": key, "axes": point["axes"], "config": point["config"],
+                          "topoedge_version": __version__, **result}
+                _write_atomic(points_dir / f"{key}.json", json.dumps(record, default=str) + "\n")
+                computed += 1
+                failed += result["status"] == "failed"
+                bar.update(1)
+                bar.set_postfix_str(f"done {computed - failed}, failed {failed}, remaining {len(todo) - computed}")
+                if on_point is not None:
+                    on_point(record)
+            done = True
+        finally:
+            bar.close()
+            close(graceful=done)
+    return {"total": skipped + len(todo), "skipped": skipped, "computed": computed, "failed": failed,
+            "seconds": time.perf_counter() - start}
+
+
+def gather(sweep: Sweep, out: Path) -> list[dict]:
+    """The table rows of the sweep's points in sweep order: axes, status, error, quantities.
+
+    A point without a file (not run yet) has status "missing".
+    """
+    rows = []
+    for point in sweep.points():
+        key = point_key(point["config"])
+        path = Path(out) / "points" / f"{key}.json"
+        row = {"key": key, **{a.key: point["axes"][a.key] for a in sweep.axes}}
+        if path.exists():
+            record = json.loads(path.read_text())
+            row["status"] = record["status"]
+            row["error"] = record.get("error") or ""
+            row.update(record.get("quantities") or {name: None for name in QUANTITIES})
+        else:
+            row.update({"status": "missing", "error": "", **{name: None for name in QUANTITIES}})
+        rows.append(row)
+    return rows
+
+
+def _columns(sweep: Sweep) -> list[str]:
+    return ["key", *(a.key for a in sweep.axes), "status", "error", *QUANTITIES]
+
+
+def write_table(sweep: Sweep, rows: list[dict], out: Path) -> None:
+    """``table.csv`` and ``table.h5`` (one column per axis and quantity), each written atomically.
+
+    CSV: a header row, empty cells where a quantity is undefined. HDF5: one
+    dataset per column (numbers as float64 with NaN where undefined,
+    booleans as 1/0/NaN, text as UTF-8 strings), the axes listed in the
+    root attribute ``axes`` and the sweep as JSON in ``sweep_json``.
+    """
+    import h5py
+
+    columns = _columns(sweep)
+    buffer = io.StringIO()
+    writer = csv.writer(buffer)
+    writer.writerow(columns)
+    for row in rows:
+        writer.writerow(["" if row.get(c) is None else row.get(c) for c in columns])
+    _write_atomic(Path(out) / "table.csv", buffer.getvalue())
+    from ..outputs.results import atomic_file
+
+    with atomic_file(Path(out) / "table.h5") as tmp, h5py.File(tmp, "w") as f:
+        f.attrs["topoedge_version"] = __version__
+        f.attrs["axes"] = json.dumps([a.key for a in sweep.axes])
+        f.attrs["sweep_json"] = json.dumps(sweep.to_dict(), default=str)
+        f.attrs["units"] = "energies in t; see QUANTITIES in topoedge.workflows.sweep for each column"
+        for c in columns:
+            values = [row.get(c) for row in rows]
+            kind = QUANTITIES.get(c, ("axis",))[0]
+            numeric = all(v is None or (isinstance(v, (int, float)) and not isinstance(v, str))
+                          for v in values)
+            if kind == "str" or c in ("key", "status", "error") or not numeric:
+                f.create_dataset(c, data=np.array(["" if v is None else str(v) for v in values],
+                                                  dtype=h5py.string_dtype()))
+            else:
+                f.create_dataset(c, data=np.array([np.nan if v is None else float(v) for v in values]))
+
+
+def _numeric(values) -> np.ndarray | None:
+    """Floats of a column (NaN where undefined), or None when it is text."""
+    if any(isinstance(v, str) for v in values if v is not None):
+        return None
+    return np.array([np.nan if v is None else float(v) for v in values])
+
+
+def sweep_figures(sweep: Sweep, rows: list[dict]) -> dict:
+    """Figures of a sweep: name -> matplotlib figure.
+
+    Two grid axes: one map per quantity (``map-<quantity>``), discrete
+    quantities (integers, booleans, spins) in discrete colours with a
+    legend, failed points hatched. One axis (or zipped axes, against the
+    first): line plots of the numeric quantities (``lines``). More axes:
+    none (the table has everything).
+    """
+    import matplotlib.pyplot as plt
+    from matplotlib.colors import BoundaryNorm, ListedColormap
+    from matplotlib.patches import Patch
+
+    title = sweep.title or "sweep"
+    figures = {}
+    ok = [r["status"] == "ok" for r in rows]
+    if len(sweep.axes) == 2 and sweep.mode == "grid":
+        ax_x, ax_y = sweep.axes
+        xs, ys = list(ax_x.values), list(ax_y.values)
+        index = {(r[ax_x.key], r[ax_y.key]): r for r in rows}
+        for q in sweep.quantities:
+            grid = [[index[(x, y)].get(q) if index[(x, y)]["status"] == "ok" else None for x in xs] for y in ys]
+            fig, ax = plt.subplots(figsize=(7.0, 5.2), layout="constrained")
+            flat = [v for line in grid for v in line if v is not None]
+            discrete = QUANTITIES[q][0] in ("int", "bool", "str")
+            xpos, ypos = _cell_edges(xs), _cell_edges(ys)
+            if discrete:
+                levels = sorted({str(v) for v in flat}, key=_level_order)
+                colours = plt.get_cmap("tab10").colors
+                code = np.array([[np.nan if v is None else levels.index(str(v)) for v in line] for line in grid])
+                cmap = ListedColormap([colours[i % 10] for i in range(max(1, len(levels)))])
+                norm = BoundaryNorm(np.arange(len(levels) + 1) - 0.5, cmap.N)
+                ax.pcolormesh(xpos, ypos, np.ma.masked_invalid(code), cmap=cmap, norm=norm)
+                handles = [Patch(color=colours[i % 10], label=level) for i, level in enumerate(levels)]
+            else:
+                values = np.array([[np.nan if v is None else float(v) for v in line] for line in grid])
+                mesh = ax.pcolormesh(xpos, ypos, np.ma.masked_invalid(values), cmap="viridis")
+                fig.colorbar(mesh, ax=ax, label=q)
+                handles = []
+            bad = [(x, y) for x in xs for y in ys if index[(x, y)]["status"] != "ok"]
+            for x, y in bad:
+                i, j = xs.index(x), ys.index(y)
+                ax.add_patch(plt.Rectangle((xpos[i], ypos[j]), xpos[i + 1] - xpos[i], ypos[j + 1] - ypos[j],
+                                           facecolor="0.85", edgecolor="0.4", hatch="xx", lw=0.5))
+            if bad:
+                handles.append(Patch(facecolor="0.85", edgecolor="0.4", hatch="xx", label="failed / missing"))
+            if handles:
+                ax.legend(handles=handles, title=q, fontsize=8, title_fontsize=8, loc="upper left",
+                          bbox_to_anchor=(1.01, 1.0))
+            # Axes of words (or numbers out of order) get one labelled cell per value.
+            if _by_index(xs):
+                ax.set_xticks(range(len(xs)), [str(v) for v in xs])
+            if _by_index(ys):
+                ax.set_yticks(range(len(ys)), [str(v) for v in ys])
+            ax.set_xlabel(ax_x.key)
+            ax.set_ylabel(ax_y.key)
+            ax.set_title(f"{title}\n{q}: {QUANTITIES[q][1]}", fontsize=9)
+            figures[f"map-{q}"] = fig
+    elif len(sweep.axes) == 1 or sweep.mode == "zip":
+        axis = sweep.axes[0]
+        x = _numeric([r[axis.key] for r in rows])
+        if x is None:
+            x = np.arange(len(rows), dtype=float)
+        numeric = [q for q in sweep.quantities if QUANTITIES[q][0] != "str"]
+        text = [q for q in sweep.quantities if QUANTITIES[q][0] == "str"]
+        panels = numeric + text
+        fig, axes = plt.subplots(len(panels), 1, figsize=(7.0, 1.9 * len(panels) + 1.0), sharex=True,
+                                 layout="constrained", squeeze=False)
+        for ax, q in zip(axes[:, 0], panels):
+            values = [r.get(q) if good else None for r, good in zip(rows, ok)]
+            if q in numeric:
+                y = np.array([np.nan if v is None else float(v) for v in values])
+                ax.plot(x, y, "o-", ms=4)
+                if QUANTITIES[q][0] in ("int", "bool"):
+                    ax.yaxis.get_major_locator().set_params(integer=True)
+            else:
+                levels = sorted({str(v) for v in values if v is not None}, key=_level_order)
+                y = np.array([np.nan if v is None else levels.index(str(v)) for v in values])
+                ax.plot(x, y, "o", ms=6)
+                ax.set_yticks(range(len(levels)), levels or [""])
+            fails = [xi for xi, good in zip(x, ok) if not good]
+            for xi in fails:
+                ax.axvline(xi, color="0.6", ls=":", lw=1)
+            ax.set_ylabel(q, fontsize=8)
+        axes[-1, 0].set_xlabel(axis.key)
+        axes[0, 0].set_title(f"{title}" + ("  (dotted: failed or missing points)" if not all(ok) else ""),
+                             fontsize=9)
+        figures["lines"] = fig
+    return figures
+
+
+def _level_order(text: str):
+    """Sort numbers numerically and text after them."""
+    try:
+        return (0, float(text), "")
+    except ValueError:
+        return (1, 0.0, text)
+
+
+def _by_index(values: Sequence) -> bool:
+    """True when an axis is drawn by position (not numbers, a single value, or not increasing)."""
+    x = _numeric(list(values))
+    return x is None or len(x) < 2 or bool(np.any(np.diff(x) <= 0))
+
+
+def _cell_edges(values: Sequence) -> np.ndarray:
+    """Edges of cells centred on the axis values (equal cells when they are not numbers)."""
+    x = _numeric(list(values))
+    if _by_index(values):
+        return np.arange(len(values) + 1, dtype=float) - 0.5
+    mid = (x[1:] + x[:-1]) / 2
+    return np.concatenate([[x[0] - (mid[0] - x[0])], mid, [x[-1] + (x[-1] - mid[-1])]])
