@@ -317,7 +317,7 @@ def _cmd_bench(args) -> int:
             f"--chern-q {args.chern_q}; expected width >= 2, k-points >= 2, window > 0 and chern-q >= 2"
         )
     scenario = load_scenario(args.config, args.overrides)
-    _square_lattice_only(scenario, "bench")
+    _require_support(scenario, "bench")
     report = {}
     if "ribbon" in parts:
         _say(args, f"ribbon benchmark: W = {args.width} sites per spin, {args.k_points} k points "
@@ -440,9 +440,12 @@ def _scan_range(text: str | None, option: str, unit: str) -> tuple[float, float,
     return lo, hi, n
 
 
-def _square_lattice_only(scenario, command: str) -> None:
-    """Refuse what a square-lattice-only command would silently drop."""
-    if scenario.lattice.kind != "square":
+def _require_support(scenario, command: str) -> None:
+    """Refuse what a command would silently drop: a lattice (or a Rashba term) it does not support."""
+    from .models.lattices import lattice
+
+    entry = lattice(scenario.lattice.kind)
+    if command not in entry.supports:
         raise ConfigError(f"lattice.kind: got {scenario.lattice.kind!r}; `topoedge {command}` is built for the "
                           "square lattice only; expected 'square'")
     if scenario.spin.rashba != 0:
@@ -459,7 +462,7 @@ def _cmd_hallbar(args) -> int:
     window = _scan_range(args.energies, "--energies", "t")
     fields = _scan_range(args.fields, "--fields", "tesla")
     scenario = load_scenario(args.config, args.overrides)
-    _square_lattice_only(scenario, "hallbar")
+    _require_support(scenario, "hallbar")
     if fields is not None:
         if scenario.field.b_tesla is None:
             raise ConfigError("hallbar --fields: the scenario has no [field] section; expected a scenario "
@@ -633,7 +636,7 @@ def _cmd_butterfly(args) -> int:
     if args.jobs is not None and args.jobs < 1:
         raise ConfigError(f"butterfly --jobs: got {args.jobs}; expected at least 1 worker process")
     scenario = load_scenario(args.config, args.overrides)
-    _square_lattice_only(scenario, "butterfly")
+    _require_support(scenario, "butterfly")
     if args.out is not None:
         out = args.out
     else:

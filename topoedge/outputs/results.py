@@ -52,6 +52,7 @@ import numpy as np
 from typing import TYPE_CHECKING
 
 from .. import __version__
+from ..models.lattices import lattice
 
 if TYPE_CHECKING:  # the writers only read a RunResult; importing it would load kwant
     from ..workflows.run import RunResult
@@ -398,19 +399,9 @@ def format_summary(summary: dict) -> str:
         f"topoedge {summary['topoedge_version']}: {summary.get('title') or 'scenario'}"
         + (f" ({summary['source']})" if summary.get("source") else ""),
     ]
-    honeycomb = m.get("lattice") in ("honeycomb", "haldane")
-    if m.get("lattice") == "haldane":
-        lines.append(f"  lattice      Haldane model (honeycomb, a_cc = 1, no field): t2 = {m['t2_t']:g} t, "
-                     f"phase {m['t2_phase_rad']:g} rad, sublattice mass M = {m['staggered_t']:g} t")
-    elif m.get("lattice") == "qwz":
-        lines.append(f"  lattice      Qi-Wu-Zhang model (square, no field): mass m = {m['mass_t']:g} t "
-                     "(two orbitals per site)")
-    elif honeycomb:
-        staggered = f", staggered potential {m['staggered_t']:g} t" if m.get("staggered_t") else ""
-        lines.append(f"  lattice      honeycomb (a_cc = 1), flux {m['flux']} flux quanta per hexagon{staggered} "
-                     "(energies in units of t)")
-    else:
-        lines.append(f"  lattice      square, flux {m['flux']} flux quanta per plaquette (energies in units of t)")
+    entry = lattice(m.get("lattice", "square"))
+    honeycomb = entry.length_unit == "a_cc"
+    lines.append(f"  lattice      {entry.describe(m)}")
     if m["magnetic_length_a"] is not None and honeycomb:
         lines.append(
             f"  scales       l_B = {m['magnetic_length_a']:.3f} a_cc, "
@@ -422,7 +413,7 @@ def format_summary(summary: dict) -> str:
             f"hbar*omega_c = {m['cyclotron_energy_t']:.4f} t (effective-mass limit)"
         )
     spin = f"spin 1/2, Zeeman {m['zeeman_t']:g} t" if m["spin"] else "spinless"
-    if m.get("lattice") == "qwz":
+    if entry.orbitals_per_site > 1:
         spin = "spinless (the two orbitals of a site are not spin)"
     if m.get("rashba_t"):
         spin += f", Rashba {m['rashba_t']:g} t (S_z not conserved: total Chern numbers only)"

@@ -15,7 +15,7 @@ from matplotlib import colors
 from matplotlib.lines import Line2D
 from matplotlib.patches import Rectangle
 
-from ..scenario import ZERO_FIELD
+from ..models.lattices import lattice
 from ..solvers.spectrum import RibbonSpectrum
 
 __all__ = [
@@ -359,10 +359,9 @@ def plot_level_diagram(chern, *, ax, fermi_energy: float | None = None,
 def _continuum_levels(result, lo: float, hi: float) -> dict:
     """Continuum Landau levels ``hbar omega_c (n + 1/2) -+ Delta/2`` (t) of a square-lattice run in [lo, hi]."""
     sc = result.scenario
-    phi = abs(float(sc.lattice.flux))
-    if sc.lattice.kind != "square" or phi == 0:
+    hw = lattice(sc.lattice.kind).scales(sc.lattice).get("cyclotron_energy_t")
+    if not hw:       # no effective-mass Landau levels (honeycomb, zero field)
         return {}
-    hw = 4 * np.pi * phi
     bottom = -4.0 + sc.lattice.onsite
     n = np.arange(int(max(0, (hi - bottom) / hw)) + 2)
     base = bottom + hw * (n + 0.5)
@@ -388,20 +387,21 @@ def _title(result) -> str:
         return (f"{sc.title or 'scenario'}\n$B$ = {units.b_tesla:g} T along {'+z' if units.b_tesla > 0 else '-z'}"
                 f"{carriers}\nlattice $a$ = {units.lattice_constant_nm:.3g} nm, flux {sc.lattice.flux} "
                 f"$h/e$ per plaquette ({lattice_b})")
-    if sc.lattice.kind in ZERO_FIELD:
-        return f"{sc.title or 'scenario'}: {'Haldane' if sc.lattice.kind == 'haldane' else 'Qi-Wu-Zhang'} model"
-    cell = "hexagon" if sc.lattice.kind == "honeycomb" else "plaquette"
-    return f"{sc.title or 'scenario'}: flux {sc.lattice.flux} per {cell}"
+    entry = lattice(sc.lattice.kind)
+    if not entry.in_field:
+        return f"{sc.title or 'scenario'}: {entry.title}"
+    return f"{sc.title or 'scenario'}: flux {sc.lattice.flux} per {entry.cell}"
 
 
 def _ribbon_geometry(result) -> tuple[tuple[float, float] | None, str, str]:
     """Colour extent, period and length unit of a run's ribbon for the figures."""
     sc = result.scenario
-    if sc.lattice.kind in ("square", "qwz"):
+    entry = lattice(sc.lattice.kind)
+    if entry.length_unit == "a":
         return None, "a", "sites; 0 = bottom edge"
     pos = result.hamiltonian.position
-    period = "sqrt(3) a_cc" if (sc.ribbon.orientation or "zigzag") == "zigzag" else "3 a_cc"
-    return (float(pos.min()), float(pos.max())), period, "a_cc"
+    period = entry.periods[sc.ribbon.orientation or entry.orientations[0]]
+    return (float(pos.min()), float(pos.max())), period, entry.length_unit
 
 
 def ribbon_figure(result):
@@ -422,8 +422,9 @@ def ribbon_figure(result):
     sm = plt.cm.ScalarMappable(norm=artists["norm"], cmap="coolwarm")
     bar = fig.colorbar(sm, ax=ax, label=rf"$\langle y \rangle$ across the ribbon ({across})")
     lb = d.magnetic_length
-    if lb is None and result.scenario.lattice.kind == "square" and result.scenario.lattice.flux != 0:
-        lb = 1.0 / np.sqrt(2 * np.pi * abs(float(result.scenario.lattice.flux)))   # effective-mass l_B in a
+    entry = lattice(result.scenario.lattice.kind)
+    if lb is None and entry.length_unit == "a":
+        lb = entry.scales(result.scenario.lattice)["magnetic_length_a"]     # effective-mass l_B in a
     if lb:
         twin = bar.ax.secondary_yaxis("left", functions=(lambda y: y / lb, lambda u: u * lb))
         twin.set_ylabel(rf"$\langle y \rangle / l_B$ ($l_B$ = {lb:.3g} {d.length_unit})")

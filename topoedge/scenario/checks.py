@@ -8,9 +8,9 @@ the lattice model from [material] and [field] with :mod:`topoedge.scenario.units
 
 from __future__ import annotations
 
-import math
 from .units import Derived, UnitsError, derive
-from .sections import ORIENTATIONS, ConfigError, Scenario
+from .sections import ConfigError, Scenario
+from ..models.lattices import LATTICES, lattice
 from .schema import fraction_text
 
 __all__ = ["check_combinations", "ribbon_span", "derive_units", "MATERIAL_KEYS"]
@@ -22,7 +22,8 @@ def check_combinations(s: Scenario) -> None:
     edge, width = s.ribbon.edge, s.ribbon.width
     span = ribbon_span(s)
     if edge.width > span / 2:
-        across = f", {span:g} a_cc across" if s.lattice.kind in ("honeycomb", "haldane") else ""
+        unit = lattice(s.lattice.kind).length_unit
+        across = f", {span:g} {unit} across" if unit != "a" else ""
         raise ConfigError(f"ribbon.edge.width: got {edge.width!r}, wider than half the ribbon "
                           f"(ribbon.width = {width}{across}); expected at most {span / 2:g}")
     if edge.profile == "table" and not edge.table:
@@ -56,12 +57,7 @@ def ribbon_span(s: Scenario) -> float:
     chains span ``3 N / 2 - 1``, ``N`` dimer lines ``(N - 1) sqrt(3) / 2``
     (the geometry of `topoedge.models.honeycomb`).
     """
-    width = s.ribbon.width
-    if s.lattice.kind in ("square", "qwz"):
-        return float(width)
-    if (s.ribbon.orientation or "zigzag") == "zigzag":
-        return 1.5 * width - 1.0
-    return (width - 1) * math.sqrt(3.0) / 2
+    return lattice(s.lattice.kind).span(s.ribbon.width, s.ribbon.orientation)
 
 
 def _check_lattice(s: Scenario) -> None:
@@ -75,34 +71,39 @@ def _check_lattice(s: Scenario) -> None:
         if enabled and s.spin.rashba != 0:
             raise ConfigError(f"spin.rashba: got {s.spin.rashba!r} with {what}, which needs S_z conserved "
                               f"(no Rashba term); expected 0 or {key} = false")
-    for key, value, kinds in (("lattice.staggered", lat.staggered, ("honeycomb", "haldane")),
-                              ("lattice.t2", lat.t2, ("haldane",)), ("lattice.t2_phase", lat.t2_phase, ("haldane",)),
-                              ("lattice.mass", lat.mass, ("qwz",))):
-        if value != 0 and lat.kind not in kinds:
+    entry = lattice(lat.kind)
+    for name in ("staggered", "t2", "t2_phase", "mass"):
+        key, value = f"lattice.{name}", getattr(lat, name)
+        kinds = [kind for kind, other in LATTICES.items() if name in other.own_keys]
+        if value != 0 and name not in entry.own_keys:
             raise ConfigError(f"{key}: got {value!r} with lattice.kind = {lat.kind!r}; expected 0 (it belongs "
                               f"to lattice.kind = {' or '.join(map(repr, kinds))})")
-    if s.chern.solver == "landau" and (lat.kind != "square" or s.spin.rashba != 0
+    if s.chern.solver == "landau" and ("landau" not in entry.supports or s.spin.rashba != 0
                                        or (s.field.b_tesla is None and lat.flux.denominator < 3)
                                        or (s.field.b_tesla is None and lat.flux == 0)):
-        why = (f"lattice.kind = {lat.kind!r}" if lat.kind != "square" else
+        why = (f"lattice.kind = {lat.kind!r}" if "landau" not in entry.supports else
                f"spin.rashba = {s.spin.rashba!r} (S_z not conserved)" if s.spin.rashba != 0 else
                f"lattice.flux = {fraction_text(lat.flux)} (fewer than 3 bands per spin)")
         raise ConfigError(f"chern.solver: got 'landau' with {why}; expected 'auto' or 'dense' (the "
                           "Landau-level solver is built for the square lattice with S_z conserved)")
-    allowed = {"honeycomb": ORIENTATIONS, "haldane": ("zigzag",)}.get(lat.kind, ())
+    allowed = entry.orientations
     if s.ribbon.orientation is not None and s.ribbon.orientation not in allowed:
-        where = "on the square lattice" if lat.kind == "square" else f"with lattice.kind = {lat.kind!r}"
-        hint = (" (zigzag and armchair edges need lattice.kind = 'honeycomb')" if lat.kind == "square" else "")
+        plain_lattice = entry.in_field and not allowed       # e.g. the square lattice
+        where = f"on the {entry.title}" if plain_lattice else f"with lattice.kind = {lat.kind!r}"
+        having = [kind for kind, other in LATTICES.items() if s.ribbon.orientation in other.orientations
+                  and other.in_field]
+        hint = ""
+        if plain_lattice and having:
+            every = " and ".join(LATTICES[having[0]].orientations)
+            hint = f" ({every} edges need lattice.kind = {having[0]!r})"
         raise ConfigError(f"ribbon.orientation: got {s.ribbon.orientation!r} {where}; expected no orientation"
                           + "".join(f" or {o!r}" for o in allowed) + hint)
-    if lat.kind == "square":
-        return
-    for enabled, key, what in (
-        (s.field.b_tesla is not None, "field.b_tesla", "[material] and [field]"),
-        (s.interaction.enabled, "interaction.enabled", "[interaction]"),
-        (s.hallbar.enabled, "hallbar.enabled", "the Hall bar"),
+    for enabled, key, what, feature in (
+        (s.field.b_tesla is not None, "field.b_tesla", "[material] and [field]", "physical_units"),
+        (s.interaction.enabled, "interaction.enabled", "[interaction]", "interaction"),
+        (s.hallbar.enabled, "hallbar.enabled", "the Hall bar", "hallbar"),
     ):
-        if enabled:
+        if enabled and feature not in entry.supports:
             raise ConfigError(f"{key}: {what} with lattice.kind = {lat.kind!r}; expected the square lattice "
                               f"({what} is built for the square lattice only)")
 

@@ -19,7 +19,8 @@ from pathlib import Path
 from typing import Any
 from .checks import MATERIAL_KEYS, check_combinations
 from .schema import KEYS, TOML_TYPES, children, convert, join_path, plain, show, unknown_key
-from .sections import SECTIONS, ZERO_FIELD, ConfigError, Scenario
+from ..models.lattices import lattice
+from .sections import SECTIONS, ConfigError, Scenario
 
 __all__ = ["load_scenario", "parse_scenario", "apply_overrides", "shipped", "find_shipped", "DATA_DIR", "SCENARIOS_DIR", "DEFAULT_SCENARIO", "PRESETS_DIR"]
 
@@ -125,7 +126,7 @@ def parse_scenario(data: Mapping[str, Any], *, source: str | None = None) -> Sce
                     or values.get("field.density_cm2") is not None):
                 raise ConfigError(f"{path}: given together with {by}, which sets it; expected only one "
                                   "of them (remove the lattice-unit key)")
-    if values.get("lattice.kind") in ZERO_FIELD:
+    if not lattice(values.get("lattice.kind", "square")).in_field:
         # A zero-field two-band model: no flux and no spin unless asked for (refused).
         kind = values["lattice.kind"]
         if values.get("lattice.flux"):

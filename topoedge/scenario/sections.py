@@ -28,16 +28,19 @@ from fractions import Fraction
 from typing import Any
 
 from ..models.profiles import EDGE_PROFILES as _PROFILE_REGISTRY
+from ..models.lattices import LATTICES as _REGISTRY
+from ..models.lattices import zero_field_kinds
 
 __all__ = ["ConfigError", "Scenario", "LatticeConfig", "SpinConfig", "EdgeConfig", "RibbonConfig", "SpectrumConfig", "FermiConfig", "ChernConfig", "EdgesConfig", "MaterialConfig", "FieldConfig", "HallbarConfig", "BackgroundConfig", "InteractionConfig", "SECTIONS", "EDGE_PROFILES", "SOLVERS", "LATTICES", "ZERO_FIELD", "ORIENTATIONS", "START_STATES", "MIXINGS", "BACKGROUND_PROFILES"]
 
 # The edge profiles are registered where they are defined (one list, no drift).
 EDGE_PROFILES = tuple(_PROFILE_REGISTRY)
 SOLVERS = ("auto", "banded", "dense")
-LATTICES = ("square", "honeycomb", "haldane", "qwz")
+#: Every lattice kind, in the order of the lattice registry (topoedge.models.lattices).
+LATTICES = tuple(_REGISTRY)
 #: Lattice kinds without a magnetic field (spinless two-band Chern insulators).
-ZERO_FIELD = ("haldane", "qwz")
-ORIENTATIONS = ("zigzag", "armchair")
+ZERO_FIELD = zero_field_kinds()
+ORIENTATIONS = tuple(dict.fromkeys(o for entry in _REGISTRY.values() for o in entry.orientations))
 
 
 class ConfigError(ValueError):

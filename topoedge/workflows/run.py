@@ -32,24 +32,21 @@ from dataclasses import dataclass
 import numpy as np
 
 from .. import __version__
-from ..systems.bloch import BlochHamiltonian
-from ..models.square import bulk_builder, model_params, ribbon_builder
-from ..solvers.chern import ChernResult, Gap, GapClosedError, chern_numbers, default_grid, path_bands, subspace_chern
-from ..models.zero_field import haldane_builder, haldane_ribbon_builder, qwz_builder, qwz_ribbon_builder
-from ..models.honeycomb import (dirac_landau_level, honeycomb_bulk_builder, honeycomb_magnetic_length,
-                        honeycomb_params, honeycomb_ribbon_builder)
-from ..scenario import ZERO_FIELD, Scenario, lattice_scenario
-from ..scenario.units import VON_KLITZING, Derived
-from ..solvers.edges import EdgeCount, count_edge_modes
-from ..systems.ribbon import RibbonHamiltonian
+from ..models.lattices import lattice
 from ..models.profiles import edge_potential
+from ..scenario import Scenario, lattice_scenario
+from ..scenario.units import VON_KLITZING, Derived
+from ..solvers.chern import ChernResult, Gap, GapClosedError, chern_numbers, default_grid, path_bands, subspace_chern
+from ..solvers.edges import EdgeCount, count_edge_modes
+from ..solvers.landau import (DEFAULT_K2_POINTS, LandauSolverError, bands_for, landau_chern, landau_path_bands,
+                              landau_states_below, landau_subspace_chern)
 from ..solvers.spectrum import RibbonSpectrum, k_grid, ribbon_spectrum
 from ..solvers.streda import StredaResult, streda_slope
+from ..systems.bloch import BlochHamiltonian
 from ..systems.harper import HarperCell
-from ..solvers.landau import (DEFAULT_K2_POINTS, LandauSolverError, bands_for, landau_chern, landau_path_bands, landau_states_below,
-                     landau_subspace_chern)
-from ..util.progress import as_progress, ticks
+from ..systems.ribbon import RibbonHamiltonian
 from ..util.budget import KWANT_SITE_BYTES, require
+from ..util.progress import as_progress, ticks
 
 __all__ = [
     "RunResult", "VON_KLITZING", "build_bulk", "build_ribbon", "bulk_chern", "bulk_edge_check",
@@ -81,90 +78,43 @@ class RunResult:
     interacting: object | None = None
 
 
-def _rashba(scenario: Scenario) -> bool:
-    return scenario.spin.rashba != 0
-
-
 def _params(scenario: Scenario) -> dict:
-    lat, spin = scenario.lattice, scenario.spin
-    if lat.kind == "qwz":
-        return dict(m=lat.mass)
-    if lat.kind == "haldane":
-        return dict(t1=1.0, t2=lat.t2, phi=lat.t2_phase, M=lat.staggered)
-    if lat.kind == "honeycomb":
-        return honeycomb_params(phi=lat.flux, zeeman=spin.zeeman, onsite=lat.onsite,
-                                staggered=lat.staggered, rashba=spin.rashba)
-    return model_params(phi=lat.flux, zeeman=spin.zeeman, onsite=lat.onsite,
-                        rashba=spin.rashba if _rashba(scenario) else None)
-
-
-def _profile(scenario: Scenario):
-    """The edge profile ``V(d)`` (t) of a scenario, ``d`` from the nearer edge."""
-    from ..models.profiles import EDGE_PROFILES
-
-    edge = scenario.ribbon.edge
-    shape = EDGE_PROFILES[edge.profile]
-    return lambda d: shape(np.asarray(d, dtype=float), width=float(edge.width),
-                           height=float(edge.height), table=edge.table)
+    """The kwant ``params`` of the scenario's lattice (lattice units)."""
+    return lattice(scenario.lattice.kind).params(scenario.lattice, scenario.spin)
 
 
 def scenario_potential(scenario: Scenario) -> np.ndarray:
-    """Edge potential (units of t) of every row of a square-lattice scenario's ribbon.
+    """Edge potential (units of t) of every row of the scenario's ribbon, without building it.
 
-    The other lattices evaluate the profile at every site (:func:`build_ribbon`
-    returns it with the ribbon).
+    For lattices with one site per row (the square lattice); the others
+    evaluate the profile at every site (:func:`build_ribbon` returns it).
     """
+    entry = lattice(scenario.lattice.kind)
+    if entry.sites_per_width != 1 or entry.orbitals_per_site != 1:
+        raise ValueError(f"scenario_potential gives rows of one site; lattice.kind is {entry.kind!r}: "
+                         "use build_ribbon")
     edge = scenario.ribbon.edge
-    if scenario.lattice.kind != "square":
-        raise ValueError(f"scenario_potential gives rows of the square lattice; lattice.kind is "
-                         f"{scenario.lattice.kind!r}: use build_ribbon")
-    return edge_potential(
-        scenario.ribbon.width, edge.profile, ramp=edge.width, height=edge.height, table=edge.table
-    )
+    return edge_potential(scenario.ribbon.width, edge.profile, ramp=edge.width, height=edge.height,
+                          table=edge.table)
 
 
 def build_ribbon(scenario: Scenario) -> tuple[RibbonHamiltonian, np.ndarray]:
     """The kwant ribbon of a scenario, finalized and reduced to its Bloch form.
 
     Returns the ribbon and its edge potential: one value per row on the
-    square lattice, one per site of the cell (sorted across the ribbon) on
-    the honeycomb lattice.
+    square lattice, one per site position across the ribbon on the honeycomb
+    lattice (the lattice registry builds both).
     """
-    spin = scenario.spin.enabled
-    kind = scenario.lattice.kind
-    if kind != "square":
-        profile = _profile(scenario) if scenario.ribbon.edge.profile != "none" else None
-        width = scenario.ribbon.width
-        if kind == "qwz":
-            builder = qwz_ribbon_builder(width, potential=profile)
-        elif kind == "haldane":
-            builder = haldane_ribbon_builder(width, potential=profile)
-        else:
-            builder = honeycomb_ribbon_builder(width, orientation=scenario.ribbon.orientation or "zigzag",
-                                               spin=spin, potential=profile, rashba=_rashba(scenario))
-        ham = RibbonHamiltonian.from_kwant(builder, params=_params(scenario), spin=spin)
-        y = np.unique(ham.position)
-        d = np.minimum(y - y.min(), y.max() - y)
-        potential = profile(d) if profile is not None else np.zeros_like(d)
-        return ham, potential
-    potential = scenario_potential(scenario)
-    builder = ribbon_builder(scenario.ribbon.width, spin=spin, potential=potential, rashba=_rashba(scenario))
-    ham = RibbonHamiltonian.from_kwant(builder, params=_params(scenario), spin=spin)
-    return ham, potential
+    entry = lattice(scenario.lattice.kind)
+    builder, potential = entry.ribbon(scenario.lattice, scenario.spin, scenario.ribbon)
+    ham = RibbonHamiltonian.from_kwant(builder, params=_params(scenario), spin=scenario.spin.enabled)
+    return ham, potential(ham.position)
 
 
 def build_bulk(scenario: Scenario) -> BlochHamiltonian:
-    """The bulk of a scenario: magnetic unit cell, no edge potential."""
-    spin = scenario.spin.enabled
-    if scenario.lattice.kind == "qwz":
-        return BlochHamiltonian.from_kwant(qwz_builder(), params=_params(scenario), spin=False)
-    if scenario.lattice.kind == "haldane":
-        return BlochHamiltonian.from_kwant(haldane_builder(), params=_params(scenario), spin=False)
-    if scenario.lattice.kind == "honeycomb":
-        builder = honeycomb_bulk_builder(scenario.lattice.flux, spin=spin, rashba=_rashba(scenario))
-    else:
-        builder = bulk_builder(scenario.lattice.flux, spin=spin, rashba=_rashba(scenario))
-    return BlochHamiltonian.from_kwant(builder, params=_params(scenario), spin=spin)
+    """The bulk of a scenario: magnetic unit cell (or the zero-field cell), no edge potential."""
+    builder = lattice(scenario.lattice.kind).bulk(scenario.lattice, scenario.spin)
+    return BlochHamiltonian.from_kwant(builder, params=_params(scenario), spin=scenario.spin.enabled)
 
 
 #: Smallest cell (bands per spin) for which ``chern.solver = "auto"`` takes the Landau-level solver.
@@ -182,9 +132,10 @@ def memory_estimate(scenario: Scenario, solver: str) -> list[tuple[str, float, s
     from ..systems.ribbon import SPARSE_FROM
 
     complex_bytes, lat = 16, scenario.lattice
+    entry = lattice(lat.kind)
     spin = scenario.spin.enabled
-    orbitals_per_site = 2 if spin or lat.kind == "qwz" else 1
-    sites = scenario.ribbon.width * (2 if lat.kind in ("honeycomb", "haldane") else 1)
+    orbitals_per_site = entry.orbitals_per_site * (2 if spin else 1)
+    sites = scenario.ribbon.width * entry.sites_per_width
     n = sites * orbitals_per_site
     per_block = n // 2 if spin and scenario.spin.rashba == 0 else n
     parts = [("building the ribbon", sites * KWANT_SITE_BYTES, "expected a smaller ribbon.width")]
@@ -208,9 +159,9 @@ def memory_estimate(scenario: Scenario, solver: str) -> list[tuple[str, float, s
         parts.append((f"the Landau-level bulk solver ({n2} momenta k2, {q} bands per spin)",
                       8 * 1.5 * n2 * q * (p + 2) * complex_bytes + 64 * 2**20,
                       "expected fewer chern.grid[1] momenta along k2"))
-    if solver == "dense" and lat.kind not in ZERO_FIELD:
+    if solver == "dense" and entry.in_field:
         q = lat.flux.denominator
-        cells = q if lat.kind == "square" else 2 * q
+        cells = q * entry.cell_sites_per_q
         m = cells * (2 if spin and scenario.spin.rashba != 0 else 1)
         total = cells * (2 if spin else 1)
         grid = scenario.chern.grid or (max(12, 2 * cells), max(12, 2 * cells))
@@ -231,7 +182,7 @@ def harper_cell(scenario: Scenario) -> HarperCell:
 def _landau_possible(scenario: Scenario) -> str | None:
     """Why the Landau-level solver cannot take the scenario, or None."""
     lat = scenario.lattice
-    if lat.kind != "square":
+    if "landau" not in lattice(lat.kind).supports:
         return f"the Landau-level solver is built for the square lattice, not {lat.kind!r}"
     if scenario.spin.rashba != 0:
         return "the Landau-level solver needs S_z conserved (no Rashba term)"
@@ -460,7 +411,7 @@ def streda_route(scenario: Scenario, ef: float, *, solver: str = "dense"
     """
     from dataclasses import replace
 
-    if scenario.lattice.kind in ZERO_FIELD:
+    if not lattice(scenario.lattice.kind).in_field:
         return None, (f"no Streda route for the zero-field {scenario.lattice.kind} model "
                       "(it has no flux to vary)")
     if _landau_possible(scenario) is None:
@@ -830,17 +781,8 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
     ``physical`` block repeats the results in the units of the scenario.
     """
     lat = scenario.lattice
-    phi = abs(float(lat.flux))
-    honeycomb = lat.kind == "honeycomb"
-    if lat.kind in ZERO_FIELD:
-        scales = {"magnetic_length_a": None, "cyclotron_energy_t": None}
-    elif honeycomb:
-        lb = honeycomb_magnetic_length(phi) if phi else None
-        scales = {"magnetic_length_a": lb, "cyclotron_energy_t": None,
-                  "landau_level_1_t": dirac_landau_level(1, phi) if phi else None}
-    else:
-        scales = {"magnetic_length_a": (1.0 / math.sqrt(2 * math.pi * phi)) if phi else None,
-                  "cyclotron_energy_t": 4 * math.pi * phi}
+    entry = lattice(lat.kind)
+    scales = entry.scales(lat)
     warnings = list(units.warnings) if units is not None else []
     if subspace is not None:
         subspace = {**subspace, "agree": subspace["chern"] == gap.chern}
@@ -870,10 +812,7 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
             "spin": scenario.spin.enabled,
             "zeeman_t": scenario.spin.zeeman,
             "rashba_t": scenario.spin.rashba,
-            **({"staggered_t": lat.staggered, "orientation": scenario.ribbon.orientation or "zigzag"}
-               if lat.kind in ("honeycomb", "haldane") else {}),
-            **({"t2_t": lat.t2, "t2_phase_rad": lat.t2_phase} if lat.kind == "haldane" else {}),
-            **({"mass_t": lat.mass} if lat.kind == "qwz" else {}),
+            **entry.model_keys(lat, scenario.ribbon),
             **scales,
             "ribbon_width_sites": scenario.ribbon.width,
             "edge_profile": scenario.ribbon.edge.profile,
@@ -969,7 +908,7 @@ def physical_summary(scenario: Scenario, units: Derived, *, ef: float, gap: Gap,
 
     def mode_extra(m, edge: str) -> dict:
         drift = None
-        if scenario.lattice.kind == "square" and len(potential) > 1:
+        if len(potential) == scenario.ribbon.width > 1:                # one potential per row
             du = float(np.interp(m.y, y_rows, slope))                 # t per a
             if abs(du) > 1e-12:
                 drift = du * t_joule / (a_nm * 1e-9) / (const.e * units.b_tesla)
