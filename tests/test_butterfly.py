@@ -31,9 +31,8 @@ import numpy as np
 import pytest
 
 from topoedge import cli
-from topoedge.workflows.butterfly import (
-    BUTTERFLY_FILES, butterfly_fluxes, butterfly_grid, compute_butterfly, mirror_spectrum,
-)
+from topoedge.outputs.butterfly import BUTTERFLY_FILES
+from topoedge.workflows.butterfly import butterfly_fluxes, butterfly_grid, compute_butterfly, mirror_spectrum
 
 with warnings.catch_warnings():
     warnings.simplefilter("ignore")

@@ -23,10 +23,11 @@ import pytest
 
 import topoedge
 from topoedge import cli
-from topoedge.plotting import run as plotting
+import topoedge.plotting as plotting
 from topoedge.scenario import DEFAULT_SCENARIO, load_scenario, parse_scenario
-from topoedge.workflows.run import run_scenario
-from topoedge.outputs.results import ResultsExistError, write_run
+from topoedge.workflows import run_scenario
+from topoedge.outputs.results import write_run
+from topoedge.util.atomic import ResultsExistError
 
 CONFIGS = sorted((Path(__file__).resolve().parent.parent / "topoedge" / "data" / "scenarios").glob("*.toml"))
 
@@ -528,7 +529,8 @@ def test_cli_failing_figure_leaves_nothing(tmp_path, tiny_config, monkeypatch, p
     def broken_plot(*args, **kwargs):
         raise RuntimeError("plotting failed")
 
-    monkeypatch.setattr(plotting, plot, broken_plot)
+    module = {"plot_ribbon_spectrum": "ribbon", "plot_bulk_bands": "bulk"}[plot]
+    monkeypatch.setattr(f"topoedge.plotting.{module}.{plot}", broken_plot)
     before = listing(tmp_path)
     with pytest.raises(RuntimeError, match="plotting failed"):
         cli.main(["run", str(tiny_config), "--out", str(tmp_path / "out"), "--quiet"])
@@ -539,7 +541,7 @@ def test_cli_interrupt_while_writing_leaves_nothing(tmp_path, tiny_config, monke
     def interrupted_plot(*args, **kwargs):
         raise KeyboardInterrupt
 
-    monkeypatch.setattr(plotting, "plot_ribbon_spectrum", interrupted_plot)
+    monkeypatch.setattr("topoedge.plotting.ribbon.plot_ribbon_spectrum", interrupted_plot)
     before = listing(tmp_path)
     try:
         status = cli.main(["run", str(tiny_config), "--out", str(tmp_path / "out"), "--quiet"])

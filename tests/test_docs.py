@@ -229,7 +229,7 @@ def tiny_run(tmp_path_factory):
     """The tiny scenario, computed and written (without figures)."""
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        from topoedge.workflows.run import run_scenario
+        from topoedge.workflows import run_scenario
         from topoedge.outputs.results import write_run
     result = run_scenario(config.parse_scenario(TINY))
     out = write_run(tmp_path_factory.mktemp("docs") / "run", result, {})

@@ -22,7 +22,7 @@ import pytest
 import scipy.constants as const
 
 from topoedge.scenario import lattice_scenario, parse_scenario
-from topoedge.workflows.run import build_ribbon, run_scenario
+from topoedge.workflows import build_ribbon, run_scenario
 from topoedge.solvers.spectrum import ribbon_spectrum
 
 R_K = const.h / const.e**2

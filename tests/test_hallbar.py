@@ -14,10 +14,9 @@ with warnings.catch_warnings():
 from topoedge.systems.bloch import BlochHamiltonian
 from topoedge.models.square import bulk_builder, model_params
 from topoedge.solvers.chern import chern_numbers
-from topoedge.solvers.transport import (
-    disorder_average, hall_resistances, hallbar_builder, hallbar_params,
-)
-from topoedge.workflows.run import VON_KLITZING
+from topoedge.models.hallbar import hallbar_builder, hallbar_params
+from topoedge.scenario.units import VON_KLITZING
+from topoedge.solvers.transport import disorder_average, hall_resistances
 from topoedge.models.profiles import EDGE_PROFILES
 
 PHI = Fraction(1, 10)           # magnetic length sqrt(1 / (2 pi phi)) = 1.26 a
@@ -214,7 +213,7 @@ def test_four_routes_agree_through_the_pipeline(flux, gap, expected, size):
     # same integer (TKNN, PRL 49, 405 (1982); Buttiker, PRB 38, 9375 (1988));
     # the Hall bar to 1e-6 relative (R_K = h/e^2, CODATA via scipy.constants).
     from topoedge.scenario import parse_scenario
-    from topoedge.workflows.run import run_scenario
+    from topoedge.workflows import run_scenario
 
     scenario = parse_scenario({
         "lattice": {"flux": flux}, "spin": {"enabled": False}, "ribbon": {"width": 80},
@@ -313,7 +312,7 @@ def test_disorder_average_keeps_per_spin_values():
 
 def test_run_reports_per_spin_hall_bar_values():
     from topoedge.scenario import parse_scenario
-    from topoedge.workflows.run import run_scenario
+    from topoedge.workflows import run_scenario
 
     scenario = parse_scenario({
         "lattice": {"flux": "1/10"}, "spin": {"enabled": True, "zeeman": 0.1}, "ribbon": {"width": 60},
@@ -353,7 +352,7 @@ def test_field_scan_follows_the_landau_levels_through_e_f(tmp_path):
     # R_xy = -1/sigma_xy = +h/(nu e^2) (Drude/Hall sign for negative carriers,
     # common practice). Hall bar and bulk Chern sum agree at every field.
     from topoedge.scenario import load_scenario
-    from topoedge.workflows.run import hallbar_field_scan
+    from topoedge.workflows import hallbar_field_scan
 
     scan = hallbar_field_scan(load_scenario(_field_scenario(tmp_path)), [2.0, 3.0, 8.0], jobs=1)
     assert scan["fermi_mev"] == pytest.approx(10.0, rel=1e-9)

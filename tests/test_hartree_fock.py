@@ -7,9 +7,8 @@ import pytest
 
 from topoedge.models.square import model_params, ribbon_builder
 from topoedge.systems.ribbon import RibbonHamiltonian
-from topoedge.solvers.hartree_fock import (
-    HartreeFockRibbon, Interaction, background_density, line_kernel, pair_kernel,
-)
+from topoedge.solvers.coulomb import Interaction, background_density, line_kernel, pair_kernel
+from topoedge.solvers.hartree_fock import HartreeFockRibbon
 
 #: On-site value of 1/r averaged over a unit square around the site,
 #: 4 ln(1 + sqrt 2) (elementary integral, derived for this project; the
@@ -362,7 +361,7 @@ def test_hartree_fock_figure_draws_the_profiles_of_the_result():
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
 
-    from topoedge.plotting.run import hartree_fock_figure
+    from topoedge.plotting import hartree_fock_figure
 
     hf, phi = _nu_one(width=40)
     result = hf.solve("polarised")

@@ -19,7 +19,7 @@ from topoedge.models.honeycomb import (
     HEXAGON_AREA, dirac_landau_level, honeycomb_bulk_builder, honeycomb_params,
     honeycomb_ribbon_builder,
 )
-from topoedge.workflows.run import run_scenario
+from topoedge.workflows import run_scenario
 from topoedge.solvers.spectrum import ribbon_spectrum
 
 

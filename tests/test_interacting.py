@@ -187,7 +187,9 @@ def test_results_folder_of_a_self_consistent_run(tmp_path, nu1_run):
 
     from topoedge.outputs.results import read_restart, write_run
 
-    figures = cli._interacting_figures(nu1_run)
+    from topoedge.cli.run import interacting_figures
+
+    figures = interacting_figures(nu1_run)
 
     def saver(make):
         def save(path):

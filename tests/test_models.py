@@ -75,7 +75,7 @@ def test_haldane_builder_is_the_published_hamiltonian():
     g = _reciprocal(b[:2])
     rng = np.random.default_rng(5)
     for phi, mass in ((np.pi / 2, 0.3), (0.7, -0.2)):
-        params = dict(t1=1.0, t2=0.1, phi=phi, M=mass)
+        params = dict(t1=1.0, t2=0.1, t2_phase=phi, M=mass)
         bloch = BlochHamiltonian.from_kwant(haldane_builder(), params=params)
         for k1, k2 in rng.uniform(0, 2 * np.pi, (10, 2)):
             k = -(k1 * g[0] + k2 * g[1]) / (2 * np.pi)
@@ -94,10 +94,10 @@ def test_haldane_chern_number_inside_and_outside_the_boundary(phi):
     boundary = 3 * np.sqrt(3) * abs(t2 * np.sin(phi))
     sign = -int(np.sign(np.sin(phi)))
     for mass in (0.0, 0.5 * boundary, -0.5 * boundary, boundary - 0.06, -(boundary - 0.06)):
-        result = builder_chern(haldane_builder(), params=dict(t1=1.0, t2=t2, phi=phi, M=mass), grid=(24, 24))
+        result = builder_chern(haldane_builder(), params=dict(t1=1.0, t2=t2, t2_phase=phi, M=mass), grid=(24, 24))
         assert result.gap_above(1).chern == sign, mass
     for mass in (boundary + 0.06, -(boundary + 0.06), boundary + 0.3, -(boundary + 0.3)):
-        result = builder_chern(haldane_builder(), params=dict(t1=1.0, t2=t2, phi=phi, M=mass), grid=(24, 24))
+        result = builder_chern(haldane_builder(), params=dict(t1=1.0, t2=t2, t2_phase=phi, M=mass), grid=(24, 24))
         assert result.gap_above(1).chern == 0, mass
 
 
@@ -111,7 +111,7 @@ def test_user_builder_path_equals_the_built_in_lattice():
     # ../shared/REFERENCES.md section 1).
     from topoedge.models.square import bulk_builder, model_params
     from topoedge.scenario import parse_scenario
-    from topoedge.workflows.run import bulk_chern
+    from topoedge.workflows import bulk_chern
 
     phi = Fraction(1, 5)
     user = builder_chern(bulk_builder(phi, spin=False), params=model_params(phi=phi, zeeman=0.0))
@@ -144,9 +144,9 @@ def _ribbon(template, period, width):
 
 @pytest.mark.parametrize("model, params, period", [
     ("qwz", dict(m=1.0), (1, 0)), ("qwz", dict(m=-1.0), (1, 0)), ("qwz", dict(m=3.0), (1, 0)),
-    ("haldane", dict(t1=1.0, t2=0.1, phi=np.pi / 2, M=0.0), "b1"),
-    ("haldane", dict(t1=1.0, t2=0.1, phi=-np.pi / 2, M=0.2), "b1"),
-    ("haldane", dict(t1=1.0, t2=0.1, phi=np.pi / 2, M=0.8), "b1"),
+    ("haldane", dict(t1=1.0, t2=0.1, t2_phase=np.pi / 2, M=0.0), "b1"),
+    ("haldane", dict(t1=1.0, t2=0.1, t2_phase=-np.pi / 2, M=0.2), "b1"),
+    ("haldane", dict(t1=1.0, t2=0.1, t2_phase=np.pi / 2, M=0.8), "b1"),
 ], ids=["qwz m=1", "qwz m=-1", "qwz m=3", "haldane", "haldane -phi", "haldane trivial"])
 def test_user_ribbon_edges_follow_the_bulk_chern_number(model, params, period):
     # Bulk-edge correspondence (Hatsugai, PRL 71, 3697 (1993)) for a user's
@@ -175,7 +175,7 @@ def test_user_ribbon_path_equals_the_built_in_ribbon():
     from topoedge.models.square import model_params, ribbon_builder
     from topoedge.scenario import parse_scenario
     from topoedge.solvers.edges import builder_edge_modes
-    from topoedge.workflows.run import run_scenario, scenario_potential
+    from topoedge.workflows import run_scenario, scenario_potential
 
     scenario = parse_scenario({"lattice": {"flux": "1/10"}, "spin": {"zeeman": 0.05},
                                "ribbon": {"width": 40, "edge": {"profile": "linear", "width": 6.0, "height": 1.0}},
@@ -199,7 +199,7 @@ def test_finite_size_gap_at_the_fermi_energy_is_reported():
     from topoedge.solvers.edges import count_edge_modes
     from topoedge.systems.ribbon import RibbonHamiltonian
 
-    params = dict(t1=1.0, t2=0.1, phi=np.pi / 2, M=0.0)
+    params = dict(t1=1.0, t2=0.1, t2_phase=np.pi / 2, M=0.0)
     ham = RibbonHamiltonian.from_kwant(_ribbon(haldane_builder(), tuple(honeycomb_vectors()[1][0]), 30),
                                        params=params)
     edges = count_edge_modes(ham, 0.0)
@@ -225,7 +225,7 @@ def test_zero_field_presets_run_from_a_scenario(lattice, chern):
     # phi| = 0.52, sign with phi, 0 outside) and one edge mode per unit of C
     # on each edge (bulk-edge correspondence, Hatsugai, PRL 71, 3697 (1993)).
     from topoedge.scenario import parse_scenario
-    from topoedge.workflows.run import run_scenario
+    from topoedge.workflows import run_scenario
 
     s = parse_scenario({"lattice": lattice, "ribbon": {"width": 30}, "spectrum": {"k_points": 32},
                         "fermi": {"energy": 0.1}})
@@ -243,7 +243,7 @@ def test_zero_field_preset_with_a_smooth_edge_keeps_its_net_chirality():
     # An edge ramp of 1.5 t over 6 a_cc on the Haldane ribbon bends the edge
     # bands; whatever crosses E_F, the net chirality stays C = -1.
     from topoedge.scenario import parse_scenario
-    from topoedge.workflows.run import run_scenario
+    from topoedge.workflows import run_scenario
 
     s = parse_scenario({"lattice": {"kind": "haldane", "t2": 0.1, "t2_phase": np.pi / 2},
                         "ribbon": {"width": 40, "edge": {"profile": "linear", "width": 6.0, "height": 1.5}},
@@ -278,7 +278,7 @@ def test_ribbon_edge_potential_keeps_the_model_on_site_terms():
     from topoedge.systems.ribbon import RibbonHamiltonian
     from topoedge.models.zero_field import haldane_ribbon_builder, qwz_ribbon_builder
 
-    for make, params in ((haldane_ribbon_builder, dict(t1=1.0, t2=0.1, phi=np.pi / 2, M=0.2)),
+    for make, params in ((haldane_ribbon_builder, dict(t1=1.0, t2=0.1, t2_phase=np.pi / 2, M=0.2)),
                          (qwz_ribbon_builder, dict(m=1.3))):
         plain = RibbonHamiltonian.from_kwant(make(10), params=params, spin=False)
         zero = RibbonHamiltonian.from_kwant(make(10, potential=lambda d: 0 * d), params=params, spin=False)

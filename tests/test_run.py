@@ -30,10 +30,10 @@ import numpy as np
 import pytest
 import scipy.constants as const
 
-from topoedge.workflows import run as pipeline
+import topoedge.workflows as pipeline
 from topoedge.solvers.chern import GapClosedError
 from topoedge.scenario import parse_scenario
-from topoedge.workflows.run import run_scenario
+from topoedge.workflows import run_scenario
 
 # ---------------------------------------------------------------- helpers
 
@@ -435,7 +435,7 @@ def no_ribbon(monkeypatch):
     def refuse(*args, **kwargs):
         raise AssertionError("the ribbon was built although E_F is not in an open gap")
 
-    monkeypatch.setattr(pipeline, "build_ribbon", refuse)
+    monkeypatch.setattr("topoedge.workflows.run.build_ribbon", refuse)
 
 
 def test_fermi_energy_in_a_band_is_refused(no_ribbon):

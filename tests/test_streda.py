@@ -76,7 +76,7 @@ def test_routes_agree_through_the_pipeline(flux, gap, expected):
     # Chern sum, bottom-edge chirality and Streda slope: three routes sharing
     # no code beyond the model give the TKNN integer (PRL 49, 405; Streda 1982).
     from topoedge.scenario import parse_scenario
-    from topoedge.workflows.run import run_scenario
+    from topoedge.workflows import run_scenario
 
     q = Fraction(flux).denominator
     scenario = parse_scenario({
@@ -101,7 +101,7 @@ def test_streda_follows_the_gap_through_a_zeeman_level_crossing(zeeman):
     # the Chern sum 2 of the gap (common practice: one per filled spin level)
     # or no slope at all.
     from topoedge.scenario import parse_scenario
-    from topoedge.workflows.run import bulk_chern, fermi_level, streda_route
+    from topoedge.workflows import bulk_chern, fermi_level, streda_route
 
     s = parse_scenario({"lattice": {"flux": "1/40"}, "spin": {"zeeman": zeeman},
                         "chern": {"grid": [24, 24], "refine": False}, "fermi": {"gap": 2}})

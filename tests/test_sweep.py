@@ -15,9 +15,9 @@ import numpy as np
 import pytest
 
 from test_cli import to_toml  # the tests' TOML writer (tests/ is on sys.path under pytest)
-from topoedge.workflows.sweep import (
-    QUANTITIES, SweepError, gather, load_sweep, parse_sweep, point_key, run_sweep, sweep_figures, write_table,
-)
+from topoedge.outputs.tables import write_table
+from topoedge.plotting.sweep import sweep_figures
+from topoedge.workflows.sweep import QUANTITIES, SweepError, gather, load_sweep, parse_sweep, point_key, run_sweep
 
 ROOT = Path(__file__).resolve().parent.parent
 
@@ -147,7 +147,7 @@ def local_run(tmp_path_factory):
 
 def test_sweep_points_are_the_runs_of_their_scenarios(local_run):
     from topoedge.scenario import parse_scenario
-    from topoedge.workflows.run import run_scenario
+    from topoedge.workflows import run_scenario
 
     sweep, out, stats, rows = local_run
     assert stats == {**stats, "total": 9, "skipped": 0, "computed": 9, "failed": 0}

@@ -80,7 +80,7 @@ def test_density_puts_fermi_energy_above_whole_landau_levels_when_p_exceeds_one(
     # (Hofstadter, Phys. Rev. B 14, 2239 (1976)), so filling 2 is the gap above
     # 4 bands, where the Chern sum is -2 (TKNN: 4 = 135 s - 2 t has t = -2,
     # s = 0; Phys. Rev. Lett. 49, 405 (1982)).
-    from topoedge.workflows.run import bulk_chern, fermi_level
+    from topoedge.workflows import bulk_chern, fermi_level
 
     s = parse_scenario({**GAAS, "chern": {"refine": False}})
     lattice, d = lattice_scenario(s)

@@ -1,22 +1,73 @@
 """topoedge: bulk topology and edge modes of lattice quantum-Hall samples.
 
-Stages, each in its own module and each using only the ones before it:
+The package is organised by stages; each imports only from its own stage or
+the ones below it (see DEVELOPERS.md):
 
-0. ``profiles``, ``units``, ``progress``, ``budget`` -- edge-potential shapes,
-   physical units, progress lines and memory estimates (leaves).
-1. ``config``      -- TOML scenarios validated into frozen dataclasses.
-2. ``builders``    -- kwant ``Builder`` objects (ribbon, bulk) from plain
-   arguments; physical parameters go in kwant's ``params``.
-3. ``hamiltonian``, ``bloch``, ``harper`` -- numerical objects: the ribbon
-   Bloch Hamiltonian, the Fourier components of the bulk, and the
-   square-lattice magnetic cell as a ring-shaped tridiagonal matrix.
-4. ``spectrum``, ``chern``, ``landau``, ``edges`` -- solvers: the ribbon
-   spectrum, bulk Chern numbers by the link-variable method (every band, or
-   only the lowest Landau levels), edge modes at E_F.
-5. ``pipeline``    -- a scenario through stages 2-4, the bulk-edge check and a
-   JSON-able summary.
-6. ``results``, ``plotting`` -- files, figures and summaries.
-7. ``cli`` (with ``bench`` and ``butterfly``) -- the ``topoedge`` command line.
+0. :mod:`topoedge.util` -- threads, worker processes, progress, memory estimates, atomic files;
+1. :mod:`topoedge.models` -- kwant builders of the lattices, edge profiles, the Hall bar,
+   and the lattice registry;
+2. :mod:`topoedge.scenario` -- TOML scenarios validated once, physical units, resolution
+   to lattice units;
+3. :mod:`topoedge.systems` -- numerical objects: ribbon and Bloch Hamiltonians, the
+   magnetic cell as a ring;
+4. :mod:`topoedge.solvers` -- spectrum, Chern numbers (dense and Landau-level), edge
+   modes, Streda, transport, Hartree-Fock;
+5. :mod:`topoedge.workflows` -- a scenario through the solvers: run, Hall-bar scans,
+   interacting runs, the flux-energy spectrum, sweeps, benchmarks;
+6. :mod:`topoedge.outputs`, :mod:`topoedge.plotting` -- files, reports, figures;
+7. :mod:`topoedge.cli` -- the ``topoedge`` command.
+
+The names below are the curated public entry points; they are imported on
+first use, so ``import topoedge`` itself stays light (no kwant).
 """
 
+from __future__ import annotations
+
+import importlib
+
 __version__ = "0.2.0"
+
+#: Public name -> the module defining it.
+_PUBLIC = {
+    # scenarios
+    "Scenario": "scenario", "ConfigError": "scenario", "load_scenario": "scenario",
+    "parse_scenario": "scenario", "lattice_scenario": "scenario", "key_docs": "scenario",
+    # models
+    "LATTICES": "models.lattices", "ribbon_builder": "models.square", "bulk_builder": "models.square",
+    "model_params": "models.square", "honeycomb_ribbon_builder": "models.honeycomb",
+    "honeycomb_bulk_builder": "models.honeycomb", "honeycomb_params": "models.honeycomb",
+    "qwz_builder": "models.zero_field", "haldane_builder": "models.zero_field",
+    "qwz_ribbon_builder": "models.zero_field", "haldane_ribbon_builder": "models.zero_field",
+    "edge_potential": "models.profiles", "EDGE_PROFILES": "models.profiles",
+    "hallbar_builder": "models.hallbar",
+    # physical units
+    "derive": "scenario.units", "VON_KLITZING": "scenario.units",
+    # numerical systems
+    "RibbonHamiltonian": "systems.ribbon", "BlochHamiltonian": "systems.bloch", "HarperCell": "systems.harper",
+    # solvers
+    "ribbon_spectrum": "solvers.spectrum", "RibbonSpectrum": "solvers.spectrum", "k_grid": "solvers.spectrum",
+    "chern_numbers": "solvers.chern", "builder_chern": "solvers.chern", "subspace_chern": "solvers.chern",
+    "ChernResult": "solvers.chern", "GapClosedError": "solvers.chern",
+    "landau_chern": "solvers.landau", "count_edge_modes": "solvers.edges", "find_crossings": "solvers.edges",
+    "builder_edge_modes": "solvers.edges", "EdgeCount": "solvers.edges", "streda_slope": "solvers.streda",
+    "hall_resistances": "solvers.transport", "disorder_average": "solvers.transport",
+    "HartreeFockRibbon": "solvers.hartree_fock",
+    # workflows
+    "run_scenario": "workflows", "RunResult": "workflows", "bulk_chern": "workflows",
+    "run_interacting": "workflows.interacting", "compute_butterfly": "workflows.butterfly",
+    "load_sweep": "workflows.sweep", "run_sweep": "workflows.sweep",
+}
+
+__all__ = ["__version__", *_PUBLIC]
+
+
+def __getattr__(name: str):
+    if name in _PUBLIC:
+        value = getattr(importlib.import_module(f".{_PUBLIC[name]}", __name__), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'topoedge' has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(set(globals()) | set(_PUBLIC))

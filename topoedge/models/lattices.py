@@ -237,7 +237,7 @@ LATTICES: dict[str, Lattice] = {entry.kind: entry for entry in (
         kind="haldane", title="Haldane model", length_unit="a_cc", cell="", in_field=False,
         orbitals_per_site=1, sites_per_width=2, cell_sites_per_q=2, orientations=("zigzag",),
         own_keys=("staggered", "t2", "t2_phase"), supports=frozenset(),
-        params=lambda lattice, spin: dict(t1=1.0, t2=lattice.t2, phi=lattice.t2_phase, M=lattice.staggered),
+        params=lambda lattice, spin: dict(t1=1.0, t2=lattice.t2, t2_phase=lattice.t2_phase, M=lattice.staggered),
         bulk=_haldane_bulk, ribbon=_haldane_ribbon,
         span=_honeycomb_span, scales=_no_scales,
         model_keys=lambda lattice, ribbon: {**_hexagonal_keys(lattice, ribbon), "t2_t": lattice.t2,

@@ -12,7 +12,7 @@ as for a user's own builder.
     H(k) = sin kx sigma_x + sin ky sigma_y + (m + cos kx + cos ky) sigma_z
 
 ``haldane_builder`` (honeycomb lattice, sublattices A and B; params ``t1``,
-``t2``, ``phi``, ``M``)::
+``t2``, ``t2_phase`` = phi, ``M``; ``phi`` is not a flux here)::
 
     H(k) = 2 t2 cos(phi) sum_i cos(k.b_i)
            + t1 sum_i [cos(k.a_i) sigma_x + sin(k.a_i) sigma_y]
@@ -87,7 +87,7 @@ def honeycomb_vectors() -> tuple[np.ndarray, np.ndarray]:
 def haldane_builder() -> kwant.Builder:
     """Haldane model on the honeycomb lattice (nearest-neighbour distance 1).
 
-    Params ``t1`` (nearest-neighbour hopping), ``t2`` and ``phi`` (the
+    Params ``t1`` (nearest-neighbour hopping), ``t2`` and ``t2_phase`` (phi of the
     complex next-nearest hopping ``t2 exp(i phi)``), ``M`` (staggered mass):
     the Bloch Hamiltonian of the module notes, up to the choice of unit cell.
     Chern number of the lower band +-1 for ``|M| < 3 sqrt(3) |t2 sin(phi)|``,
@@ -116,11 +116,11 @@ def haldane_builder() -> kwant.Builder:
         tag = np.linalg.solve(np.array([b[0], b[1]]).T, vec - a[0])
         syst[kwant.builder.HoppingKind(tuple(int(round(x)) for x in tag), sub_b, sub_a)] = nearest
 
-    def forward(site1, site2, t2, phi):  # <r + b_i| H |r> on A
-        return t2 * cmath.exp(1j * phi)
+    def forward(site1, site2, t2, t2_phase):  # <r + b_i| H |r> on A
+        return t2 * cmath.exp(1j * t2_phase)
 
-    def backward(site1, site2, t2, phi):  # <r + b_i| H |r> on B
-        return t2 * cmath.exp(-1j * phi)
+    def backward(site1, site2, t2, t2_phase):  # <r + b_i| H |r> on B
+        return t2 * cmath.exp(-1j * t2_phase)
 
     for vec in b:
         tag = tuple(int(round(x)) for x in np.linalg.solve(np.array([b[0], b[1]]).T, vec))
@@ -172,7 +172,7 @@ def qwz_ribbon_builder(width: int, *, potential=None) -> kwant.Builder:
 
 
 def haldane_ribbon_builder(width: int, *, potential=None) -> kwant.Builder:
-    """Haldane ribbon with zigzag edges, ``width`` zigzag chains, params ``t1``, ``t2``, ``phi``, ``M``.
+    """Haldane ribbon with zigzag edges, ``width`` zigzag chains, params ``t1``, ``t2``, ``t2_phase``, ``M``.
 
     The period is ``-b_1 = (sqrt 3, 0)``, so positions across the ribbon are
     ``y`` as for every other ribbon of the project. The chains hold B at ``y = 3 j / 2 + 1`` and A at ``y = 3 j / 2 + 3 / 2``

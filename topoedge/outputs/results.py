@@ -38,11 +38,7 @@ root attributes         ``topoedge_version``, ``scenario_json`` (the resolved
 
 from __future__ import annotations
 
-import contextlib
 import json
-import os
-import shutil
-import tempfile
 from collections.abc import Callable
 from pathlib import Path
 
@@ -53,28 +49,17 @@ from typing import TYPE_CHECKING
 
 from .. import __version__
 from ..models.lattices import lattice
+from ..util.atomic import atomic_file, write_folder, write_json
 
 if TYPE_CHECKING:  # the writers only read a RunResult; importing it would load kwant
-    from ..workflows.run import RunResult
+    from ..workflows import RunResult
 
-__all__ = [
-    "ResultsExistError", "RestartFileError", "check_destination", "read_restart", "write_restart",
-    "write_hartree_fock_h5", "atomic_file", "write_folder", "write_json", "write_run", "format_summary",
-]
+__all__ = ["RestartFileError", "read_restart", "write_restart", "write_hartree_fock_h5", "write_run",
+           "format_summary"]
 
 
-class ResultsExistError(FileExistsError):
-    """The results folder exists and overwriting was not requested."""
 
 
-def check_destination(out: Path, *, force: bool) -> None:
-    """Refuse an existing results folder unless ``force``; call before computing."""
-    if out.exists() and not force:
-        raise ResultsExistError(
-            f"results folder '{out}' already exists; choose another --out or pass --force to replace it"
-        )
-    if out.exists() and not out.is_dir():
-        raise ResultsExistError(f"'{out}' exists and is not a folder; choose another --out")
 
 
 def _flatten(prefix: str, data: dict) -> dict:
@@ -229,26 +214,6 @@ class RestartFileError(ValueError):
     """A restart file that cannot be used; ``str(err)`` is one line."""
 
 
-@contextlib.contextmanager
-def atomic_file(path: Path):
-    """Yield a temporary sibling of ``path`` to write; rename it into place on success.
-
-    The file appears under its name complete or not at all: on any error
-    (or Ctrl-C) the temporary file is removed. It gets the permissions of a
-    plain new file (``mkstemp`` would leave it 0600).
-    """
-    path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.partial-", dir=path.parent)
-    os.close(fd)
-    try:
-        yield Path(tmp)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
 
 
 def write_restart(path: Path, states: dict, model: dict) -> None:
@@ -301,60 +266,8 @@ def read_restart(path: Path) -> tuple[dict, dict]:
     return states, model
 
 
-def write_folder(out: Path, files: dict[str, Callable[[Path], None]], *, force: bool = False) -> Path:
-    """Write a results folder atomically.
-
-    Every function of ``files`` writes its file into a hidden temporary
-    sibling folder; only when all have succeeded is the folder renamed to
-    ``out`` (replacing an existing one only with ``force``, and putting it
-    back if the rename fails). On any error nothing is left behind.
-
-    Parameters
-    ----------
-    out : Path
-        Final folder name.
-    files : dict
-        File name -> function writing that file to the path it is given.
-    force : bool
-        Replace an existing folder.
-
-    Returns
-    -------
-    Path
-        ``out``.
-    """
-    out = Path(out)
-    check_destination(out, force=force)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
-    try:
-        # mkdtemp creates the folder 0700; give it the permissions of a plain mkdir.
-        umask = os.umask(0)
-        os.umask(umask)
-        tmp.chmod(0o777 & ~umask)
-        for name, write in files.items():
-            write(tmp / name)
-        if out.exists():
-            old = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
-            os.replace(out, old / out.name)
-            try:
-                os.replace(tmp, out)
-            except BaseException:
-                os.replace(old / out.name, out)  # put the earlier results back
-                old.rmdir()
-                raise
-            shutil.rmtree(old, ignore_errors=True)
-        else:
-            os.replace(tmp, out)
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise
-    return out
 
 
-def write_json(summary: dict) -> Callable[[Path], None]:
-    """A file writer for :func:`write_folder` that stores ``summary`` as JSON."""
-    return lambda path: path.write_text(json.dumps(summary, indent=2, sort_keys=False) + "\n")
 
 
 def write_run(

@@ -58,7 +58,16 @@ __all__ = [
 
 
 class GapClosedError(ValueError):
-    """A requested gap is closed, or an energy lies inside a bulk band."""
+    """A requested gap is closed, or an energy lies inside a bulk band.
+
+    The message is in the solver's terms (bands, gaps, energies); ``gap`` is
+    the number of bands below the gap asked for (None for an energy). The
+    scenario layer adds the configuration key it came from.
+    """
+
+    def __init__(self, message: str, *, gap: int | None = None):
+        super().__init__(message)
+        self.gap = gap
 
 
 @dataclass(frozen=True)
@@ -168,10 +177,10 @@ class ChernResult:
         """
         n = self.total_bands or len(self.bands)
         if not 1 <= r < n:
-            raise GapClosedError(f"fermi.gap = {r}: expected 1 <= gap < {n} (the number of bulk bands)")
+            raise GapClosedError(f"expected 1 <= gap < {n} (the number of bulk bands)", gap=r)
         if r > len(self.bands):
-            raise GapClosedError(f"fermi.gap = {r}: only the lowest {len(self.bands)} bands were computed; "
-                                 "compute more bands")
+            raise GapClosedError(f"only the lowest {len(self.bands)} bands were computed; "
+                                 "compute more bands", gap=r)
         for gap in self.gaps:
             if gap.below == r:
                 return gap
@@ -180,9 +189,9 @@ class ChernResult:
         bottom = min((b.energy_min for b in upper), default=self.energy_ceiling) + 0.0
         top, bottom = (0.0 if abs(x) < 5e-7 else x for x in (top, bottom))
         raise GapClosedError(
-            f"fermi.gap = {r}: the gap above band {r - 1} is closed (bands below reach {top:.6f} t, "
+            f"the gap above band {r - 1} is closed (bands below reach {top:.6f} t, "
             f"bands above start at {bottom:.6f} t, minimum gap {self.gap_min:g} t); "
-            f"open gaps: {self._gap_list()}"
+            f"open gaps: {self._gap_list()}", gap=r
         )
 
     def _zero_spin(self):

@@ -175,7 +175,7 @@ def _group_basis(cell: HarperCell, k1: float, k2: float, shift: float, emin: flo
     raise LandauSolverError(
         f"the {size} band(s) between {emin:.6g} and {emax:.6g} t did not converge at k = ({k1:.4g}, "
         f"{k2:.4g}) (residual {res:.1e} t): the group is not narrow against its gaps (not the "
-        "Landau-level regime); use the dense solver (chern.solver = 'dense')")
+        "Landau-level regime); use the dense solver")
 
 
 @dataclass

@@ -14,7 +14,7 @@ from threadpoolctl import ThreadpoolController
 
 
 @lru_cache(maxsize=1)
-def _controller() -> ThreadpoolController:
+def blas_controller() -> ThreadpoolController:
     # The controller knows only the libraries loaded when it is created:
     # load NumPy's and SciPy's BLAS first (the wheels bring two separate
     # OpenBLAS builds), or a worker that imports SciPy later (through kwant)
@@ -27,7 +27,7 @@ def _controller() -> ThreadpoolController:
 
 def one_blas_thread():
     """Context manager limiting BLAS to one thread inside its block."""
-    return _controller().limit(limits=1, user_api="blas")
+    return blas_controller().limit(limits=1, user_api="blas")
 
 
 #: Matrices up to this size are diagonalised in stacks on one BLAS thread.

@@ -12,7 +12,7 @@ import os
 import time
 import warnings
 
-__all__ = ["default_jobs", "init_worker", "stop_pool"]
+__all__ = ["default_jobs", "init_worker", "stop_pool", "process_pool"]
 
 
 def default_jobs() -> int:
@@ -48,10 +48,10 @@ def init_worker() -> None:
 
     threading.Thread(target=watch_parent, name="topoedge-parent-watch", daemon=True).start()
     warnings.filterwarnings("ignore", message="MUMPS is not available")
-    from .threads import _controller
+    from .threads import blas_controller
 
     # Kept referenced for the life of the worker: the limit stays in force.
-    _WORKER_LIMIT = _controller().limit(limits=1, user_api="blas")
+    _WORKER_LIMIT = blas_controller().limit(limits=1, user_api="blas")
 
 
 def stop_pool(pool) -> None:
@@ -67,3 +67,17 @@ def stop_pool(pool) -> None:
             process.terminate()
     for process in processes:
         process.join(timeout=10)
+
+
+def process_pool(workers: int):
+    """A pool of ``workers`` spawned processes started by :func:`init_worker` (the one pool of the project).
+
+    Spawned, not forked: a worker starts clean (no copied BLAS threads or
+    locks of the parent). End it with ``pool.shutdown()`` when every task is
+    done, or with :func:`stop_pool` on an error or Ctrl-C.
+    """
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    return ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("spawn"),
+                               initializer=init_worker)

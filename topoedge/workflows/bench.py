@@ -39,7 +39,8 @@ import numpy as np
 from ..scenario import Scenario, lattice_scenario
 from ..systems.ribbon import RibbonHamiltonian
 from ..solvers.chern import chern_numbers
-from .run import build_bulk, fermi_level, scenario_potential
+from .build import build_bulk, scenario_potential
+from .bulk import fermi_level
 from ..models.square import model_params, ribbon_builder
 from ..solvers.spectrum import k_grid, ribbon_spectrum
 
@@ -237,8 +238,10 @@ def bench_hallbar(scenario: Scenario, sizes=None, *, repeats: int = 1) -> dict:
     import kwant
     import kwant.solvers.sparse as sparse
 
-    from ..solvers.transport import hall_resistances, hallbar_params, sum_rule_violation
-    from .run import _hallbar_system, fermi_level, bulk_chern, replace_chern_refine
+    from ..models.hallbar import hallbar_params
+    from ..solvers.transport import hall_resistances, sum_rule_violation
+    from .bulk import bulk_chern, fermi_level, replace_chern_refine
+    from .hallbar_scan import hallbar_system
 
     scenario, _ = lattice_scenario(scenario)
     if scenario.fermi.energy is not None:
@@ -260,7 +263,7 @@ def bench_hallbar(scenario: Scenario, sizes=None, *, repeats: int = 1) -> dict:
     rows = []
     for length, width in sizes:
         at = replace(scenario, hallbar=replace(bar, length=int(length), width=int(width)))
-        fsyst, params = _hallbar_system(at)
+        fsyst, params = hallbar_system(at)
         full = hallbar_params(fsyst, params)
         row = {"length": int(length), "width": int(width),
                "orbitals": int(sum(s.family.norbs for s in fsyst.sites)), "seconds": {}}
@@ -308,7 +311,8 @@ def bench_hf(*, width: int = 200, k_points: int = 256, flux: str = "1/40", coulo
     """
     from fractions import Fraction
 
-    from ..solvers.hartree_fock import HartreeFockRibbon, Interaction, background_density
+    from ..solvers.coulomb import Interaction, background_density
+    from ..solvers.hartree_fock import HartreeFockRibbon
     from ..systems.ribbon import RibbonHamiltonian
 
     phi = Fraction(flux)
@@ -357,8 +361,8 @@ def bench_sweep(path, *, workers=(1, 2)) -> dict:
     """A whole sweep from nothing with 1 and with 2 worker processes, side by side.
 
     Each run computes every point into a fresh temporary folder (process
-    start-up and the import of kwant in each worker included); the tables of
-    the runs must be identical.
+    start-up and the import of kwant in each worker included); the rows of
+    the runs' tables (:func:`topoedge.workflows.sweep.gather`) must be identical.
 
     Returns
     -------
@@ -369,7 +373,9 @@ def bench_sweep(path, *, workers=(1, 2)) -> dict:
     import tempfile
     from pathlib import Path
 
-    from .sweep import gather, load_sweep, run_sweep, write_table
+    import json
+
+    from .sweep import gather, load_sweep, run_sweep
 
     sweep = load_sweep(path)
     seconds, tables = {}, []
@@ -379,8 +385,7 @@ def bench_sweep(path, *, workers=(1, 2)) -> dict:
             start = time.perf_counter()
             stats = run_sweep(sweep, out, jobs=n)
             seconds[n] = time.perf_counter() - start
-            write_table(sweep, gather(sweep, out), out)
-            tables.append((out / "table.csv").read_text())
+            tables.append(json.dumps(gather(sweep, out), sort_keys=True, default=str))
     return {"sweep": str(path), "points": stats["total"], "failed": stats["failed"],
             "seconds": {str(n): s for n, s in seconds.items()},
             "ratio": seconds[min(workers)] / seconds[max(workers)],

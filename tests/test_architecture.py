@@ -1,0 +1,115 @@
+"""The package layout: stages as packages, imports only downwards, one lattice registry.
+
+No physics here: these tests keep the structure described in DEVELOPERS.md.
+"""
+
+from __future__ import annotations
+
+import ast
+from pathlib import Path
+
+import pytest
+
+PACKAGE = Path(__file__).resolve().parent.parent / "topoedge"
+
+#: Stage of every sub-package (and of the top-level modules): a module may
+#: import modules of its own stage or of lower ones, never a higher one.
+STAGES = {"util": 0, "models": 1, "scenario": 2, "systems": 3, "solvers": 4, "workflows": 5, "outputs": 6,
+          "plotting": 6, "cli": 7, "__main__": 8, "__init__": 8}
+#: Longest module (lines); a longer one is split by what it does.
+MAX_LINES = 560
+
+
+def _modules():
+    for path in sorted(PACKAGE.rglob("*.py")):
+        rel = path.relative_to(PACKAGE)
+        yield path, rel
+
+
+def _stage(rel: Path) -> int:
+    return STAGES[rel.parts[0] if len(rel.parts) > 1 else rel.stem]
+
+
+def _target(rel: Path, node: ast.ImportFrom) -> Path | None:
+    """The package-relative path a relative import refers to (its first component is enough)."""
+    if node.level == 0:
+        if node.module and node.module.startswith("topoedge."):
+            return Path(*node.module.split(".")[1:])
+        return None
+    base = rel.parent.parts[: len(rel.parent.parts) - (node.level - 1)] if node.level > 1 else rel.parent.parts
+    parts = list(base) + (node.module.split(".") if node.module else [])
+    return Path(*parts) if parts else None
+
+
+def _imports():
+    for path, rel in _modules():
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        for node in ast.walk(tree):
+            if isinstance(node, ast.ImportFrom):
+                yield rel, node, _target(rel, node)
+
+
+def test_no_import_climbs_a_stage():
+    climbs = []
+    for rel, node, target in _imports():
+        if target is None or not target.parts:
+            continue
+        head = target.parts[0]
+        if head not in STAGES:        # e.g. `from .. import __version__` of the package itself
+            continue
+        if STAGES[head] > _stage(rel):
+            climbs.append(f"{rel}:{node.lineno} imports {'.'.join(target.parts)}")
+    assert not climbs, "\n".join(climbs)
+
+
+def test_no_private_names_imported_across_modules():
+    private = [f"{rel}:{node.lineno} imports {alias.name} from {node.module}"
+               for rel, node, target in _imports() if target is not None
+               for alias in node.names if alias.name.startswith("_") and alias.name != "__version__"]
+    assert not private, "\n".join(private)
+
+
+@pytest.mark.parametrize("rel", [rel for _, rel in _modules()], ids=str)
+def test_no_module_is_too_long(rel):
+    lines = (PACKAGE / rel).read_text(encoding="utf-8").count("\n")
+    assert lines <= MAX_LINES, f"{rel} has {lines} lines; split it by what it does"
+
+
+def test_the_lattice_kind_is_tested_only_in_the_registry():
+    from topoedge.models.lattices import LATTICES
+
+    kinds = set(LATTICES)
+    found = []
+    for path, rel in _modules():
+        if rel == Path("models/lattices.py"):
+            continue
+        for node in ast.walk(ast.parse(path.read_text(encoding="utf-8"))):
+            if not isinstance(node, ast.Compare):
+                continue
+            operands = [node.left, *node.comparators]
+            names = {n.value for n in operands if isinstance(n, ast.Constant) and isinstance(n.value, str)}
+            names |= {e.value for n in operands if isinstance(n, (ast.Tuple, ast.List, ast.Set))
+                      for e in n.elts if isinstance(e, ast.Constant) and isinstance(e.value, str)}
+            kind_attr = any(isinstance(n, ast.Attribute) and n.attr == "kind" for n in operands)
+            if names & kinds or kind_attr:
+                found.append(f"{rel}:{node.lineno}")
+    assert not found, "lattice kind tested outside the registry: " + ", ".join(found)
+
+
+def test_every_lattice_entry_builds_its_systems():
+    # Each registry entry gives a ribbon with one symmetry and a bulk with two.
+    from topoedge.models.lattices import LATTICES
+    from topoedge.scenario import parse_scenario
+
+    examples = {"square": {}, "honeycomb": {"lattice": {"kind": "honeycomb", "flux": "1/5"}},
+                "haldane": {"lattice": {"kind": "haldane", "t2": 0.1, "t2_phase": 1.5}},
+                "qwz": {"lattice": {"kind": "qwz", "mass": 1.0}}}
+    assert set(examples) == set(LATTICES)
+    for kind, data in examples.items():
+        s = parse_scenario({**data, "ribbon": {"width": 8}})
+        entry = LATTICES[kind]
+        builder, potential = entry.ribbon(s.lattice, s.spin, s.ribbon)
+        assert len(builder.symmetry.periods) == 1
+        assert len(entry.bulk(s.lattice, s.spin).symmetry.periods) == 2
+        assert isinstance(entry.params(s.lattice, s.spin), dict)
+        assert entry.span(8, s.ribbon.orientation) > 0

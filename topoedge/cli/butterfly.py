@@ -1,0 +1,59 @@
+"""`topoedge butterfly`: the flux-energy spectrum with every gap labelled by its Chern number."""
+
+from __future__ import annotations
+
+import json
+import sys
+import time
+from pathlib import Path
+from ..scenario import ConfigError, lattice_scenario, load_scenario
+from .common import require_support, say
+
+
+
+def cmd_butterfly(args) -> int:
+    """Flux-energy spectrum of the scenario's model (spin, Zeeman, on-site) into a results folder."""
+    import math
+
+    from ..workflows.butterfly import Q_MAX_LIMIT
+
+    if not 1 <= args.q_max <= Q_MAX_LIMIT:
+        raise ConfigError(f"butterfly --q-max: got {args.q_max}; expected an integer from 1 to {Q_MAX_LIMIT}")
+    if not (args.min_gap > 0 and math.isfinite(args.min_gap)):
+        raise ConfigError(f"butterfly --min-gap: got {args.min_gap:g}; expected a finite gap width > 0 (units of t)")
+    if args.jobs is not None and args.jobs < 1:
+        raise ConfigError(f"butterfly --jobs: got {args.jobs}; expected at least 1 worker process")
+    scenario = load_scenario(args.config, args.overrides)
+    require_support(scenario, "butterfly")
+    if args.out is not None:
+        out = args.out
+    else:
+        base = out = Path("results") / f"butterfly-{time.strftime('%Y%m%d-%H%M%S')}"
+        n = 1
+        while out.exists():
+            n += 1
+            out = base.with_name(f"{base.name}-{n}")
+    from ..util.atomic import check_destination
+
+    check_destination(out, force=args.force)
+    import matplotlib
+
+    matplotlib.use("Agg")      # the command writes files; no window
+    from ..outputs.butterfly import butterfly_summary, format_butterfly, write_butterfly
+    from ..workflows.butterfly import compute_butterfly
+
+    # With [field], the Zeeman splitting (in t) is the one at the scenario's
+    # field, kept the same at every flux of the spectrum.
+    model, _ = lattice_scenario(scenario)
+    result = compute_butterfly(
+        args.q_max, spin=model.spin.enabled, zeeman=model.spin.zeeman, onsite=model.lattice.onsite,
+        jobs=args.jobs, full_grid=args.full_grid, progress=sys.stdout.isatty() and not args.quiet,
+    )
+    summary = butterfly_summary(result, min_gap=args.min_gap, scenario=scenario)
+    write_butterfly(out, result, summary, force=args.force)
+    if args.json:
+        print(json.dumps(summary, indent=2))
+    say(args, format_butterfly(summary, out))
+    return 0
+
+

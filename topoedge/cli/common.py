@@ -1,0 +1,63 @@
+"""TODO docstring."""
+
+from __future__ import annotations
+
+import argparse
+import time
+from pathlib import Path
+from ..scenario import DEFAULT_SCENARIO, ConfigError
+
+
+EXIT_BAD_INPUT = 2
+
+
+#: A self-consistent run that wrote its results but did not converge everywhere.
+EXIT_NOT_CONVERGED = 1
+
+
+class Parser(argparse.ArgumentParser):
+    def error(self, message):  # one line, status 2, like every other bad input
+        self.exit(EXIT_BAD_INPUT, f"{self.prog}: error: {message}\n")
+
+
+def say(args, text: str) -> None:
+    """Human-readable output; --json keeps stdout for the JSON document alone."""
+    if not (args.quiet or args.json):
+        print(text, flush=True)
+
+
+def default_out(config_path: str | None) -> Path:
+    stem = Path(config_path).stem if config_path else DEFAULT_SCENARIO.stem
+    base = Path("results") / f"{stem}-{time.strftime('%Y%m%d-%H%M%S')}"
+    out, n = base, 1
+    while out.exists():
+        n += 1
+        out = base.with_name(f"{base.name}-{n}")
+    return out
+
+
+def scan_range(text: str | None, option: str, unit: str) -> tuple[float, float, int] | None:
+    if text is None:
+        return None
+    parts = text.split(":")
+    try:
+        lo, hi, n = float(parts[0]), float(parts[1]), int(parts[2])
+        assert len(parts) == 3 and lo < hi and n >= 2
+    except (ValueError, IndexError, AssertionError):
+        raise ConfigError(f"hallbar {option}: got {text!r}; expected LO:HI:N with LO < HI ({unit}) and N >= 2 steps")
+    return lo, hi, n
+
+
+def require_support(scenario, command: str) -> None:
+    """Refuse what a command would silently drop: a lattice (or a Rashba term) it does not support."""
+    from ..models.lattices import lattice
+
+    entry = lattice(scenario.lattice.kind)
+    if command not in entry.supports:
+        raise ConfigError(f"lattice.kind: got {scenario.lattice.kind!r}; `topoedge {command}` is built for the "
+                          "square lattice only; expected 'square'")
+    if scenario.spin.rashba != 0:
+        raise ConfigError(f"spin.rashba: got {scenario.spin.rashba!r}; `topoedge {command}` has no Rashba term "
+                          "yet; expected 0")
+
+

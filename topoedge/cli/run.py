@@ -1,0 +1,138 @@
+"""`topoedge run`: one scenario (self-consistent with [interaction]) into a results folder."""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario
+from .common import EXIT_NOT_CONVERGED, default_out, say
+
+
+
+def cmd_run(args) -> int:
+    from ..outputs.results import format_summary, read_restart, write_run
+    from ..util.atomic import check_destination
+
+    if not (args.checkpoint_every >= 0 and args.checkpoint_every < float("inf")):
+        raise ConfigError(f"run --checkpoint-every: got {args.checkpoint_every:g}; expected a finite number of "
+                          "seconds >= 0")
+    scenario = load_scenario(args.config, args.overrides)
+    restart = restart_model = None
+    if args.restart is not None:
+        if not scenario.interaction.enabled:
+            raise ConfigError("--restart: the scenario has no [interaction] section; expected a "
+                              "self-consistent scenario (a restart file continues a Hartree-Fock run)")
+        restart, restart_model = read_restart(args.restart)
+    out = args.out if args.out is not None else default_out(args.config)
+    check_destination(out, force=args.force)
+    from ..util.progress import Progress, progress_mode
+
+    progress = Progress(progress_mode(quiet=args.quiet))
+    checkpoint_path = None
+    if scenario.interaction.enabled:
+        from ..workflows.interacting import run_interacting  # imports kwant: only once the input is valid
+        from ..outputs.results import write_restart
+
+        checkpoint_path = out.with_name(out.name + ".checkpoint.h5")
+        continuing = args.restart is not None and checkpoint_path.exists() and checkpoint_path.samefile(args.restart)
+        if checkpoint_path.exists() and not (args.force or continuing):
+            raise ConfigError(f"checkpoint '{checkpoint_path}' of an earlier interrupted run exists; continue it "
+                              f"with --restart {checkpoint_path}, or pass --force to replace it")
+        checkpoint_path.parent.mkdir(parents=True, exist_ok=True)
+
+        def checkpoint(states, model):
+            write_restart(checkpoint_path, states, model)
+
+        def again(restart_file):
+            import shlex
+
+            words = ["topoedge", "run", str(args.config or DEFAULT_SCENARIO)]
+            words += [w for item in args.overrides for w in ("--set", item)]
+            return shlex.join(words + ["--restart", str(restart_file)])
+
+        try:
+            result = run_interacting(scenario, restart=restart, restart_model=restart_model,
+                                     checkpoint=checkpoint, checkpoint_every=args.checkpoint_every,
+                                     progress=progress.bar)
+        except KeyboardInterrupt:
+            if checkpoint_path.exists():
+                print(f"topoedge: interrupted; no results folder was written. Continue with: "
+                      f"{again(checkpoint_path)}", file=sys.stderr)
+            else:
+                print("topoedge: interrupted before the first checkpoint; nothing was written", file=sys.stderr)
+            return 130
+        except ValueError as err:  # a restart file made for another model, of the wrong shape or charge
+            raise ConfigError(str(err)) from None
+    else:
+        from ..workflows import run_scenario  # imports kwant: only once the input is valid
+
+        result = run_scenario(scenario, progress=progress)
+
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from ..plotting import RUN_FIGURES
+
+    def saver(make):
+        def save(path: Path) -> None:
+            fig = make(result)
+            try:
+                fig.savefig(path, dpi=150)
+            finally:
+                plt.close(fig)
+
+        return save
+
+    figures = dict(RUN_FIGURES) if result.spectrum is not None else {}
+    if result.interacting is not None:
+        figures.update(interacting_figures(result))
+    write_run(out, result, {name: saver(make) for name, make in figures.items()}, force=args.force)
+    if checkpoint_path is not None:
+        checkpoint_path.unlink(missing_ok=True)  # its states are in the folder's restart.h5
+    if args.json:
+        print(json.dumps(result.summary, indent=2))
+    say(args, format_summary(result.summary))
+    files = ["summary.json"] + (["spectrum.h5"] if result.spectrum is not None else [])
+    if result.interacting is not None:
+        files += ["hartree_fock.h5", "restart.h5"]
+    say(args, f"  results      {out}/ ({', '.join(files + list(figures))})")
+    if result.interacting is not None:
+        failed = [f"{sc.width:g}" for sc in (result.interacting.main, *result.interacting.scan) if sc.best is None]
+        if failed:
+            print(f"topoedge: not converged for background width(s) {', '.join(failed)} a; continue with: "
+                  f"{again(out / 'restart.h5')} (and a larger interaction.max_iter if needed)", file=sys.stderr)
+            return EXIT_NOT_CONVERGED
+    return 0
+
+
+def interacting_figures(result) -> dict:
+    """Figure makers of a self-consistent run: profiles and convergence, and the width scan."""
+    from ..plotting import edge_scan_figure, hartree_fock_figure
+
+    run = result.interacting
+    title = (f"{result.scenario.title or 'scenario'}: flux {result.scenario.lattice.flux}, "
+             f"U_C = {run.interaction.coulomb:.3g} t, background w = {run.main.width:g} a")
+    figures = {}
+    main = run.main
+    best = main.best or min(main.runs, key=lambda r: r.history["residual"][-1])
+
+    def profiles(_):
+        return hartree_fock_figure(best, flux=abs(float(result.scenario.lattice.flux)), spectrum=result.spectrum,
+                                   edges=result.edges, fermi_energy=main.fermi_energy, title=title,
+                                   runs=main.runs)
+
+    figures["hartree_fock.png"] = profiles
+    if run.scan:
+        def scan(_):
+            return edge_scan_figure(result.summary["interaction"]["scan"], magnetic_length=run.magnetic_length,
+                                    title=f"{result.scenario.title or 'scenario'}\nself-consistent bottom edge "
+                                          f"against the background width (flux {result.scenario.lattice.flux}, "
+                                          f"U_C = {run.interaction.coulomb:.3g} t)")
+
+        figures["edge_scan.png"] = scan
+    return figures
+
+
