@@ -113,3 +113,38 @@ def test_every_lattice_entry_builds_its_systems():
         assert len(entry.bulk(s.lattice, s.spin).symmetry.periods) == 2
         assert isinstance(entry.params(s.lattice, s.spin), dict)
         assert entry.span(8, s.ribbon.orientation) > 0
+
+
+def test_a_scenario_is_resolved_once(monkeypatch, tmp_path):
+    # Units are derived once per scenario and passed down as a Model: a run
+    # resolves its scenario once, an E_F scan of the Hall bar once, a field
+    # scan once more per field (each field is another scenario).
+    import topoedge.scenario.model as model_module
+    from topoedge import cli
+    from topoedge.scenario import parse_scenario
+    from topoedge.workflows import hallbar_field_scan, run_scenario
+
+    calls = []
+    original = model_module.lattice_scenario
+
+    def counting(scenario):
+        calls.append(scenario.field.b_tesla)
+        return original(scenario)
+
+    monkeypatch.setattr(model_module, "lattice_scenario", counting)
+    data = {"material": {"preset": "gaas", "lattice_constant_nm": 8.0},
+            "field": {"b_tesla": 5.0, "fermi_mev": 10.0, "tolerance": 0.01, "q_max": 60},
+            "ribbon": {"width": 40}, "spectrum": {"k_points": 11}, "chern": {"refine": False},
+            "hallbar": {"length": 40, "width": 20}}
+    run_scenario(parse_scenario(data))
+    assert calls == [5.0]
+    calls.clear()
+    hallbar_field_scan(parse_scenario(data), [3.0, 8.0], jobs=1)
+    assert calls == [5.0, 3.0, 8.0]
+    calls.clear()
+    config = tmp_path / "bar.toml"
+    config.write_text('[lattice]\nflux = "1/10"\n[spin]\nenabled = false\n[ribbon]\nwidth = 30\n'
+                      '[hallbar]\nlength = 40\nwidth = 20\n')
+    assert cli.main(["hallbar", str(config), "--energies=-3.5:-3.2:2", "--out", str(tmp_path / "out"),
+                     "--quiet"]) == 0
+    assert calls == [None]

@@ -6,7 +6,7 @@ import json
 import sys
 import time
 from pathlib import Path
-from ..scenario import ConfigError, lattice_scenario, load_scenario
+from ..scenario import resolve, ConfigError, load_scenario
 from .common import require_support, say
 
 
@@ -44,7 +44,7 @@ def cmd_butterfly(args) -> int:
 
     # With [field], the Zeeman splitting (in t) is the one at the scenario's
     # field, kept the same at every flux of the spectrum.
-    model, _ = lattice_scenario(scenario)
+    model = resolve(scenario).scenario
     result = compute_butterfly(
         args.q_max, spin=model.spin.enabled, zeeman=model.spin.zeeman, onsite=model.lattice.onsite,
         jobs=args.jobs, full_grid=args.full_grid, progress=sys.stdout.isatty() and not args.quiet,

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import json
 from pathlib import Path
-from ..scenario import DEFAULT_SCENARIO, ConfigError, lattice_scenario, load_scenario
+from ..scenario import resolve, DEFAULT_SCENARIO, ConfigError, load_scenario
 from .common import default_out, require_support, say, scan_range
 
 
@@ -33,13 +33,14 @@ def cmd_hallbar(args) -> int:
     check_destination(out, force=args.force)
     from ..workflows import bulk_chern, fermi_level, hallbar_field_scan, hallbar_scan, replace_chern_refine
 
-    model, _ = lattice_scenario(scenario)
+    resolved = resolve(scenario)            # once; the workflows receive the model
+    model = resolved.scenario
     from ..util.progress import Progress, progress_mode
 
     progress = Progress(progress_mode(quiet=args.quiet))
     if fields is not None:
         try:
-            scan = hallbar_field_scan(scenario, np.linspace(*fields), jobs=args.jobs, progress=progress)
+            scan = hallbar_field_scan(resolved, np.linspace(*fields), jobs=args.jobs, progress=progress)
         except ValueError as err:
             raise ConfigError(f"hallbar --fields: {err}") from None
         axis, units = "b_tesla", ("B in tesla along +z for B > 0 (b_lattice_tesla: the field of the lattice flux, "
@@ -51,7 +52,7 @@ def cmd_hallbar(args) -> int:
             ef, _ = fermi_level(model, chern)
             bottom = min(b.energy_min for b in chern.bands)
             window = (bottom, ef + 1.5 * (ef - bottom), 41)
-        scan = hallbar_scan(scenario, np.linspace(*window), progress=progress)
+        scan = hallbar_scan(resolved, np.linspace(*window), progress=progress)
         axis, units = "energy", "E_F in t"
     from ..scenario.units import VON_KLITZING
 

@@ -17,7 +17,7 @@ flux in flux quanta per plaquette; every problem is a one-line
 from .checks import derive_units, ribbon_span
 from .load import (DATA_DIR, DEFAULT_SCENARIO, PRESETS_DIR, SCENARIOS_DIR, apply_overrides, find_shipped,
                    load_scenario, parse_scenario, shipped)
-from .resolve import lattice_scenario
+from .model import Model, lattice_scenario, resolve
 from .schema import convert_key, key_docs, key_paths
 from .sections import (BACKGROUND_PROFILES, EDGE_PROFILES, LATTICES, MIXINGS, ORIENTATIONS, SOLVERS, START_STATES,
                        ZERO_FIELD, BackgroundConfig, ChernConfig, ConfigError, EdgeConfig, EdgesConfig, FermiConfig,
@@ -28,7 +28,7 @@ __all__ = [
     "ConfigError", "Scenario", "LatticeConfig", "SpinConfig", "EdgeConfig", "RibbonConfig", "SpectrumConfig",
     "FermiConfig", "ChernConfig", "EdgesConfig", "MaterialConfig", "FieldConfig", "HallbarConfig",
     "BackgroundConfig", "InteractionConfig", "load_scenario", "parse_scenario", "apply_overrides", "shipped",
-    "find_shipped", "lattice_scenario", "derive_units", "ribbon_span", "key_docs", "key_paths", "convert_key",
+    "find_shipped", "Model", "resolve", "lattice_scenario", "derive_units", "ribbon_span", "key_docs", "key_paths", "convert_key",
     "DATA_DIR", "SCENARIOS_DIR", "DEFAULT_SCENARIO", "PRESETS_DIR", "EDGE_PROFILES", "SOLVERS", "LATTICES",
     "ZERO_FIELD", "ORIENTATIONS", "START_STATES", "MIXINGS", "BACKGROUND_PROFILES",
 ]

@@ -36,7 +36,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from ..scenario import Scenario, lattice_scenario
+from ..scenario import Scenario, resolve
 from ..systems.ribbon import RibbonHamiltonian
 from ..solvers.chern import chern_numbers
 from .build import build_bulk, scenario_potential
@@ -77,7 +77,7 @@ def bench_ribbon(scenario: Scenario, *, width: int = 400, k_points: int = 200, w
     """
     import kwant
 
-    scenario, _ = lattice_scenario(scenario)
+    scenario = resolve(scenario).scenario
     edge = scenario.ribbon.edge
     if edge.width > width / 2:
         edge = replace(edge, width=width / 2)
@@ -243,7 +243,7 @@ def bench_hallbar(scenario: Scenario, sizes=None, *, repeats: int = 1) -> dict:
     from .bulk import bulk_chern, fermi_level, replace_chern_refine
     from .hallbar_scan import hallbar_system
 
-    scenario, _ = lattice_scenario(scenario)
+    scenario = resolve(scenario).scenario
     if scenario.fermi.energy is not None:
         ef = float(scenario.fermi.energy)
     else:

@@ -10,7 +10,7 @@ worker processes.
 from __future__ import annotations
 
 import numpy as np
-from ..scenario import Scenario, lattice_scenario
+from ..scenario import Model, Scenario, resolve
 from ..solvers.chern import ChernResult, chern_numbers
 from ..solvers.landau import (bands_for, landau_chern)
 from ..util.progress import ticks
@@ -115,7 +115,7 @@ def _hall_point(fsyst, params: dict, energy: float, seeds: int) -> tuple[dict, s
     return point, None
 
 
-def hallbar_scan(scenario: Scenario, energies, *, progress=False) -> dict:
+def hallbar_scan(scenario: Scenario | Model, energies, *, progress=False) -> dict:
     """R_xy and R_xx of the scenario's Hall bar over a range of Fermi energies.
 
     Returns a JSON-able dict of lists: ``energy`` (t), ``r_xy``, ``r_xx``
@@ -128,7 +128,7 @@ def hallbar_scan(scenario: Scenario, energies, *, progress=False) -> dict:
     (None for C = 0 or in a band), and ``errors`` (energy, message) where the
     bar could not be solved.
     """
-    scenario, _ = lattice_scenario(scenario)
+    scenario = resolve(scenario).scenario
     chern, _, _ = bulk_chern(replace_chern_refine(scenario))
     fsyst, params = hallbar_system(scenario)
     out: dict = {"energy": []}
@@ -163,7 +163,7 @@ def _field_bulk(model: Scenario, fermi_t: float) -> ChernResult:
                          gap_min=model.chern.gap_min)
 
 
-def hallbar_field_scan(scenario: Scenario, fields_tesla, *, jobs: int | None = None,
+def hallbar_field_scan(scenario: Scenario | Model, fields_tesla, *, jobs: int | None = None,
                        progress=False) -> dict:
     """R_xy and R_xx of the scenario's Hall bar over the magnetic field at fixed E_F.
 
@@ -213,7 +213,8 @@ def hallbar_field_scan(scenario: Scenario, fields_tesla, *, jobs: int | None = N
     if scenario.field.b_tesla is None:
         raise ValueError("a field scan needs a scenario in physical units: add [material] and [field] "
                          "(field.b_tesla and field.fermi_mev or field.density_cm2)")
-    base, base_units = lattice_scenario(scenario)
+    model = resolve(scenario)
+    scenario, base, base_units = model.given, model.scenario, model.units
     if base.fermi.energy is not None:
         fermi_t = float(base.fermi.energy)
     else:
@@ -223,7 +224,8 @@ def hallbar_field_scan(scenario: Scenario, fields_tesla, *, jobs: int | None = N
     models = []
     for b in fields:
         try:
-            models.append(lattice_scenario(replace(scenario, field=replace(scenario.field, b_tesla=b))))
+            at_b = resolve(replace(scenario, field=replace(scenario.field, b_tesla=b)))   # another scenario
+            models.append((at_b.scenario, at_b.units))
         except ValueError as err:
             raise ValueError(f"field scan at B = {b:g} T: {err}") from None
     fsyst, _ = hallbar_system(base)

@@ -49,7 +49,7 @@ from fractions import Fraction
 import numpy as np
 
 from ..models.square import model_params, ribbon_builder
-from ..scenario import Scenario, lattice_scenario
+from ..scenario import Model, Scenario, resolve
 from ..solvers.edges import EdgeCount, count_edge_modes
 from ..systems.ribbon import RibbonHamiltonian
 from ..solvers.coulomb import Interaction, background_density
@@ -341,7 +341,7 @@ def solve_width(scenario: Scenario, blocks, interaction: Interaction, width: flo
 
 
 
-def run_interacting(scenario: Scenario, *, restart: dict | None = None, restart_model: dict | None = None,
+def run_interacting(scenario: Scenario | Model, *, restart: dict | None = None, restart_model: dict | None = None,
                     checkpoint=None, checkpoint_every: float = 20.0, progress: bool = False) -> RunResult:
     """Self-consistent Hartree-Fock run of a scenario with ``[interaction]``.
 
@@ -378,8 +378,8 @@ def run_interacting(scenario: Scenario, *, restart: dict | None = None, restart_
         When the filled bulk bands have no open gap above them.
     """
     start_time = time.perf_counter()
-    given = scenario
-    scenario, units = lattice_scenario(scenario)
+    model_ = resolve(scenario)
+    given, scenario, units = model_.given, model_.scenario, model_.units
     if not scenario.interaction.enabled:
         raise ValueError("the scenario has no [interaction] section; use topoedge.workflows.run.run_scenario")
     interaction = interaction_of(scenario, units)

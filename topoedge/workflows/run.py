@@ -30,7 +30,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..scenario import Scenario, lattice_scenario
+from ..scenario import Model, Scenario, resolve
 from ..scenario.units import VON_KLITZING, Derived
 from ..solvers.chern import ChernResult, Gap, GapClosedError, subspace_chern
 from ..solvers.edges import EdgeCount, count_edge_modes
@@ -100,8 +100,11 @@ class RunResult:
 
 
 
-def run_scenario(scenario: Scenario, *, progress=False) -> RunResult:
+def run_scenario(scenario: Scenario | Model, *, progress=False) -> RunResult:
     """Bulk Chern numbers, ribbon spectrum and edge modes of a scenario.
+
+    ``scenario`` as written (resolved here, once: :func:`topoedge.scenario.resolve`)
+    or already resolved (a :class:`topoedge.scenario.Model`).
 
     ``progress``: False, True (a terminal bar) or a
     :class:`topoedge.util.progress.Progress`.
@@ -111,12 +114,12 @@ def run_scenario(scenario: Scenario, *, progress=False) -> RunResult:
     topoedge.solvers.chern.GapClosedError
         Before the ribbon is computed, when E_F is not in an open bulk gap.
     """
-    if scenario.interaction.enabled:
+    model = resolve(scenario)
+    if model.scenario.interaction.enabled:
         raise ValueError("the scenario has [interaction]: run it with topoedge.workflows.interacting.run_interacting")
     progress = as_progress(progress)
     start = time.perf_counter()
-    given = scenario
-    scenario, units = lattice_scenario(scenario)
+    given, scenario, units = model.given, model.scenario, model.units
     solver, solver_reason = bulk_solver(scenario)
     require(memory_estimate(scenario, solver))
     bulk = build_bulk(scenario) if solver == "dense" else None
