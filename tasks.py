@@ -1,9 +1,13 @@
 #!/usr/bin/env python3
-"""Set up topoedge in ./.venv and run it, its tests or its benchmark.
+"""Set up topoedge in ./.venv and run it, its tests, its benchmark or its documentation build.
 
     python3 tasks.py run [ARGS...]     set up, then `topoedge run ARGS` (default scenario)
     python3 tasks.py test [ARGS...]    set up, then pytest ARGS; fails if no test ran
     python3 tasks.py bench [ARGS...]   set up, then `topoedge bench ARGS`
+    python3 tasks.py docs [ARGS...]    set up with the `docs` extra (Sphinx, numpydoc), then
+                                       build the documentation site from scratch into
+                                       docs/_build/html, every warning an error; ARGS go
+                                       to sphinx-build
     python3 tasks.py setup             set up only
     python3 tasks.py install-check     install topoedge non-editable into a fresh
                                        .venv-install and run the default scenario
@@ -15,7 +19,8 @@
 Set-up is idempotent: the virtual environment is created when missing, kwant is
 built from source only when it does not import yet (its released C sources
 predate numpy 2, so Cython regenerates them; about 90 s on 2 cores), and the
-package is (re)installed in editable mode when pyproject.toml changed.
+package is (re)installed in editable mode when pyproject.toml changed (with
+the `docs` extra as well for the docs task).
 kwant is linked against the sequential MUMPS library when its headers are
 installed (Debian/Ubuntu: libmumps-seq-dev); otherwise kwant uses SciPy's
 sparse solver, which is correct and on the bars of this project about as fast.
@@ -37,6 +42,9 @@ VENV = ROOT / ".venv"
 PY = VENV / "bin" / "python"
 WHEELS = VENV / "wheels"       # the kwant wheel built here, reused by install-check
 STAMP = VENV / ".topoedge-setup"
+DOCS_STAMP = VENV / ".topoedge-docs-setup"   # the `docs` extra installed for this pyproject.toml
+DOCS = ROOT / "docs"
+DOCS_HTML = DOCS / "_build" / "html"
 KWANT = "kwant==1.5.0"
 KWANT_BUILD_DEPS = ["numpy", "scipy", "tinyarray", "cython", "setuptools", "wheel"]
 # Debian/Ubuntu: the MUMPS C header (libmumps-headers-dev) and the MPI stub of
@@ -135,7 +143,7 @@ def install_check() -> int:
     return 0
 
 
-def setup(mumps: bool = False) -> None:
+def setup(mumps: bool = False, docs: bool = False) -> None:
     if not PY.exists():
         print(f"creating virtual environment {VENV}", flush=True)
         venv.EnvBuilder(with_pip=True).create(VENV)
@@ -151,13 +159,37 @@ def setup(mumps: bool = False) -> None:
                          f"check {' and '.join(map(str, MUMPS_HEADERS))} and the libraries "
                          "zmumps_seq, mumps_common_seq")
     digest = hashlib.sha256((ROOT / "pyproject.toml").read_bytes()).hexdigest()
-    if not (STAMP.exists() and STAMP.read_text() == digest and _imports("topoedge")):
-        _run(PY, "-m", "pip", "install", "-q", "-e", f"{ROOT}[test]")
+    installed = STAMP.exists() and STAMP.read_text() == digest and _imports("topoedge")
+    docs_installed = (DOCS_STAMP.exists() and DOCS_STAMP.read_text() == digest
+                      and _imports("sphinx") and _imports("numpydoc"))
+    if not installed or (docs and not docs_installed):
+        _run(PY, "-m", "pip", "install", "-q", "-e", f"{ROOT}[{'test,docs' if docs else 'test'}]")
         STAMP.write_text(digest)
+        if docs:
+            DOCS_STAMP.write_text(digest)
+
+
+def build_docs(args: list[str]) -> int:
+    """Build the site from scratch (-E: every page read again, so no warning hides in a cache).
+
+    Warnings are errors (-W), reported all at once (--keep-going). The
+    configuration reference and the API page are generated from the code
+    during the build (docs/_ext/), so nothing generated is kept in the tree.
+    """
+    cmd = [PY, "-m", "sphinx", "-b", "html", "-E", "-W", "--keep-going",
+           "-d", DOCS / "_build" / "doctrees", *args, DOCS, DOCS_HTML]
+    print("+", " ".join(str(c) for c in cmd), flush=True)
+    code = subprocess.run([str(c) for c in cmd], cwd=ROOT).returncode
+    if code != 0:
+        print(f"tasks.py: the documentation build failed (sphinx-build exit {code}); "
+              "every warning counts as an error", file=sys.stderr)
+        return 1
+    print(f"tasks.py: documentation built without warnings: {DOCS_HTML / 'index.html'}", flush=True)
+    return 0
 
 
 def main(argv: list[str]) -> int:
-    if not argv or argv[0] not in ("setup", "run", "test", "bench", "install-check"):
+    if not argv or argv[0] not in ("setup", "run", "test", "bench", "docs", "install-check"):
         print(__doc__, file=sys.stderr)
         return 2
     task, rest = argv[0], [a for a in argv[1:] if a != "--"]
@@ -167,7 +199,7 @@ def main(argv: list[str]) -> int:
               "expected nothing or --mumps", file=sys.stderr)
         return 2
     try:
-        setup(mumps)
+        setup(mumps, docs=task == "docs")
     except subprocess.CalledProcessError as err:
         print(f"tasks.py: set-up failed at: {' '.join(map(str, err.cmd))}", file=sys.stderr)
         return 1
@@ -179,6 +211,8 @@ def main(argv: list[str]) -> int:
         except subprocess.CalledProcessError as err:
             print(f"tasks.py: install-check failed at: {' '.join(map(str, err.cmd))}", file=sys.stderr)
             return 1
+    if task == "docs":
+        return build_docs(rest)
     if task == "test":
         code = subprocess.run([str(PY), "-m", "pytest", *rest], cwd=ROOT).returncode
         if code == 5:

@@ -17,7 +17,7 @@ PACKAGE = Path(__file__).resolve().parent.parent / "topoedge"
 STAGES = {"util": 0, "models": 1, "scenario": 2, "systems": 3, "solvers": 4, "workflows": 5, "outputs": 6,
           "plotting": 6, "cli": 7, "__main__": 8, "__init__": 8}
 #: Longest module (lines); a longer one is split by what it does.
-MAX_LINES = 560
+MAX_LINES = 530
 
 
 def _modules():

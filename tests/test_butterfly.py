@@ -19,7 +19,6 @@ the process pool is exercised; nothing here depends on timing.
 from __future__ import annotations
 
 import json
-import math
 import subprocess
 import sys
 import warnings
@@ -217,6 +216,7 @@ def one_error_line(stderr: str, *needles: str) -> None:
         assert needle in lines[0], lines[0]
 
 
+@pytest.mark.slow
 def test_cli_writes_the_results_folder_and_prints_only_json(tmp_path):
     out = tmp_path / "fly"
     done = topoedge_cli("butterfly", "--q-max", 6, "--out", out, "--json", "--quiet", "--jobs", 2, cwd=tmp_path)

@@ -184,15 +184,34 @@ def test_bad_arguments():
         BlochHamiltonian.from_kwant(ribbon)
 
 
-def test_divide_and_conquer_failure_falls_back_to_mrrr():
-    # LAPACK's divide-and-conquer eigensolver does not converge on this
-    # Hofstadter Bloch Hamiltonian (flux 3/50 at k = (0, pi/2)) here; the
-    # stack solver must fall back and still return an exact eigensystem.
+def test_divide_and_conquer_failure_falls_back_to_mrrr(monkeypatch):
+    # LAPACK's divide-and-conquer eigensolver (numpy's eigh) fails to converge
+    # on rare matrices; the failure is forced here for the whole stack and for
+    # its first matrix, which must then come from the MRRR driver, the others
+    # from eigh one by one, and together still form an exact eigensystem.
+    import scipy.linalg as sla
+
     from topoedge.util.threads import eigh_stack
 
     bloch = bulk(Fraction(3, 50))
     hk = bloch.at(np.array([0.0, 0.3]), np.array([np.pi / 2, 0.1]))
+    eigh, evr = np.linalg.eigh, sla.eigh
+    calls = {"failed": 0, "evr": 0}
+
+    def failing(m, *args, **kwargs):
+        if m.ndim > 2 or np.array_equal(m, hk[0]):
+            calls["failed"] += 1
+            raise np.linalg.LinAlgError("Eigenvalues did not converge")
+        return eigh(m, *args, **kwargs)
+
+    def counting(m, *args, **kwargs):
+        calls["evr"] += kwargs.get("driver") == "evr"
+        return evr(m, *args, **kwargs)
+
+    monkeypatch.setattr(np.linalg, "eigh", failing)
+    monkeypatch.setattr(sla, "eigh", counting)
     w, v = eigh_stack(hk)
+    assert calls == {"failed": 2, "evr": 1}
     for m, e, vec in zip(hk, w, v):
         np.testing.assert_allclose(m @ vec, vec * e, rtol=0, atol=1e-12)
         np.testing.assert_allclose(vec.conj().T @ vec, np.eye(50), rtol=0, atol=1e-12)

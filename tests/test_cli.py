@@ -23,7 +23,6 @@ import pytest
 
 import topoedge
 from topoedge import cli
-import topoedge.plotting as plotting
 from topoedge.scenario import DEFAULT_SCENARIO, load_scenario, parse_scenario
 from topoedge.workflows import run_scenario
 from topoedge.outputs.results import write_run
@@ -555,6 +554,7 @@ def test_cli_interrupt_while_writing_leaves_nothing(tmp_path, tiny_config, monke
 # ------------------------------------------------- 8. bench
 
 
+@pytest.mark.slow
 def test_bench_json(tmp_path):
     scenario = write_config(tmp_path)
     (tmp_path / "sweep.toml").write_text(

@@ -8,7 +8,6 @@ from fractions import Fraction
 import pytest
 from hypothesis import given, strategies as st
 
-import topoedge.scenario as config
 from topoedge.scenario import (
     ConfigError, EdgeConfig, FermiConfig, LatticeConfig, RibbonConfig, Scenario,
     SpectrumConfig, SpinConfig, apply_overrides, key_docs, load_scenario, parse_scenario,

@@ -83,7 +83,7 @@ def gaas_run(request):
 
 def test_chern_sum_drift_and_zeeman_follow_the_field_direction(gaas_run):
     b, result = gaas_run
-    s = result.summary
+    s = result.summary.to_dict()
     sign = np.sign(b)
     assert s["bulk"]["chern_below_fermi"] == -2 * sign
     # spin along B lower for g < 0: spin up (+z) for B > 0, spin down for B < 0
@@ -99,7 +99,7 @@ def test_chern_sum_drift_and_zeeman_follow_the_field_direction(gaas_run):
 
 def test_every_hall_resistance_output_has_one_sign(gaas_run):
     b, result = gaas_run
-    s = result.summary
+    s = result.summary.to_dict()
     expected = 2 * np.sign(b)     # R_xy / (R_K / 2): + for B || +z (electrons)
     assert s["hall"]["r_xy_ohm"] == pytest.approx(expected * R_K / 4, rel=1e-12)
     assert s["physical"]["r_xy_ohm"] == pytest.approx(s["hall"]["r_xy_ohm"], rel=1e-15)
@@ -121,7 +121,7 @@ def test_gaas_sample_at_the_field_asked_for(b, density, nu):
     data = {**GAAS, "ribbon": {**GAAS["ribbon"], "width": width},
             "field": {"b_tesla": b, "density_cm2": density}}
     result = run_scenario(parse_scenario(data))
-    s = result.summary
+    s = result.summary.to_dict()
     u = s["units"]
     # the field computed is the field asked for, to 0.1 %
     assert u["b_tesla"] == b and abs(u["b_lattice_tesla"] / b - 1) <= 1e-3

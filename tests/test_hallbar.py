@@ -220,7 +220,7 @@ def test_four_routes_agree_through_the_pipeline(flux, gap, expected, size):
         "fermi": {"gap": gap}, "spectrum": {"k_points": 16}, "chern": {"refine": False},
         "hallbar": {"enabled": True, "length": size[0], "width": size[1]},
     })
-    summary = run_scenario(scenario).summary
+    summary = run_scenario(scenario).summary.to_dict()
     routes = summary["hall"]["routes"]
     assert routes["chern"] == routes["edge"] == expected
     assert routes["streda"] == pytest.approx(expected, abs=1e-9)
@@ -319,7 +319,7 @@ def test_run_reports_per_spin_hall_bar_values():
         "fermi": {"gap": 2}, "spectrum": {"k_points": 16}, "chern": {"refine": False},
         "hallbar": {"enabled": True, "length": 48, "width": 24},
     })
-    summary = run_scenario(scenario).summary
+    summary = run_scenario(scenario).summary.to_dict()
     bar = summary["hall"]["hallbar"]
     # Spin Chern numbers (1, 1) below the gap: each spin sector alone has
     # sigma_xy = 1 e^2/h (R_xy = -h/e^2 with this module's sign).
@@ -363,6 +363,26 @@ def test_field_scan_follows_the_landau_levels_through_e_f(tmp_path):
         assert scan[f"r_xy_{spin}"][-1] == pytest.approx(1.0, rel=1e-6)
     # every field within the tolerance of 1 %
     assert all(abs(b - u) / b <= 0.01 for b, u in zip(scan["b_tesla"], scan["b_lattice_tesla"]))
+
+
+def test_hallbar_command_scans_the_field(tmp_path, capsys):
+    # The field scan through the command line (the scenario resolved once and
+    # handed down): the same plateaus as above at 3 T and 8 T, R_xy =
+    # -1/sigma_xy = +h/(nu e^2) for electrons in B || +z, and the three files.
+    import json
+
+    from topoedge import cli
+
+    out = tmp_path / "fields"
+    assert cli.main(["hallbar", str(_field_scenario(tmp_path)), "--fields", "3:8:2", "--jobs", "1", "--out",
+                     str(out), "--json", "--quiet"]) == 0
+    printed = json.loads(capsys.readouterr().out)
+    assert {p.name for p in out.iterdir()} == {"summary.json", "hallbar.h5", "hallbar.png"}
+    assert json.loads((out / "summary.json").read_text()) == printed
+    assert printed["b_tesla"] == [3.0, 8.0] and printed["chern"] == [-4, -2]
+    for r_xy, r_ohm, c in zip(printed["r_xy"], printed["r_xy_ohm"], printed["chern"]):
+        assert r_xy == pytest.approx(-1.0 / c, rel=1e-6)
+        assert r_ohm == pytest.approx(-const.h / (c * const.e**2), rel=1e-6)   # exact SI h and e
 
 
 def test_field_scan_needs_physical_units_and_one_axis(tmp_path):

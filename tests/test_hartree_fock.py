@@ -336,6 +336,7 @@ def _edge_of_filling_one(ramp):
     return best, runs, edges
 
 
+@pytest.mark.slow
 def test_smooth_background_edge_reconstructs_at_filling_one():
     # Edge reconstruction of a nu = 1 edge (Chamon and Wen, PRB 49, 8227
     # (1994)): a smooth enough background makes the Hartree-Fock edge detach

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import json
-import math
 import os
 import signal
 import subprocess
@@ -17,7 +16,6 @@ import pytest
 import scipy.constants as sc
 
 from test_cli import to_toml  # the tests' TOML writer (tests/ is on sys.path under pytest)
-from topoedge import cli
 from topoedge.scenario import ConfigError, lattice_scenario, parse_scenario
 from topoedge.workflows.interacting import CELL_AVERAGE, choose_k_points, interaction_of, run_interacting
 
@@ -149,7 +147,7 @@ def test_self_consistent_run_is_neutral_and_keeps_one_mode_per_edge(nu1_run):
     # full, spin down empty); one spin-up mode per edge with net chirality
     # +1 / -1 = the Chern number of the filled level (sharp-ish edge:
     # Chamon and Wen, PRB 49, 8227 (1994)).
-    s = nu1_run.summary
+    s = nu1_run.summary.to_dict()
     i = s["interaction"]
     assert abs(i["neutrality_error"]) < 1e-9
     assert i["filling_centre"]["up"] == pytest.approx(1.0, abs=2e-3)
@@ -224,6 +222,7 @@ def _run(args, **kw):
                           cwd=kw.pop("cwd", None), **kw)
 
 
+@pytest.mark.slow
 def test_unconverged_run_continues_from_its_restart_file(tmp_path):
     config = _write(tmp_path, {**NU1, "interaction": {**NU1["interaction"], "starts": ["random"]}})
     direct = _run([str(config), "--out", str(tmp_path / "direct"), "--json"])
@@ -243,6 +242,7 @@ def test_unconverged_run_continues_from_its_restart_file(tmp_path):
     assert b["bottom"]["order"][0]["distance_a"] == pytest.approx(a["bottom"]["order"][0]["distance_a"], abs=1e-5)
 
 
+@pytest.mark.slow
 def test_killed_run_restarts_from_its_checkpoint(tmp_path):
     # The run is killed with SIGKILL (no clean-up) while it iterates, after
     # its first checkpoint. Continuing from the checkpoint (with the default
@@ -298,6 +298,7 @@ def test_restart_for_another_model_is_refused(tmp_path, nu1_run):
 # ------------------------------------------------------ edge structure scans
 
 
+@pytest.mark.slow
 def test_width_scan_reports_spin_order_and_reconstruction(tmp_path):
     # nu = 2 (both spins of the lowest level filled) on 60 rows, background
     # widths 0 and 12 rows: the spin-up mode (the lower Zeeman level) is the
@@ -306,7 +307,7 @@ def test_width_scan_reports_spin_order_and_reconstruction(tmp_path):
     # Dempsey, Gelfand and Halperin, PRL 70, 3639 (1993), from memory).
     s = _scenario(fermi__gap=2, interaction__scan_widths=[0.0, 12.0], interaction__starts=["polarised", "edge"])
     result = run_interacting(s)
-    i = result.summary["interaction"]
+    i = result.summary.to_dict()["interaction"]
     rows = {row["width_a"]: row for row in i["scan"]}
     assert set(rows) == {0.0, 12.0}
     for row in rows.values():
@@ -320,25 +321,27 @@ def test_width_scan_reports_spin_order_and_reconstruction(tmp_path):
     assert separation(rows[12.0]) > separation(rows[0.0]) + 2.0
     assert i["reconstruction"] == {"found": False, "widest_without_a": 12.0,
                                    "widest_without_lB": pytest.approx(12.0 / i["magnetic_length_a"])}
-    from topoedge.outputs.results import format_summary
+    from topoedge.outputs.report import format_summary
 
     text = format_summary(result.summary)
     assert "scan         w (a)" in text and "no counter-propagating pair up to w = 12 a" in text
 
 
+@pytest.mark.slow
 def test_gated_self_consistent_run(tmp_path):
     # A metal gate 5 a away (2 l_B) screens the interaction: the run still
     # converges to a neutral nu = 1 ferromagnet with one mode per edge, and
     # the summary names the gate.
-    from topoedge.outputs.results import format_summary
+    from topoedge.outputs.report import format_summary
 
     result = run_interacting(_scenario(interaction__gate_distance=5.0, interaction__starts=["polarised"]))
-    i = result.summary["interaction"]
+    i = result.summary.to_dict()["interaction"]
     assert i["gate_distance_a"] == 5.0 and i["converged"]
     assert abs(i["neutrality_error"]) < 1e-9 and i["chirality_equals_chern"]
     assert "gate at 5 a" in format_summary(result.summary)
 
 
+@pytest.mark.slow
 def test_nu2_edge_polarises_beyond_a_smoothness_threshold_with_tiny_zeeman():
     # Hartree-Fock nu = 2 edge (Dempsey, Gelfand and Halperin, PRL 70, 3639
     # (1993), from memory; ../shared/REFERENCES.md section 9): with a
@@ -353,7 +356,7 @@ def test_nu2_edge_polarises_beyond_a_smoothness_threshold_with_tiny_zeeman():
     # coarse for this near-degenerate competition), hence 80 here.
     s = _scenario(fermi__gap=2, spin__zeeman=0.002, ribbon__width=80, interaction__k_points=80,
                   interaction__starts=["polarised", "unpolarised"], interaction__scan_widths=[4.0, 8.0])
-    i = run_interacting(s).summary["interaction"]
+    i = run_interacting(s).summary.to_dict()["interaction"]
     rows = {row["width_a"]: row for row in i["scan"]}
     lb = i["magnetic_length_a"]
 
@@ -367,6 +370,7 @@ def test_nu2_edge_polarises_beyond_a_smoothness_threshold_with_tiny_zeeman():
     assert rows[4.0]["best_start"] == "unpolarised" and rows[8.0]["best_start"] == "polarised"
 
 
+@pytest.mark.slow
 def test_smearing_temperature_accepts_any_grid():
     # With k_B T > 0 the occupations are Fermi-Dirac at the chemical
     # potential that holds the electron number: an N_k with a fractional
@@ -374,24 +378,25 @@ def test_smearing_temperature_accepts_any_grid():
     # about; the run stays neutral and E_F is the chemical potential.
     result = run_interacting(_scenario(interaction__temperature=0.002, interaction__k_points=32,
                                        interaction__starts=["polarised"]))
-    i = result.summary["interaction"]
-    assert i["converged"] and i["k_points"] == 32 and not result.summary["warnings"]
+    i = result.summary.to_dict()["interaction"]
+    assert i["converged"] and i["k_points"] == 32 and not result.summary.warnings
     assert abs(i["neutrality_error"]) < 1e-9
     assert result.fermi_energy == pytest.approx(result.interacting.main.best.mu)
     zero = run_interacting(_scenario(interaction__k_points=32, interaction__starts=["polarised"]))
-    assert any("not a whole number" in w and "interaction.k_points = 40" in w for w in zero.summary["warnings"])
+    assert any("not a whole number" in w and "interaction.k_points = 40" in w for w in zero.summary.warnings)
 
 
+@pytest.mark.slow
 def test_near_degenerate_starts_are_warned_about():
     # nu = 2, tiny Zeeman, w = 8 rows on 40 momenta: the polarised and
     # unpolarised starts end in different states 4e-4 t per cell apart (the
     # grid decides between them; see the test above), which the run says.
-    from topoedge.outputs.results import format_summary
+    from topoedge.outputs.report import format_summary
 
     s = _scenario(fermi__gap=2, spin__zeeman=0.002, ribbon__width=80, interaction__k_points=40,
                   interaction__starts=["polarised", "unpolarised"],
                   interaction__background={"width": 8.0, "setback": 2.0})
     result = run_interacting(s)
-    (warning,) = result.summary["warnings"]
+    (warning,) = result.summary.warnings
     assert "ends in a different state only" in warning and "larger interaction.k_points" in warning
     assert warning.startswith("background width 8: ") and f"warning      {warning}" in format_summary(result.summary)

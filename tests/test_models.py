@@ -234,9 +234,10 @@ def test_zero_field_presets_run_from_a_scenario(lattice, chern):
     assert result.gap.chern == chern
     assert result.edges.in_gap, result.edges.message
     assert result.edges.bottom.net == chern and result.edges.top.net == -chern
-    assert result.summary["check"]["bulk_edge_agree"] and result.summary["check"]["routes_agree"]
-    assert result.summary["hall"]["streda_error"].startswith("no Streda route for the zero-field")
-    assert result.summary["model"]["lattice"] == lattice["kind"]
+    s = result.summary
+    assert s.check.bulk_edge_agree and s.check.routes_agree
+    assert s.hall.streda_error.startswith("no Streda route for the zero-field")
+    assert s.model.lattice == lattice["kind"]
 
 
 def test_zero_field_preset_with_a_smooth_edge_keeps_its_net_chirality():

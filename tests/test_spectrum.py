@@ -272,3 +272,28 @@ def test_spin_blocks_that_differ_beyond_a_shift_are_solved_separately():
     np.testing.assert_array_equal(spec.count, inside.sum(axis=1))
     for i in range(len(k)):
         np.testing.assert_allclose(spec.energy[i, : spec.count[i]], ref[i][inside[i]], rtol=0, atol=TOL)
+
+
+def test_divide_and_conquer_failure_of_a_tridiagonal_block_falls_back_to_mrrr(monkeypatch):
+    # LAPACK's dstevd reports info != 0 when divide and conquer does not
+    # converge; forced here at every momentum, the spectrum must come from the
+    # MRRR driver and equal the one divide and conquer gives.
+    import scipy.linalg.lapack as lapack
+
+    builder, params = _ribbon(30, spin=False, phi=0.1)
+    ham = RibbonHamiltonian.from_kwant(builder, params=params)
+    k = k_grid(7)
+    expected = ribbon_spectrum(ham, k)
+    dstevd, calls = lapack.dstevd, []
+
+    def failing(*args, **kwargs):
+        w, v, info = dstevd(*args, **kwargs)
+        calls.append(1)
+        return np.zeros_like(w), np.zeros_like(v), 1      # what a failed call leaves: unusable
+
+    monkeypatch.setattr(lapack, "dstevd", failing)
+    spec = ribbon_spectrum(ham, k)
+    assert expected.solver.startswith("tridiagonal") and len(calls) == len(k)
+    np.testing.assert_allclose(spec.energy, expected.energy, rtol=0, atol=TOL)
+    np.testing.assert_allclose(spec.velocity, expected.velocity, rtol=0, atol=1e-8)
+    np.testing.assert_allclose(spec.y_mean, expected.y_mean, rtol=0, atol=1e-8)

@@ -83,7 +83,7 @@ def test_routes_agree_through_the_pipeline(flux, gap, expected):
         "lattice": {"flux": flux}, "spin": {"enabled": False}, "ribbon": {"width": 12 * q + 40},
         "fermi": {"gap": gap}, "spectrum": {"k_points": 16}, "chern": {"refine": False},
     })
-    summary = run_scenario(scenario).summary
+    summary = run_scenario(scenario).summary.to_dict()
     routes = summary["hall"]["routes"]
     assert routes["chern"] == expected and routes["edge"] == expected
     assert routes["streda"] == pytest.approx(expected, abs=1e-9)

@@ -32,6 +32,7 @@ _PUBLIC = {
     # scenarios
     "Scenario": "scenario", "ConfigError": "scenario", "load_scenario": "scenario",
     "parse_scenario": "scenario", "lattice_scenario": "scenario", "key_docs": "scenario",
+    "resolve": "scenario", "Model": "scenario",
     # models
     "LATTICES": "models.lattices", "ribbon_builder": "models.square", "bulk_builder": "models.square",
     "model_params": "models.square", "honeycomb_ribbon_builder": "models.honeycomb",
@@ -47,15 +48,18 @@ _PUBLIC = {
     # solvers
     "ribbon_spectrum": "solvers.spectrum", "RibbonSpectrum": "solvers.spectrum", "k_grid": "solvers.spectrum",
     "chern_numbers": "solvers.chern", "builder_chern": "solvers.chern", "subspace_chern": "solvers.chern",
-    "ChernResult": "solvers.chern", "GapClosedError": "solvers.chern",
+    "ChernResult": "solvers.chern", "GapClosedError": "solvers.chern", "SubspaceChern": "solvers.chern",
     "landau_chern": "solvers.landau", "count_edge_modes": "solvers.edges", "find_crossings": "solvers.edges",
     "builder_edge_modes": "solvers.edges", "EdgeCount": "solvers.edges", "streda_slope": "solvers.streda",
     "hall_resistances": "solvers.transport", "disorder_average": "solvers.transport",
     "HartreeFockRibbon": "solvers.hartree_fock",
     # workflows
-    "run_scenario": "workflows", "RunResult": "workflows", "bulk_chern": "workflows",
+    "run_scenario": "workflows", "RunResult": "workflows", "RunSummary": "workflows",
+    "UnconvergedSummary": "workflows", "bulk_chern": "workflows",
     "run_interacting": "workflows.interacting", "compute_butterfly": "workflows.butterfly",
     "load_sweep": "workflows.sweep", "run_sweep": "workflows.sweep",
+    # results
+    "format_summary": "outputs.report", "write_run": "outputs.results",
 }
 
 __all__ = ["__version__", *_PUBLIC]

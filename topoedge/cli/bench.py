@@ -4,8 +4,7 @@ from __future__ import annotations
 
 import json
 from ..scenario import ConfigError, find_shipped, load_scenario
-from .common import require_support, say
-
+from .common import Command, require_support, say
 
 
 def cmd_bench(args) -> int:
@@ -164,3 +163,32 @@ def cmd_bench(args) -> int:
     return 0
 
 
+def add_arguments(parser) -> None:
+    """The arguments of ``topoedge bench`` (besides ``--set``, ``--json`` and ``--quiet``)."""
+    parser.add_argument("config", nargs="?", default=None, help="scenario TOML file (default: the shipped default)")
+    parser.add_argument("--width", type=int, default=400, help="sites across the ribbon per spin (default 400)")
+    parser.add_argument("--k-points", type=int, default=200, help="number of momenta (default 200)")
+    parser.add_argument("--window", type=float, default=0.5,
+                        help="half-width of the energy window around E_F, units of t (default 0.5)")
+    parser.add_argument("--chern-q", type=int, default=50,
+                        help="Chern benchmark at flux 1/q, spinless (default 50)")
+    parser.add_argument("--parts", default="ribbon,chern,landau,gaas,hallbar,hf,sweep",
+                        help="comma-separated benchmarks to run: ribbon, chern, landau, gaas, hallbar, hf, sweep "
+                             "(default all)")
+    parser.add_argument("--landau-q", default="200,1000,2000", metavar="Q,...",
+                        help="landau part: fluxes 1/q of the Landau-level Chern benchmark (default 200,1000,2000); "
+                             "the dense route runs at the smallest (at most 200), half and a quarter of it (at least 12)")
+    parser.add_argument("--gaas", default=None, metavar="SCENARIO",
+                        help="gaas part: the GaAs scenario run at 1 T and 10 T (default: the shipped gaas-1T)")
+    parser.add_argument("--sweep", default=None, metavar="SWEEP",
+                        help="sweep file of the sweep part, run with 1 and with 2 workers "
+                             "(default: the shipped nu2-width-zeeman)")
+    parser.add_argument("--hf-size", default="200x256", metavar="WxNK",
+                        help="Hartree-Fock benchmark: rows per spin x momenta (default 200x256)")
+    parser.add_argument("--bars", default=None, metavar="LxW,...",
+                        help="Hall-bar sizes in sites for the hallbar part (default: the scenario's "
+                             "bar and the bars 2x and 4x larger)")
+
+
+#: ``topoedge bench`` in the command registry of :mod:`topoedge.cli`.
+COMMAND = Command(help="side-by-side timings: ribbon spectrum vs kwant.physics.Bands, Chern numbers " "vs bare diagonalisation, Hall bar with MUMPS vs SciPy", add_arguments=add_arguments, run=cmd_bench)

@@ -6,9 +6,8 @@ import json
 import sys
 import time
 from pathlib import Path
-from ..scenario import resolve, ConfigError, load_scenario
-from .common import require_support, say
-
+from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario, resolve
+from .common import Command, require_support, say
 
 
 def cmd_butterfly(args) -> int:
@@ -57,3 +56,24 @@ def cmd_butterfly(args) -> int:
     return 0
 
 
+def add_arguments(parser) -> None:
+    """The arguments of ``topoedge butterfly`` (besides ``--set``, ``--json`` and ``--quiet``)."""
+    parser.add_argument("config", nargs="?", default=None,
+                        help="scenario TOML file for spin.enabled, spin.zeeman and lattice.onsite "
+                             f"(default: {DEFAULT_SCENARIO.name}; lattice.flux is not used)")
+    parser.add_argument("--q-max", type=int, default=40,
+                        help="largest flux denominator q, 1 to 200 (default 40)")
+    parser.add_argument("--min-gap", type=float, default=0.02,
+                        help="label and draw only gaps wider than this, units of t (default 0.02, "
+                             "about 2 pixels of the figure)")
+    parser.add_argument("--jobs", type=int, default=None,
+                        help="worker processes (default: all cores)")
+    parser.add_argument("--full-grid", action="store_true",
+                        help="Chern numbers on the 2q x 2q grid of the run command instead of 2q x 8 (slower)")
+    parser.add_argument("--out", type=Path, default=None,
+                        help="results folder (default: results/butterfly-<date-time>)")
+    parser.add_argument("--force", action="store_true", help="replace an existing results folder")
+
+
+#: ``topoedge butterfly`` in the command registry of :mod:`topoedge.cli`.
+COMMAND = Command(help="flux-energy spectrum with every gap labelled by its Chern number", add_arguments=add_arguments, run=cmd_butterfly)

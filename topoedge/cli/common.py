@@ -1,9 +1,11 @@
-"""TODO docstring."""
+"""What every command shares: exit statuses, the results-folder name, range arguments, messages."""
 
 from __future__ import annotations
 
 import argparse
 import time
+from collections.abc import Callable
+from dataclasses import dataclass
 from pathlib import Path
 from ..scenario import DEFAULT_SCENARIO, ConfigError
 
@@ -13,6 +15,20 @@ EXIT_BAD_INPUT = 2
 
 #: A self-consistent run that wrote its results but did not converge everywhere.
 EXIT_NOT_CONVERGED = 1
+
+
+@dataclass(frozen=True)
+class Command:
+    """One subcommand: its one-line help, what adds its arguments to its parser, and what runs it.
+
+    ``run(args)`` returns the exit status; bad input raises
+    :class:`topoedge.scenario.ConfigError` (or another error :func:`topoedge.cli.main`
+    turns into one line and status 2) before anything heavy is allocated.
+    """
+
+    help: str
+    add_arguments: Callable[[argparse.ArgumentParser], None]
+    run: Callable[[argparse.Namespace], int]
 
 
 class Parser(argparse.ArgumentParser):

@@ -2,11 +2,11 @@
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
-from ..scenario import resolve, DEFAULT_SCENARIO, ConfigError, load_scenario
-from .common import default_out, require_support, say, scan_range
 
+from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario, resolve
+from ..util.jsonio import dumps
+from .common import Command, default_out, require_support, say, scan_range
 
 
 def cmd_hallbar(args) -> int:
@@ -28,10 +28,10 @@ def cmd_hallbar(args) -> int:
         if fields[0] * fields[1] <= 0:
             raise ConfigError(f"hallbar --fields: got {args.fields!r}; expected a range of one sign without 0 T")
     out = args.out if args.out is not None else default_out(f"hallbar-{Path(args.config or DEFAULT_SCENARIO).stem}")
-    from ..util.atomic import check_destination, write_folder, write_json
+    from ..util.atomic import check_destination
 
     check_destination(out, force=args.force)
-    from ..workflows import bulk_chern, fermi_level, hallbar_field_scan, hallbar_scan, replace_chern_refine
+    from ..workflows import default_energies, hallbar_field_scan, hallbar_scan
 
     resolved = resolve(scenario)            # once; the workflows receive the model
     model = resolved.scenario
@@ -43,63 +43,23 @@ def cmd_hallbar(args) -> int:
             scan = hallbar_field_scan(resolved, np.linspace(*fields), jobs=args.jobs, progress=progress)
         except ValueError as err:
             raise ConfigError(f"hallbar --fields: {err}") from None
-        axis, units = "b_tesla", ("B in tesla along +z for B > 0 (b_lattice_tesla: the field of the lattice flux, "
-                                  "within field.tolerance); E_F fixed "
-                                  "(fermi_t in t, fermi_mev above the band bottom)")
+        axis = "b_tesla"
     else:
-        if window is None:
-            chern, _, _ = bulk_chern(replace_chern_refine(model))
-            ef, _ = fermi_level(model, chern)
-            bottom = min(b.energy_min for b in chern.bands)
-            window = (bottom, ef + 1.5 * (ef - bottom), 41)
-        scan = hallbar_scan(resolved, np.linspace(*window), progress=progress)
-        axis, units = "energy", "E_F in t"
-    from ..scenario.units import VON_KLITZING
-
-    for key in ("r_xy", "r_xx"):  # the same resistances in ohm (R_K = h/e^2, CODATA)
-        scan[f"{key}_ohm"] = [None if v is None or v != v else v * VON_KLITZING for v in scan[key]]
-    summary = {"title": scenario.title, "source": scenario.source, "config": scenario.to_dict(),
-               "units": f"{units}; r_xy, r_xx in h/e^2 (per spin: r_xy_up, ...), r_xy_ohm, r_xx_ohm in ohm; "
-                        "R_xy = -1/sigma_xy; r_xy_bulk = -1/C from the bulk Chern sum", **scan}
-    summary = json.loads(json.dumps(summary).replace("NaN", "null"))
-
+        energies = np.linspace(*window) if window is not None else default_energies(resolved)
+        scan = hallbar_scan(resolved, energies, progress=progress)
+        axis = "energy"
     import matplotlib
 
     matplotlib.use("Agg")
-    import h5py
-    import matplotlib.pyplot as plt
+    from ..outputs.hallbar import hallbar_summary, write_hallbar
 
-    from ..plotting import hallbar_figure
-
+    summary = hallbar_summary(scenario, scan, axis)
     where = (f"flux {model.lattice.flux}" if fields is None
              else f"E_F = {scan['fermi_mev']:.3f} meV above the band bottom")
-
-    def figure(path: Path) -> None:
-        fig = hallbar_figure(scan, axis=axis, title=f"{scenario.title or 'Hall bar'}: {model.hallbar.length}x"
-                             f"{model.hallbar.width} sites, {where}")
-        try:
-            fig.savefig(path, dpi=150)
-        finally:
-            plt.close(fig)
-
-    def h5(path: Path) -> None:
-        with h5py.File(path, "w") as f:
-            for key, value in scan.items():
-                if key == "errors" or not isinstance(value, list):
-                    continue
-                if key == "flux":
-                    f.create_dataset(key, data=np.array(value, dtype="S"))
-                else:
-                    f.create_dataset(key, data=np.array([np.nan if v is None else v for v in value], dtype=float))
-            for key in ("fermi_t", "fermi_mev"):
-                if key in scan:
-                    f.attrs[key] = scan[key]
-            f.attrs["scenario_json"] = json.dumps(scenario.to_dict(), sort_keys=True)
-            f.attrs["units"] = summary["units"]
-
-    write_folder(out, {"summary.json": write_json(summary), "hallbar.h5": h5, "hallbar.png": figure}, force=args.force)
+    write_hallbar(out, scenario, scan, summary, axis=axis, force=args.force,
+                  title=f"{scenario.title or 'Hall bar'}: {model.hallbar.length}x{model.hallbar.width} sites, {where}")
     if args.json:
-        print(json.dumps(summary, indent=2))
+        print(dumps(summary, indent=2))
     xs = scan[axis]
     ok = sum(1 for r in scan["r_xy"] if r == r)
     what = "Fermi energies" if fields is None else "fields"
@@ -111,3 +71,19 @@ def cmd_hallbar(args) -> int:
     return 0
 
 
+def add_arguments(parser) -> None:
+    """The arguments of ``topoedge hallbar`` (besides ``--set``, ``--json`` and ``--quiet``)."""
+    parser.add_argument("config", nargs="?", default=None, help="scenario TOML file (default: the shipped default)")
+    parser.add_argument("--energies", default=None, metavar="LO:HI:N",
+                        help="E_F from LO to HI (t) in N steps (default: from the band bottom to 1.5 (E_F - bottom) above it, 41 steps)")
+    parser.add_argument("--fields", default=None, metavar="LO:HI:N",
+                        help="instead of E_F, scan the field from LO to HI tesla in N steps at fixed E_F "
+                             "(scenarios with [material] and [field])")
+    parser.add_argument("--jobs", type=int, default=None,
+                        help="with --fields: worker processes for the bulk Chern numbers (default: all cores)")
+    parser.add_argument("--out", type=Path, default=None, help="results folder (default: results/hallbar-<date-time>)")
+    parser.add_argument("--force", action="store_true", help="replace an existing results folder")
+
+
+#: ``topoedge hallbar`` in the command registry of :mod:`topoedge.cli`.
+COMMAND = Command(help="Hall and longitudinal resistance of the scenario's Hall bar over a range of E_F", add_arguments=add_arguments, run=cmd_hallbar)

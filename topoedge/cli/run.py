@@ -2,16 +2,17 @@
 
 from __future__ import annotations
 
-import json
 import sys
 from pathlib import Path
-from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario
-from .common import EXIT_NOT_CONVERGED, default_out, say
 
+from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario
+from ..util.jsonio import dumps
+from .common import EXIT_NOT_CONVERGED, Command, default_out, say
 
 
 def cmd_run(args) -> int:
-    from ..outputs.results import format_summary, read_restart, write_run
+    from ..outputs.report import format_summary
+    from ..outputs.results import read_restart, write_run
     from ..util.atomic import check_destination
 
     if not (args.checkpoint_every >= 0 and args.checkpoint_every < float("inf")):
@@ -93,7 +94,7 @@ def cmd_run(args) -> int:
     if checkpoint_path is not None:
         checkpoint_path.unlink(missing_ok=True)  # its states are in the folder's restart.h5
     if args.json:
-        print(json.dumps(result.summary, indent=2))
+        print(dumps(result.summary, indent=2))
     say(args, format_summary(result.summary))
     files = ["summary.json"] + (["spectrum.h5"] if result.spectrum is not None else [])
     if result.interacting is not None:
@@ -127,7 +128,7 @@ def interacting_figures(result) -> dict:
     figures["hartree_fock.png"] = profiles
     if run.scan:
         def scan(_):
-            return edge_scan_figure(result.summary["interaction"]["scan"], magnetic_length=run.magnetic_length,
+            return edge_scan_figure(result.summary.interaction.scan, magnetic_length=run.magnetic_length,
                                     title=f"{result.scenario.title or 'scenario'}\nself-consistent bottom edge "
                                           f"against the background width (flux {result.scenario.lattice.flux}, "
                                           f"U_C = {run.interaction.coulomb:.3g} t)")
@@ -136,3 +137,19 @@ def interacting_figures(result) -> dict:
     return figures
 
 
+def add_arguments(parser) -> None:
+    """The arguments of ``topoedge run`` (besides ``--set``, ``--json`` and ``--quiet``)."""
+    parser.add_argument("config", nargs="?", default=None, help=f"scenario TOML file or the name of a shipped scenario (default: {DEFAULT_SCENARIO.stem})")
+    parser.add_argument("--out", type=Path, default=None,
+                        help="results folder (default: results/<scenario>-<date-time>)")
+    parser.add_argument("--force", action="store_true", help="replace an existing results folder")
+    parser.add_argument("--checkpoint-every", type=float, default=20.0, metavar="SECONDS",
+                        help="with [interaction]: store the self-consistent states in <out>.checkpoint.h5 at most "
+                             "this often while iterating, and after every start (default 20)")
+    parser.add_argument("--restart", type=Path, default=None, metavar="FILE",
+                        help="with [interaction]: continue from a restart.h5 of a results folder or the "
+                             "<out>.checkpoint.h5 of an interrupted run")
+
+
+#: ``topoedge run`` in the command registry of :mod:`topoedge.cli`.
+COMMAND = Command(help="compute a scenario and write a results folder", add_arguments=add_arguments, run=cmd_run)

@@ -7,8 +7,7 @@ import json
 import sys
 from pathlib import Path
 from ..scenario import ConfigError
-from .common import say
-
+from .common import Command, say
 
 
 def cmd_sweep(args) -> int:
@@ -82,3 +81,19 @@ def cmd_sweep(args) -> int:
     return 0
 
 
+def add_arguments(parser) -> None:
+    """The arguments of ``topoedge sweep`` (besides ``--set``, ``--json`` and ``--quiet``)."""
+    parser.add_argument("sweep_file", metavar="SWEEP", help="sweep TOML file (base scenario and axes)")
+    parser.add_argument("--out", type=Path, default=None,
+                        help="sweep folder (default: sweeps/<sweep file stem>); running again continues it")
+    parser.add_argument("--jobs", type=int, default=None, help="worker processes (default: all cores)")
+    parser.add_argument("--executor", choices=("local", "dask"), default=None,
+                        help="local: worker processes here (default); dask: a dask.distributed LocalCluster "
+                             "(the default with --scheduler)")
+    parser.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                        help="run on the dask.distributed scheduler at ADDRESS (e.g. tcp://10.0.0.5:8786)")
+    parser.add_argument("--retry-failed", action="store_true", help="run again the points recorded as failed")
+
+
+#: ``topoedge sweep`` in the command registry of :mod:`topoedge.cli`.
+COMMAND = Command(help="run a scenario over a grid of parameter values (resumable), with table and maps", add_arguments=add_arguments, run=cmd_sweep)

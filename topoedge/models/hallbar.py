@@ -1,4 +1,4 @@
-"""Six-terminal Hall bar and its Landauer-Buttiker resistances (model description).
+"""Six-terminal Hall bar geometry as a kwant builder (model description; its resistances: :mod:`topoedge.solvers.transport`).
 
 The Hall bar is a ``length x width`` rectangle of the square lattice (sites
 ``x = 0 .. length-1``, ``y = 0 .. width-1``, lattice constant ``a = 1``) with

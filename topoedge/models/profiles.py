@@ -67,6 +67,8 @@ def _table(distance, *, width, height, table):
     return np.interp(distance, points[:, 0], points[:, 1])
 
 
+#: Every edge profile, by ``ribbon.edge.profile``: ``f(distance, *, width, height, table)`` gives the
+#: potential in t at distances from the outermost row in lattice constants.
 EDGE_PROFILES: dict[str, Callable[..., np.ndarray]] = {
     "none": _none,
     "linear": _linear,

@@ -9,7 +9,6 @@ from ..models.lattices import lattice
 from .style import Display, display_units, title_of
 
 
-
 def plot_bulk_bands(path: dict, chern, *, ax, fermi_energy: float | None = None,
                     energy_range: tuple[float, float] | None = None, display: Display | None = None):
     """Bulk bands along Gamma-X-M-Gamma with each band's Chern number beside it.

@@ -8,7 +8,6 @@ from ..solvers.spectrum import RibbonSpectrum
 from .ribbon import plot_edge_modes, plot_ribbon_spectrum
 
 
-
 def hartree_fock_figure(result, *, flux: float, spectrum: RibbonSpectrum | None = None, edges=None,
                         fermi_energy: float | None = None, title: str = "", runs=()):
     """Self-consistent ribbon: filling profiles, Hartree potential, bands and convergence.
@@ -80,14 +79,15 @@ def hartree_fock_figure(result, *, flux: float, spectrum: RibbonSpectrum | None 
     return fig
 
 
-def edge_scan_figure(scan: list[dict], *, magnetic_length: float, title: str = ""):
+def edge_scan_figure(scan, *, magnetic_length: float, title: str = ""):
     """Edge modes of the self-consistent bottom edge against the background width.
 
     Parameters
     ----------
-    scan : list of dict
-        The ``interaction.scan`` rows of a run summary (widths in a, every
-        mode's distance from the boundary, spin and direction).
+    scan : sequence of WidthSolution
+        The ``interaction.scan`` of a run summary
+        (:class:`topoedge.workflows.interacting_records.WidthSolution`: widths in a
+        and l_B, every mode's distance from the boundary, spin and direction).
     magnetic_length : float
         ``l_B`` in lattice constants (the second horizontal axis).
     title : str
@@ -104,22 +104,22 @@ def edge_scan_figure(scan: list[dict], *, magnetic_length: float, title: str = "
                                        gridspec_kw={"height_ratios": [3, 1.3]})
     colours = {"up": "C3", "down": "C0", None: "0.4"}
     markers = {"up": "^", "down": "v", None: "o"}
-    rows = sorted((r for r in scan if r["converged"]), key=lambda r: r["width_a"])
+    rows = sorted((r for r in scan if r.converged), key=lambda r: r.width_a)
     for row in rows:
-        x = row["width_lB"]
-        for m in row["bottom"]["order"]:
-            c = colours[m["spin"]]
-            modes.scatter([x], [m["distance_lB"]], marker=markers[m["spin"]], s=55, zorder=3, edgecolors=c,
-                          facecolors=c if m["direction"] == "+x" else "white", linewidths=1.3)
-    half = [(r["width_lB"], r["background_half_a"] / magnetic_length) for r in rows
-            if r.get("background_half_a") is not None]
+        x = row.width_lB
+        for m in row.bottom.order:
+            c = colours[m.spin]
+            modes.scatter([x], [m.distance_lB], marker=markers[m.spin], s=55, zorder=3, edgecolors=c,
+                          facecolors=c if m.direction == "+x" else "white", linewidths=1.3)
+    half = [(r.width_lB, r.background_half_a / magnetic_length) for r in rows
+            if r.background_half_a is not None]
     if half:
         modes.plot(*zip(*half), "--", color="0.6", lw=1, zorder=1)
     for spin, dx in (("up", -0.04), ("down", 0.04)):
-        xs = [r["width_lB"] + dx for r in rows]
-        ys = [r["bottom"]["by_spin"].get(spin, {}).get("counter_pairs", 0) for r in rows]
+        xs = [r.width_lB + dx for r in rows]
+        ys = [r.bottom.by_spin.get(spin, {}).get("counter_pairs", 0) for r in rows]
         pairs.bar(xs, ys, width=0.08, color=colours[spin], label=f"spin {spin}")
-    failed = [r["width_lB"] for r in scan if not r["converged"]]
+    failed = [r.width_lB for r in scan if not r.converged]
     for x in failed:
         modes.axvline(x, color="0.7", ls=":", lw=1)
     handles = [Line2D([], [], ls="", marker="^", ms=8, color="C3", label="spin up"),
@@ -136,7 +136,7 @@ def edge_scan_figure(scan: list[dict], *, magnetic_length: float, title: str = "
     pairs.set_ylabel("counter-propagating\npairs")
     pairs.set_xlabel(r"background width $w$ ($l_B$)")
     pairs.legend(fontsize=8)
-    most = max((r["bottom"]["counter_pairs"] for r in rows), default=0)
+    most = max((r.bottom.counter_pairs for r in rows), default=0)
     pairs.set_ylim(0, most + 0.6)
     pairs.set_yticks(range(most + 1))
     top = modes.secondary_xaxis("top", functions=(lambda x: x * magnetic_length,

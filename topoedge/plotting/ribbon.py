@@ -10,7 +10,6 @@ from ..solvers.spectrum import RibbonSpectrum
 from .style import EDGE_COLOURS, SPIN_MARKERS, Display, default_energy_range, display_units, ribbon_geometry, title_of
 
 
-
 def plot_ribbon_spectrum(
     spec: RibbonSpectrum,
     *,
@@ -166,10 +165,10 @@ def ribbon_figure(result):
         twin.set_ylabel(rf"$\langle y \rangle / l_B$ ($l_B$ = {lb:.3g} {d.length_unit})")
     s = result.summary
     hall = ""
-    if s["hall"]["r_xy_ohm"] is not None and d.physical:
-        hall = f", $R_{{xy}}$ = {s['hall']['r_xy_ohm'] / 1e3:.3f} k$\\Omega$"
-    ax.set_title(f"{title_of(result)}\nC = {s['bulk']['chern_below_fermi']}, edge net "
-                 f"{s['edges']['bottom']['net']:+d} (bottom) / {s['edges']['top']['net']:+d} (top){hall}",
+    if s.hall.r_xy_ohm is not None and d.physical:
+        hall = f", $R_{{xy}}$ = {s.hall.r_xy_ohm / 1e3:.3f} k$\\Omega$"
+    ax.set_title(f"{title_of(result)}\nC = {s.bulk.chern_below_fermi}, edge net "
+                 f"{s.edges.bottom.net:+d} (bottom) / {s.edges.top.net:+d} (top){hall}",
                  fontsize=9)
     return fig
 

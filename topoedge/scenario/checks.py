@@ -16,7 +16,6 @@ from .schema import fraction_text
 __all__ = ["check_combinations", "ribbon_span", "derive_units", "MATERIAL_KEYS"]
 
 
-
 def check_combinations(s: Scenario) -> None:
     """Constraints that involve more than one key."""
     edge, width = s.ribbon.edge, s.ribbon.width

@@ -25,7 +25,6 @@ from .sections import SECTIONS, ConfigError, Scenario
 __all__ = ["load_scenario", "parse_scenario", "apply_overrides", "shipped", "find_shipped", "DATA_DIR", "SCENARIOS_DIR", "DEFAULT_SCENARIO", "PRESETS_DIR"]
 
 
-
 #: The shipped scenarios, presets and sweeps (package data, read through importlib.resources).
 DATA_DIR = Path(str(resources.files("topoedge").joinpath("data")))
 

@@ -48,7 +48,6 @@ def resolve(scenario: Scenario | Model) -> Model:
     return Model(given=scenario, scenario=lattice, units=units)
 
 
-
 def lattice_scenario(s: Scenario) -> tuple[Scenario, Derived | None]:
     """The scenario in lattice units, with what was derived from physical units.
 

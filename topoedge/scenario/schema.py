@@ -15,15 +15,14 @@ import json
 import math
 import numbers
 import re
-from collections.abc import Callable, Mapping
+from collections.abc import Callable
 from dataclasses import dataclass, fields
 from fractions import Fraction
 from typing import Any
-from .sections import (BACKGROUND_PROFILES, EDGE_PROFILES, LATTICES, MIXINGS, ORIENTATIONS, SOLVERS,
-                       START_STATES, SECTIONS, ConfigError, Scenario)
+from .sections import (BACKGROUND_PROFILES, EDGE_PROFILES, LATTICES, MIXINGS, ORIENTATIONS, SECTIONS, SOLVERS,
+                       START_STATES, ConfigError, Scenario, fraction_text, lookup, plain)
 
 __all__ = ["Key", "KEYS", "TOML_TYPES", "convert", "convert_key", "key_paths", "key_docs", "children", "join_path", "unknown_key", "show", "plain", "lookup", "fraction_text"]
-
 
 
 @dataclass(frozen=True)
@@ -409,26 +408,6 @@ def unknown_key(path: str) -> ConfigError:
     where = f"the keys of [{prefix}]" if prefix else "the top-level keys"
     valid = ", ".join(map(repr, children(prefix)))
     return ConfigError(f"{path}: unknown key; expected one of {where}: {valid}")
-
-
-def plain(value: Any) -> Any:
-    """Copy with mappings as dicts and sequences as lists; flux as "p/q"."""
-    if isinstance(value, Mapping):
-        return {k: plain(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [plain(v) for v in value]
-    return fraction_text(value) if isinstance(value, Fraction) else value
-
-
-def fraction_text(value: Fraction) -> str:
-    return f"{value.numerator}/{value.denominator}"
-
-
-def lookup(scenario: Scenario, path: str) -> Any:
-    value: Any = scenario
-    for name in path.split("."):
-        value = getattr(value, name)
-    return value
 
 
 def key_docs() -> list[tuple[str, str, str, str, str]]:

@@ -25,13 +25,14 @@ import dataclasses
 import re
 from dataclasses import dataclass
 from fractions import Fraction
+from collections.abc import Mapping
 from typing import Any
 
 from ..models.profiles import EDGE_PROFILES as _PROFILE_REGISTRY
 from ..models.lattices import LATTICES as _REGISTRY
 from ..models.lattices import zero_field_kinds
 
-__all__ = ["ConfigError", "Scenario", "LatticeConfig", "SpinConfig", "EdgeConfig", "RibbonConfig", "SpectrumConfig", "FermiConfig", "ChernConfig", "EdgesConfig", "MaterialConfig", "FieldConfig", "HallbarConfig", "BackgroundConfig", "InteractionConfig", "SECTIONS", "EDGE_PROFILES", "SOLVERS", "LATTICES", "ZERO_FIELD", "ORIENTATIONS", "START_STATES", "MIXINGS", "BACKGROUND_PROFILES"]
+__all__ = ["ConfigError", "Scenario", "LatticeConfig", "SpinConfig", "EdgeConfig", "RibbonConfig", "SpectrumConfig", "FermiConfig", "ChernConfig", "EdgesConfig", "MaterialConfig", "FieldConfig", "HallbarConfig", "BackgroundConfig", "InteractionConfig", "SECTIONS", "EDGE_PROFILES", "SOLVERS", "LATTICES", "ZERO_FIELD", "ORIENTATIONS", "START_STATES", "MIXINGS", "BACKGROUND_PROFILES", "plain", "fraction_text", "lookup"]
 
 # The edge profiles are registered where they are defined (one list, no drift).
 EDGE_PROFILES = tuple(_PROFILE_REGISTRY)
@@ -424,22 +425,50 @@ class Scenario:
         ``parse_scenario(s.to_dict()) == s``. With ``field.b_tesla`` the keys
         it derives (flux, Zeeman, Fermi level) are left out too.
         """
-        from .schema import KEYS, lookup, plain
-
         derived = ({"lattice.flux", "spin.zeeman", "fermi.energy", "fermi.gap"}
                    if self.field.b_tesla is not None else set())
         if self.interaction == InteractionConfig():  # no interaction: leave the section out
-            derived |= {path for path in KEYS if path.startswith("interaction.")}
-        out: dict[str, Any] = {}
-        for path in KEYS:
-            value = plain(lookup(self, path))
-            if value is not None and path not in derived:
-                *sections, name = path.split(".")
-                table = out
-                for section in sections:
-                    table = table.setdefault(section, {})
-                table[name] = value
-        return out
+            derived.add("interaction")
+        return _plain_fields(self, "", derived)
+
+
+def _plain_fields(section: Any, prefix: str, derived: set[str]) -> dict[str, Any]:
+    """The keys of a section in declaration order (the schema's order), values as TOML values."""
+    out: dict[str, Any] = {}
+    for f in dataclasses.fields(section):
+        path = f"{prefix}.{f.name}" if prefix else f.name
+        if f.name == "source" or path in derived:
+            continue
+        value = getattr(section, f.name)
+        if dataclasses.is_dataclass(value):
+            table = _plain_fields(value, path, derived)
+            if table:
+                out[f.name] = table
+        elif value is not None:
+            out[f.name] = plain(value)
+    return out
+
+
+def plain(value: Any) -> Any:
+    """Copy with mappings as dicts and sequences as lists; flux as "p/q"."""
+    if isinstance(value, Mapping):
+        return {k: plain(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [plain(v) for v in value]
+    return fraction_text(value) if isinstance(value, Fraction) else value
+
+
+def fraction_text(value: Fraction) -> str:
+    """A fraction as the string "p/q"."""
+    return f"{value.numerator}/{value.denominator}"
+
+
+def lookup(scenario: Scenario, path: str) -> Any:
+    """The value at a dotted key path (``"ribbon.edge.width"``) of a scenario."""
+    value: Any = scenario
+    for name in path.split("."):
+        value = getattr(value, name)
+    return value
 
 
 SECTIONS: dict[str, type] = {
@@ -451,98 +480,5 @@ SECTIONS: dict[str, type] = {
     "hallbar": HallbarConfig,
     "interaction": InteractionConfig, "interaction.background": BackgroundConfig,
 }
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
 
 

@@ -222,6 +222,11 @@ class Derived:
     def cyclotron_t(self) -> float:
         return self.cyclotron_mev / self.hopping_mev
 
+    @property
+    def field_direction(self) -> str:
+        """``"+z"`` for ``b_tesla > 0`` (the field along +z), else ``"-z"``."""
+        return "+z" if self.b_tesla > 0 else "-z"
+
     def to_dict(self) -> dict:
         return {
             "hopping_mev": self.hopping_mev,
@@ -233,7 +238,7 @@ class Derived:
             "b_lattice_tesla": self.b_lattice_tesla,
             "b_relative_error": self.b_relative_error,
             "tolerance": self.tolerance,
-            "field_direction": "+z" if self.b_tesla > 0 else "-z",
+            "field_direction": self.field_direction,
             "zeeman_t": self.zeeman_t,
             "zeeman_mev": self.zeeman_mev,
             "magnetic_length_nm": self.magnetic_length_nm,

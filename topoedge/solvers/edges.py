@@ -22,6 +22,8 @@ bulk gap is ``+t_r`` of the Diophantine equation ``r = q s_r + p t_r``,
 field flips both. In the Landau-level gaps at small ``phi`` (``t_r = r``)
 the bottom-edge modes therefore move along ``+x`` (``dE/dk > 0``).
 
+The crossing search itself and its references: :mod:`topoedge.solvers.crossings`.
+
 References
 ----------
 .. [1] D. J. Thouless, M. Kohmoto, M. P. Nightingale and M. den Nijs,
@@ -29,14 +31,6 @@ References
    Phys. Rev. Lett. 49, 405 (1982).
 .. [2] Y. Hatsugai, "Chern number and edge states in the integer quantum Hall
    effect", Phys. Rev. Lett. 71, 3697 (1993).
-.. [3] H. Weyl, "Das asymptotische Verteilungsgesetz der Eigenwerte linearer
-   partieller Differentialgleichungen", Math. Ann. 71, 441 (1912).
-.. [4] W. Barth, R. S. Martin and J. H. Wilkinson, "Calculation of the
-   eigenvalues of a symmetric tridiagonal matrix by the method of bisection",
-   Numer. Math. 9, 386 (1967).
-.. [5] R. P. Brent, *Algorithms for Minimization without Derivatives*
-   (Prentice-Hall, 1973), chapters 4 and 5.
-.. [6] R. P. Feynman, "Forces in molecules", Phys. Rev. 56, 340 (1939).
 """
 
 from __future__ import annotations
@@ -53,10 +47,7 @@ __all__ = ["EdgeMode", "EdgeSummary", "EdgeCount", "RibbonModes", "find_crossing
            "builder_edge_modes"]
 
 
-
 # ------------------------------------------------------------------ results
-
-
 
 
 @dataclass(frozen=True)
@@ -138,46 +129,7 @@ class EdgeCount:
         }
 
 
-# ----------------------------------------------------------- spin sectors
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-# ----------------------------------------------------- brackets and roots
-
-
-
-
-
-
-
-
-
-
-
-
-
-
 # ------------------------------------------------------------- public API
-
-
-
-
 
 
 def _net(modes) -> tuple[int, int]:

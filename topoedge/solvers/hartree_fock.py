@@ -76,16 +76,6 @@ START_STATES = ("unpolarised", "polarised", "edge", "random")
 from .coulomb import Interaction, line_kernel, pair_kernel
 
 
-
-
-
-
-
-
-
-
-
-
 @dataclass(frozen=True, eq=False)
 class HFResult:
     """One self-consistent (or stopped) Hartree-Fock solution.

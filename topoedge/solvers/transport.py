@@ -1,45 +1,10 @@
 """Six-terminal Hall bar and its Landauer-Buttiker resistances (solver).
 
-The Hall bar is a ``length x width`` rectangle of the square lattice (sites
-``x = 0 .. length-1``, ``y = 0 .. width-1``, lattice constant ``a = 1``) with
-six semi-infinite leads::
+The geometry (lead numbering clockwise from the source: 0 source, 1 and 2
+the top probes, 3 drain, 4 and 5 the bottom probes), the two gauges and the
+value functions are described in :mod:`topoedge.models.hallbar`, which
+builds the bar.
 
-            1 (top left)    2 (top right)
-             |  |            |  |
-      0  ====+--+------------+--+====  3
-   (source)  |                  |   (drain)
-      ====  -+--+------------+--+-  ====
-             |  |            |  |
-            5 (bottom left) 4 (bottom right)
-
-Lead numbering: 0 source (left, along ``-x``), 1 and 2 the top probes from
-left to right (along ``+y``), 3 drain (right, along ``+x``), 4 and 5 the
-bottom probes from right to left (along ``-y``); i.e. clockwise from the
-source. The source and drain are ``lead_width`` rows wide, centred on the
-bar; the probes are ``probe_width`` columns wide and start at the columns
-``probe_positions``.
-
-Magnetic field. The leads carry the same uniform field as the bar, with the
-counter-clockwise plaquette phase ``+2 pi phi`` of :mod:`topoedge.models.square`
-(``H[i, j] = -t exp(i theta_ij)``), in one of two gauges:
-
-- ``gauge="columns"`` (default): the Landau gauge of the builders,
-  ``theta_ij = -2 pi phi y_j (x_i - x_j)``, which is translation invariant
-  along ``x`` (source and drain leads), transformed on the columns of the
-  voltage probes (in the bar and in the probe leads) by
-  ``psi -> exp(i lambda) psi`` with ``lambda(x, y) = 2 pi phi x y``. There the
-  phases become ``0`` along ``x`` and ``2 pi phi x`` along ``+y``,
-  translation invariant along ``y`` as the probe leads need. A gauge
-  transformation changes no observable; the phases cost nothing to evaluate.
-- ``gauge="kwant"``: the phases of :class:`kwant.physics.magnetic_gauge`,
-  which finds a lead-compatible gauge for any geometry but whose set-up time
-  grows quickly with the bar (11 s for 160 x 80 sites, 240 s for 320 x 160
-  here). kwant's gauge gives a loop enclosing the field value ``B`` times
-  its area the phase ``exp(i pi B area)`` with the opposite orientation to
-  ours, so :func:`hallbar_params` passes ``B = -2 phi``. The tests use it as
-  an outside check of the ``columns`` gauge (same conductance matrices).
-
-The bar is built by :mod:`topoedge.models.hallbar`.
 Parameters of the value functions (kwant ``params``, see
 :func:`hallbar_params`): ``t`` (hopping, the energy unit), ``phi`` (flux per
 plaquette in ``h/e``), ``zeeman`` (splitting in units of ``t``; spin up is
@@ -73,22 +38,6 @@ from ..scenario.units import VON_KLITZING
 __all__ = ["HallResult", "AveragedHall", "hall_resistances", "disorder_average", "solvers", "sum_rule_violation",
            "SUM_RULE_TOLERANCE"]
 from ..models.hallbar import LEAD_NAMES, hallbar_params
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
 
 
 # --------------------------------------------------------------------- solver

@@ -11,12 +11,13 @@ is refused before any computation unless asked to be replaced
 from __future__ import annotations
 
 import contextlib
-import json
 import os
 import shutil
 import tempfile
 from collections.abc import Callable
 from pathlib import Path
+
+from .jsonio import dumps
 
 __all__ = ["ResultsExistError", "check_destination", "atomic_file", "write_atomic", "write_folder", "write_json"]
 
@@ -108,11 +109,10 @@ def write_folder(out: Path, files: dict[str, Callable[[Path], None]], *, force: 
     return out
 
 
-def write_json(summary: dict) -> Callable[[Path], None]:
-    """A file writer for :func:`write_folder` that stores ``summary`` as JSON."""
-    return lambda path: path.write_text(json.dumps(summary, indent=2, sort_keys=False) + "\n")
-
-
+def write_json(summary) -> Callable[[Path], None]:
+    """A file writer for :func:`write_folder` that stores ``summary`` (a dict or a record with
+    ``to_dict()``) as JSON, NaN and infinities as null."""
+    return lambda path: path.write_text(dumps(summary, indent=2, sort_keys=False) + "\n")
 
 
 def write_atomic(path: Path, data: str | bytes) -> None:

@@ -22,7 +22,6 @@ from ..util.progress import as_progress
 from .build import build_bulk, harper_cell
 
 
-
 #: Smallest cell (bands per spin) for which ``chern.solver = "auto"`` takes the Landau-level solver.
 LANDAU_MIN_Q = 60
 

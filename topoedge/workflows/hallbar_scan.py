@@ -16,16 +16,18 @@ from ..solvers.landau import (bands_for, landau_chern)
 from ..util.progress import ticks
 from .build import build_bulk, harper_cell, params_of
 from .bulk import bulk_chern, bulk_solver, fermi_level, replace_chern_refine
+from .records import HallBarRoute
 
 
-
-def hallbar_route(scenario: Scenario, ef: float) -> tuple[dict | None, str | None]:
+def hallbar_route(scenario: Scenario, ef: float) -> tuple[HallBarRoute | None, str | None]:
     """Hall and longitudinal resistance of the scenario's Hall bar at E_F, or why not.
 
     The bar has the scenario's flux, spin, Zeeman splitting, on-site energy and
-    edge profile along all its boundaries. Returns ``{"r_xy", "r_xx"}`` in h/e^2
-    (means over the disorder seeds, with standard errors of the mean) and the conductance
-    ``sigma_xy = -1 / R_xy`` in e^2/h (see :mod:`topoedge.solvers.transport` for the sign).
+    edge profile along all its boundaries. Returns the :class:`HallBarRoute`
+    (``R_xy``, ``R_xx`` in h/e^2, means over the disorder seeds with standard
+    errors of the mean, and the conductance ``sigma_xy = -1 / R_xy`` in e^2/h;
+    see :mod:`topoedge.solvers.transport` for the sign) and None, or None and
+    the reason the bar could not be solved.
     """
     from ..solvers.transport import disorder_average
 
@@ -35,21 +37,8 @@ def hallbar_route(scenario: Scenario, ef: float) -> tuple[dict | None, str | Non
         result = disorder_average(fsyst, ef, params, seeds=range(bar.seeds))
     except ValueError as err:
         return None, str(err)
-    by_spin = None
-    if result.by_spin is not None:
-        by_spin = {
-            name: None if value is None else {
-                **value, "sigma_xy": -1.0 / value["r_xy"] if value["r_xy"] else None}
-            for name, value in result.by_spin.items()
-        }
-    return {
-        "r_xy": result.r_xy, "r_xy_sem": result.r_xy_sem,
-        "r_xx": result.r_xx, "r_xx_sem": result.r_xx_sem,
-        "r_xy_ohm": result.r_xy_ohm, "r_xx_ohm": result.r_xx_ohm,
-        "sigma_xy": -1.0 / result.r_xy if result.r_xy else None,
-        "by_spin": by_spin,
-        "length": bar.length, "width": bar.width, "disorder": bar.disorder, "seeds": bar.seeds,
-    }, None
+    return HallBarRoute(average=result, length=bar.length, width=bar.width, disorder=bar.disorder,
+                        seeds=bar.seeds), None
 
 
 def hallbar_system(scenario: Scenario):
@@ -113,6 +102,16 @@ def _hall_point(fsyst, params: dict, energy: float, seeds: int) -> tuple[dict, s
         point[f"r_xy_{name}"] = value["r_xy"] if value else float("nan")
         point[f"r_xx_{name}"] = value["r_xx"] if value else float("nan")
     return point, None
+
+
+def default_energies(scenario: Scenario | Model, points: int = 41) -> np.ndarray:
+    """Fermi energies (t) of a scan when none are given: from the bottom of the bulk spectrum to
+    2.5 times as far above it as the scenario's E_F (its gap and the next Landau levels)."""
+    model = resolve(scenario).scenario
+    chern, _, _ = bulk_chern(replace_chern_refine(model))
+    ef, _ = fermi_level(model, chern)
+    bottom = min(b.energy_min for b in chern.bands)
+    return np.linspace(bottom, ef + 1.5 * (ef - bottom), points)
 
 
 def hallbar_scan(scenario: Scenario | Model, energies, *, progress=False) -> dict:
@@ -181,7 +180,8 @@ def hallbar_field_scan(scenario: Scenario | Model, fields_tesla, *, jobs: int | 
 
     Parameters
     ----------
-    scenario : Scenario
+    scenario : Scenario or Model
+        As written (physical units), or already resolved.
     fields_tesla : array_like
         Fields B in tesla (one sign, no zero).
     jobs : int, optional
@@ -209,12 +209,11 @@ def hallbar_field_scan(scenario: Scenario | Model, fields_tesla, *, jobs: int | 
     import os
     from dataclasses import replace
 
-
+    model = resolve(scenario)
+    scenario, base, base_units = model.given, model.scenario, model.units
     if scenario.field.b_tesla is None:
         raise ValueError("a field scan needs a scenario in physical units: add [material] and [field] "
                          "(field.b_tesla and field.fermi_mev or field.density_cm2)")
-    model = resolve(scenario)
-    scenario, base, base_units = model.given, model.scenario, model.units
     if base.fermi.energy is not None:
         fermi_t = float(base.fermi.energy)
     else:

@@ -43,22 +43,24 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass, replace
+from dataclasses import replace
 from fractions import Fraction
 
 import numpy as np
 
 from ..models.square import model_params, ribbon_builder
 from ..scenario import Model, Scenario, resolve
-from ..solvers.edges import EdgeCount, count_edge_modes
-from ..systems.ribbon import RibbonHamiltonian
+from ..scenario.units import Derived
 from ..solvers.coulomb import Interaction, background_density
+from ..solvers.edges import count_edge_modes
 from ..solvers.hartree_fock import HartreeFockRibbon, HFResult
+from ..solvers.spectrum import k_grid, ribbon_spectrum
+from ..systems.ribbon import RibbonHamiltonian
 from .bulk import bulk_chern, fermi_level
+from .interacting_records import (InteractingRun, SelfConsistent, bulk_density, failed_summary,
+                                  interaction_summary, kept_states, state_key)
 from .run import RunResult
 from .summary import summarize
-from ..solvers.spectrum import k_grid, ribbon_spectrum
-from ..scenario.units import Derived
 
 __all__ = [
     "CELL_AVERAGE", "SelfConsistent", "InteractingRun", "interaction_of", "background_of",
@@ -68,12 +70,6 @@ __all__ = [
 #: 1/r averaged over the unit square around a site, 4 ln(1 + sqrt 2)
 #: (elementary integral): the default on-site value in units of U_C.
 CELL_AVERAGE = 4 * math.log(1 + math.sqrt(2))
-from .interacting_summary import bulk_density, failed_summary, interaction_summary
-
-
-def state_key(width: float, start: str) -> str:
-    """Name of the self-consistent state of background width ``width`` from ``start``."""
-    return f"w={width:g}/{start}"
 
 
 def interaction_of(scenario: Scenario, units: Derived | None = None) -> Interaction:
@@ -143,73 +139,6 @@ def choose_k_points(electrons: float, magnetic_length: float, *, given: int | No
                        f"whole number of electrons (denominator {frac.denominator}); the last level is "
                        "partly filled (set interaction.temperature > 0 or change the background)")
     return found, None
-
-
-@dataclass(frozen=True, eq=False)
-class SelfConsistent:
-    """The self-consistent solution for one background width.
-
-    Attributes
-    ----------
-    width : float
-        Background width w, lattice constants.
-    k_points : int
-    background : (W,) ndarray
-    best : HFResult or None
-        Lowest converged Hartree-Fock energy (None when no start converged).
-    runs : tuple of HFResult
-        Every start, in the order of ``interaction.starts``.
-    restarted : tuple of str
-        Starts that continued from a restart state.
-    hamiltonian : RibbonHamiltonian or None
-        The self-consistent Hamiltonian of ``best`` (spin-up block first).
-    fermi_energy : float or None
-        Between the highest occupied and the lowest empty level (zero
-        temperature, whole number of electrons), else the chemical potential; t.
-    edges : EdgeCount or None
-        Edge modes of ``hamiltonian`` at ``fermi_energy``.
-    """
-
-    width: float
-    k_points: int
-    background: np.ndarray
-    best: HFResult | None
-    runs: tuple[HFResult, ...]
-    restarted: tuple[str, ...]
-    hamiltonian: RibbonHamiltonian | None
-    fermi_energy: float | None
-    edges: EdgeCount | None
-
-
-@dataclass(frozen=True, eq=False)
-class InteractingRun:
-    """The self-consistent part of a run: the main width and the scan."""
-
-    interaction: Interaction
-    magnetic_length: float
-    main: SelfConsistent
-    scan: tuple[SelfConsistent, ...]
-    model: dict
-    warnings: tuple[str, ...]
-
-    def states(self) -> dict:
-        """The states to continue from, by :func:`state_key` (see :func:`kept_states`)."""
-        out = {}
-        for sc in (self.main, *self.scan):
-            out.update(kept_states(sc))
-        return out
-
-
-def kept_states(sc: SelfConsistent) -> dict:
-    """The lowest-energy converged state and every unconverged one of a width.
-
-    Converged starts that lost to another start are left out: continuing from
-    them would only reproduce them, and each state is ``2 N_k W^2`` complex
-    numbers.
-    """
-    return {state_key(sc.width, run.start): {"density_matrix": run.density_matrix, "converged": run.converged,
-                                             "iterations": run.iterations}
-            for run in sc.runs if run is sc.best or not run.converged}
 
 
 def model_key(scenario: Scenario, interaction: Interaction) -> dict:
@@ -333,14 +262,6 @@ def solve_width(scenario: Scenario, blocks, interaction: Interaction, width: flo
     return SelfConsistent(width, nk, background, best, tuple(runs), tuple(restarted), ham, ef, edges), warning
 
 
-
-
-
-
-
-
-
-
 def run_interacting(scenario: Scenario | Model, *, restart: dict | None = None, restart_model: dict | None = None,
                     checkpoint=None, checkpoint_every: float = 20.0, progress: bool = False) -> RunResult:
     """Self-consistent Hartree-Fock run of a scenario with ``[interaction]``.
@@ -432,24 +353,23 @@ def run_interacting(scenario: Scenario | Model, *, restart: dict | None = None, 
             window = (ef - scenario.spectrum.window, ef + scenario.spectrum.window)
         spec = ribbon_spectrum(ham, k_grid(scenario.spectrum.k_points), window=window, solver="dense",
                                progress=progress)
-    summary = None
+    info = interaction_summary(scenario, run, gap)
     if main.best is not None:
         summary = summarize(scenario, spec, hartree, chern=chern, refined=refined, ef=ef, gap=gap, edges=edges,
                             seconds=time.perf_counter() - start_time, given=given, units=units,
                             streda=None, streda_error="not computed: the Streda route is non-interacting")
-        summary["model"]["edge_profile"] = f"background charge ({scenario.interaction.background.profile})"
-        summary["model"]["edge_potential_max_t"] = float(np.max(hartree))
-        summary["fermi"]["gap_window"] = [None, None]
-        summary["fermi"]["note"] = ("E_F between the highest occupied and the lowest empty self-consistent "
-                                    "level; the gap above the filled bulk bands is non-interacting")
+        summary = replace(
+            summary,
+            model=replace(summary.model, edge_profile=f"background charge ({scenario.interaction.background.profile})",
+                          edge_potential_max_t=float(np.max(hartree))),
+            fermi=replace(summary.fermi, gap_window=(None, None),
+                          note="E_F between the highest occupied and the lowest empty self-consistent "
+                               "level; the gap above the filled bulk bands is non-interacting"))
     else:
         summary = failed_summary(scenario, given, units, gap, time.perf_counter() - start_time)
-    summary["interaction"] = interaction_summary(scenario, run, gap)
-    summary["warnings"] = summary.get("warnings", []) + list(warnings)
-    summary["seconds"] = round(time.perf_counter() - start_time, 3)
+    summary = replace(summary, interaction=info, warnings=summary.warnings + tuple(warnings),
+                      seconds=round(time.perf_counter() - start_time, 3))
     return RunResult(scenario, hartree, ham, spec, chern, refined, ef, gap, edges, path, summary, units,
                      None, run)
-
-
 
 

@@ -34,7 +34,7 @@ from ..scenario import Model, Scenario, resolve
 from ..scenario.units import VON_KLITZING, Derived
 from ..solvers.chern import ChernResult, Gap, GapClosedError, subspace_chern
 from ..solvers.edges import EdgeCount, count_edge_modes
-from ..solvers.landau import (LandauSolverError, landau_subspace_chern)
+from ..solvers.landau import LandauSolverError, landau_subspace_chern
 from ..solvers.spectrum import RibbonSpectrum, k_grid, ribbon_spectrum
 from ..solvers.streda import StredaResult
 from ..systems.ribbon import RibbonHamiltonian
@@ -49,9 +49,8 @@ __all__ = [
 from .build import AUTO_WINDOW_FROM, build_bulk, build_ribbon, harper_cell, memory_estimate
 from .bulk import bulk_chern, bulk_solver, fermi_level, streda_route
 from .hallbar_scan import hallbar_route
+from .records import RunSummary, UnconvergedSummary
 from .summary import summarize
-
-
 
 
 @dataclass(frozen=True, eq=False)
@@ -68,36 +67,12 @@ class RunResult:
     gap: Gap
     edges: EdgeCount
     bulk_path: dict
-    summary: dict
+    summary: RunSummary | UnconvergedSummary
     units: Derived | None = None
     streda: StredaResult | None = None
     #: The self-consistent solutions of a run with [interaction]
     #: (topoedge.workflows.interacting.InteractingRun), else None.
     interacting: object | None = None
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
 
 
 def run_scenario(scenario: Scenario | Model, *, progress=False) -> RunResult:
@@ -149,7 +124,7 @@ def run_scenario(scenario: Scenario | Model, *, progress=False) -> RunResult:
             if solver == "landau":
                 subspace = landau_subspace_chern(harper_cell(scenario), gap, k2_points=chern.grid[1],
                                                  gap_min=scenario.chern.gap_min)
-                if subspace["chern"] is None:
+                if subspace.chern is None:
                     subspace = None
             else:
                 # The occupied subspace as a whole needs far fewer points than the
@@ -181,8 +156,6 @@ def near_gap_of(gap: Gap, ef: float) -> float:
     return float(min(1e-4, max(0.2 * room, 1e-8))) if np.isfinite(room) else 1e-4
 
 
-
-
 def spectrum_window(scenario: Scenario, ham: RibbonHamiltonian, chern: ChernResult,
                     ef: float) -> tuple[float, float] | None:
     """Energy window of the ribbon spectrum: ``E_F +- spectrum.window``, or chosen for wide ribbons.
@@ -206,33 +179,5 @@ def spectrum_window(scenario: Scenario, ham: RibbonHamiltonian, chern: ChernResu
         width = 0.0
     half = max(1.25 * (ef - bottom), 2.0 * width, 1e-3)
     return (ef - half, ef + half)
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
-
 
 

@@ -1,4 +1,7 @@
-"""The JSON-able summary of a run: the bulk-edge check, the Hall routes, the physical block (workflow stage)."""
+"""The summary of a run built from the solvers' results: the Hall routes, the bulk-edge check, the physical block.
+
+The records it returns are in :mod:`topoedge.workflows.records` (workflow stage).
+"""
 
 from __future__ import annotations
 
@@ -6,37 +9,39 @@ import numpy as np
 from .. import __version__
 from ..models.lattices import lattice
 from ..scenario import Scenario
-from ..scenario.units import VON_KLITZING, Derived
-from ..solvers.chern import ChernResult, Gap
+from ..scenario.units import Derived
+from ..solvers.chern import ChernResult, Gap, SubspaceChern
 from ..solvers.edges import EdgeCount
 from ..solvers.spectrum import RibbonSpectrum
 from ..solvers.streda import StredaResult
+from .records import (BulkEdgeCheck, BulkInfo, FermiInfo, HallBarRoute, HallInfo, HallRoutes, ModelInfo, ModeUnits,
+                      PhysicalInfo, RunSummary, SpectrumInfo, finite_or_none)
+
+__all__ = ["hall_routes", "bulk_edge_check", "summarize", "physical_summary"]
 
 
-def hall_routes(gap: Gap, edges: EdgeCount, streda: StredaResult | None, hallbar: dict | None = None) -> dict:
-    """The Hall conductance (e^2/h) by every route computed, and their agreement.
+def hall_routes(gap: Gap, edges: EdgeCount, streda: StredaResult | None,
+                hallbar: HallBarRoute | None = None) -> HallRoutes:
+    """The Hall conductance (e^2/h) by every route computed (see :class:`HallRoutes`).
 
     ``chern``: Chern sum below E_F (link variables); ``edge``: net chirality of
-    the bottom edge (null when E_F is not in a gap of the ribbon); ``streda``:
+    the bottom edge (None when E_F is not in a gap of the ribbon); ``streda``:
     the measured slope ``d n_site / d phi`` with its deviation from the nearest
     integer; ``hallbar``: ``-1/R_xy`` of the six-terminal Hall bar (with
     ``hallbar.enabled``), with its deviation from the nearest integer.
     """
-    routes = {
-        "chern": gap.chern,
-        "edge": edges.bottom.net if edges.in_gap else None,
-        "streda": streda.slope if streda is not None else None,
-        "streda_deviation": streda.deviation if streda is not None else None,
-        "hallbar": hallbar["sigma_xy"] if hallbar else None,
-        "hallbar_deviation": (hallbar["sigma_xy"] - round(hallbar["sigma_xy"]))
-        if hallbar and hallbar["sigma_xy"] is not None else None,
-    }
-    values = [v for v in (routes["edge"], routes["streda"], routes["hallbar"]) if v is not None]
-    routes_agree = all(abs(v - gap.chern) < 1e-6 for v in values) and routes["edge"] is not None
-    return {"routes": routes, "routes_agree": routes_agree}
+    sigma = hallbar.sigma_xy if hallbar is not None else None
+    return HallRoutes(
+        chern=gap.chern,
+        edge=edges.bottom.net if edges.in_gap else None,
+        streda=streda.slope if streda is not None else None,
+        streda_deviation=streda.deviation if streda is not None else None,
+        hallbar=sigma,
+        hallbar_deviation=(sigma - round(sigma)) if sigma is not None else None,
+    )
 
 
-def bulk_edge_check(gap: Gap, edges: EdgeCount, *, width: int | None = None) -> dict:
+def bulk_edge_check(gap: Gap, edges: EdgeCount, routes: HallRoutes, *, width: int | None = None) -> BulkEdgeCheck:
     """Compare the Chern sum below E_F with the net chirality of each edge.
 
     The bottom edge must carry ``+C`` and the top edge ``-C`` (see the module
@@ -63,31 +68,23 @@ def bulk_edge_check(gap: Gap, edges: EdgeCount, *, width: int | None = None) -> 
             edges.bottom.by_spin[s]["net"] == c and edges.top.by_spin[s]["net"] == -c
             for s, c in gap.spin_chern.items()
         )
-    return {
-        "bulk_edge_agree": bool(agree),
-        "spin_resolved_agree": spin,
-        "reason": reason,
-        "convention": "bottom-edge net chirality = +C and top edge = -C, C = Chern sum below E_F",
-    }
-
-
-def _finite(x: float) -> float | None:
-    return float(x) if np.isfinite(x) else None
+    return BulkEdgeCheck(bulk_edge_agree=bool(agree), spin_resolved_agree=spin, reason=reason,
+                         routes_agree=routes.agree)
 
 
 def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *, chern: ChernResult,
               refined: ChernResult | None, ef: float, gap: Gap, edges: EdgeCount, seconds: float,
               given: Scenario | None = None, units: Derived | None = None,
               streda: StredaResult | None = None, streda_error: str | None = None,
-              hallbar: dict | None = None, hallbar_error: str | None = None,
-              subspace: dict | None = None, solver_reason: str | None = None) -> dict:
-    """JSON-able summary of a run.
+              hallbar: HallBarRoute | None = None, hallbar_error: str | None = None,
+              subspace: SubspaceChern | None = None, solver_reason: str | None = None) -> RunSummary:
+    """The summary of a run (``summary.json`` is its ``to_dict()``).
 
     ``scenario`` is in lattice units; ``given`` (default: the same) is the
     scenario as written, stored under ``config``; ``units`` holds what was
-    derived from ``[material]`` and ``[field]`` (``units`` key, null without).
-    ``subspace`` is :func:`topoedge.solvers.chern.subspace_chern` of the gap at E_F
-    (``bulk.subspace``; a warning when it differs from the band sum).
+    derived from ``[material]`` and ``[field]`` (``units``, None without).
+    ``subspace`` is the Chern sum of the occupied subspace as a whole at
+    E_F (``bulk.subspace``; a warning when it differs from the band sum).
 
     Energies are in units of the hopping ``t``. Derived lattice scales use
     the effective-mass limit of the square lattice (``m* = hbar^2 / (2 t a^2)``):
@@ -103,105 +100,47 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
     """
     lat = scenario.lattice
     entry = lattice(lat.kind)
-    scales = entry.scales(lat)
     warnings = list(units.warnings) if units is not None else []
-    if subspace is not None:
-        subspace = {**subspace, "agree": subspace["chern"] == gap.chern}
-        if not subspace["agree"]:
-            warnings.append(
-                f"the Chern sum below E_F is {gap.chern} from the bands one by one on the "
-                f"{chern.grid[0]}x{chern.grid[1]} grid but {subspace['chern']} from the occupied subspace on "
-                f"{subspace['grid'][0]}x{subspace['grid'][1]}: the grid does not resolve the bulk bands; "
-                "use a finer chern.grid")
+    bulk = BulkInfo(chern=chern, refined=refined, gap=gap, solver_reason=solver_reason, subspace=subspace)
+    if bulk.subspace_agree is False:
+        warnings.append(
+            f"the Chern sum below E_F is {gap.chern} from the bands one by one on the "
+            f"{chern.grid[0]}x{chern.grid[1]} grid but {subspace.chern} from the occupied subspace on "
+            f"{subspace.grid[0]}x{subspace.grid[1]}: the grid does not resolve the bulk bands; "
+            "use a finer chern.grid")
     valid = np.isfinite(spec.energy)
     energies = spec.energy[valid]
-    converged = None
-    if refined is not None:
-        converged = [(g.below, g.chern) for g in chern.gaps] == [(g.below, g.chern) for g in refined.gaps]
-    c = gap.chern
     routes = hall_routes(gap, edges, streda, hallbar)
-    summary = {
-        "topoedge_version": __version__,
-        "title": scenario.title,
-        "source": scenario.source,
-        "config": (given or scenario).to_dict(),
-        "units": units.to_dict() if units is not None else None,
-        "warnings": warnings,
-        "model": {
-            "lattice": lat.kind,
-            "flux": f"{lat.flux.numerator}/{lat.flux.denominator}",
-            "spin": scenario.spin.enabled,
-            "zeeman_t": scenario.spin.zeeman,
-            "rashba_t": scenario.spin.rashba,
-            **entry.model_keys(lat, scenario.ribbon),
-            **scales,
-            "ribbon_width_sites": scenario.ribbon.width,
-            "edge_profile": scenario.ribbon.edge.profile,
-            "edge_potential_max_t": float(np.max(potential)),
-        },
-        "spectrum": {
-            "k_points": int(spec.k.size),
-            "states": int(valid.sum()),
-            "solver": spec.solver,
-            "window": list(spec.window) if spec.window else None,
-            "energy_min": float(energies.min()) if energies.size else None,
-            "energy_max": float(energies.max()) if energies.size else None,
-        },
-        "bulk": {
-            "solver": chern.solver,
-            "solver_reason": solver_reason,
-            "bands_computed": len(chern.bands),
-            "bands_total": chern.total_bands or len(chern.bands),
-            "grid": list(chern.grid),
-            "gap_min": chern.gap_min,
-            "bands": [b.to_dict() for b in chern.bands],
-            "gaps": [g.to_dict() for g in chern.gaps],
-            "chern_below_fermi": c,
-            "spin_chern_below_fermi": gap.spin_chern,
-            "refined_grid": list(refined.grid) if refined is not None else None,
-            "refined_gaps": [g.to_dict() for g in refined.gaps] if refined is not None else None,
-            "converged": converged,
-            "subspace": subspace,
-        },
-        "fermi": {
-            "energy": ef,
-            "gap_below": gap.below,
-            "gap_window": [_finite(gap.energy_min), _finite(gap.energy_max)],
-            "from_gap": scenario.fermi.gap,
-        },
-        "edges": {
-            "bottom": edges.bottom.to_dict(),
-            "top": edges.top.to_dict(),
-            "bulk": [m.to_dict() for m in edges.bulk],
-            "touching": [dict(t) for t in edges.touching],
-            "in_gap": edges.in_gap,
-            "message": edges.message,
-        },
-        "hall": {
-            "sigma_xy": c,
-            "sigma_xy_siemens": c / VON_KLITZING,
-            "r_xy_ohm": -VON_KLITZING / c if c else None,
-            "units": "sigma_xy in e^2/h; r_xy_ohm = -1/sigma_xy = -h/(C e^2) (rho_xy), null for C = 0",
-            "routes": routes["routes"],
-            "streda": streda.to_dict() if streda is not None else None,
-            "streda_error": streda_error,
-            "hallbar": hallbar,
-            "hallbar_error": hallbar_error,
-        },
-        "check": {**bulk_edge_check(gap, edges, width=scenario.ribbon.width),
-                  "routes_agree": routes["routes_agree"]},
-        "seconds": round(seconds, 3),
-    }
-    if units is not None:
-        summary["physical"] = physical_summary(scenario, units, ef=ef, gap=gap, edges=edges, potential=potential)
-        for name in ("bottom", "top"):
-            for mode, extra in zip(summary["edges"][name]["modes"], summary["physical"]["edges"][name]):
-                mode.update(extra)
-    return summary
+    return RunSummary(
+        topoedge_version=__version__, title=scenario.title, source=scenario.source, config=given or scenario,
+        units=units, warnings=tuple(warnings),
+        model=ModelInfo(
+            lattice=lat.kind, flux=f"{lat.flux.numerator}/{lat.flux.denominator}", spin=scenario.spin.enabled,
+            zeeman_t=scenario.spin.zeeman, rashba_t=scenario.spin.rashba,
+            lattice_keys=entry.model_keys(lat, scenario.ribbon), scales=entry.scales(lat),
+            ribbon_width_sites=scenario.ribbon.width, edge_profile=scenario.ribbon.edge.profile,
+            edge_potential_max_t=float(np.max(potential))),
+        spectrum=SpectrumInfo(
+            k_points=int(spec.k.size), states=int(valid.sum()), solver=spec.solver,
+            window=tuple(spec.window) if spec.window else None,
+            energy_min=float(energies.min()) if energies.size else None,
+            energy_max=float(energies.max()) if energies.size else None),
+        bulk=bulk,
+        fermi=FermiInfo(energy=ef, gap_below=gap.below,
+                        gap_window=(finite_or_none(gap.energy_min), finite_or_none(gap.energy_max)),
+                        from_gap=scenario.fermi.gap),
+        edges=edges,
+        hall=HallInfo(sigma_xy=gap.chern, routes=routes, streda=streda, streda_error=streda_error,
+                      hallbar=hallbar, hallbar_error=hallbar_error),
+        check=bulk_edge_check(gap, edges, routes, width=scenario.ribbon.width),
+        seconds=round(seconds, 3),
+        physical=physical_summary(scenario, units, ef=ef, gap=gap, edges=edges, potential=potential)
+        if units is not None else None,
+    )
 
 
 def physical_summary(scenario: Scenario, units: Derived, *, ef: float, gap: Gap, edges: EdgeCount,
-                     potential: np.ndarray) -> dict:
+                     potential: np.ndarray) -> PhysicalInfo:
     """The run's results in the units of a physical scenario.
 
     Energies in meV above the band bottom of the lattice model (``-4 t +
@@ -227,38 +166,21 @@ def physical_summary(scenario: Scenario, units: Derived, *, ef: float, gap: Gap,
 
     top_row = float(scenario.ribbon.width - 1)
 
-    def mode_extra(m, edge: str) -> dict:
+    def mode_extra(m, edge: str) -> ModeUnits:
         drift = None
         if len(potential) == scenario.ribbon.width > 1:                # one potential per row
             du = float(np.interp(m.y, y_rows, slope))                 # t per a
             if abs(du) > 1e-12:
                 drift = du * t_joule / (a_nm * 1e-9) / (const.e * units.b_tesla)
         depth = m.y if edge == "bottom" else top_row - m.y
-        return {"y_nm": m.y * a_nm, "depth_nm": depth * a_nm, "depth_lb": depth * a_nm / units.magnetic_length_nm,
-                "velocity_m_s": m.velocity * v_unit, "drift_m_s": drift}
+        return ModeUnits(y_nm=m.y * a_nm, depth_nm=depth * a_nm, depth_lb=depth * a_nm / units.magnetic_length_nm,
+                         velocity_m_s=m.velocity * v_unit, drift_m_s=drift)
 
-    c = gap.chern
-    return {
-        "b_tesla": units.b_tesla,
-        "b_lattice_tesla": units.b_lattice_tesla,
-        "b_relative_error": units.b_relative_error,
-        "field_direction": "+z" if units.b_tesla > 0 else "-z",
-        "lattice_constant_nm": a_nm,
-        "hopping_mev": t_mev,
-        "magnetic_length_nm": units.magnetic_length_nm,
-        "cyclotron_mev": units.cyclotron_mev,
-        "zeeman_mev": units.zeeman_mev,
-        "coulomb_mev": units.coulomb_mev,
-        "filling": units.filling,
-        "fermi_energy_mev": mev(ef),
-        "gap_mev": [mev(gap.energy_min), mev(gap.energy_max)],
-        "ribbon_width_nm": (scenario.ribbon.width - 1) * a_nm,
-        "sigma_xy_e2_h": c,
-        "r_xy_ohm": -VON_KLITZING / c if c else None,
-        "edges": {name: [mode_extra(m, name) for m in getattr(edges, name).modes] for name in ("bottom", "top")},
-        "units": "energies in meV above the band bottom; y_nm from the bottom row, depth_nm and depth_lb from "
-                 "the mode's own edge; velocities in m/s (drift_m_s: U'(y)/(e B), null where U is flat); "
-                 "R_xy = -1/sigma_xy in ohm",
-    }
-
-
+    return PhysicalInfo(
+        b_tesla=units.b_tesla, b_lattice_tesla=units.b_lattice_tesla, b_relative_error=units.b_relative_error,
+        lattice_constant_nm=a_nm, hopping_mev=t_mev, magnetic_length_nm=units.magnetic_length_nm,
+        cyclotron_mev=units.cyclotron_mev, zeeman_mev=units.zeeman_mev, coulomb_mev=units.coulomb_mev,
+        filling=units.filling, fermi_energy_mev=mev(ef), gap_mev=(mev(gap.energy_min), mev(gap.energy_max)),
+        ribbon_width_nm=(scenario.ribbon.width - 1) * a_nm, sigma_xy_e2_h=gap.chern,
+        edges={name: tuple(mode_extra(m, name) for m in getattr(edges, name).modes) for name in ("bottom", "top")},
+    )

@@ -53,6 +53,7 @@ from .. import __version__
 from ..scenario import ConfigError, apply_overrides, convert_key, parse_scenario
 from ..scenario.schema import plain
 from ..util.atomic import write_atomic
+from ..util.jsonio import plain_json
 
 __all__ = [
     "QUANTITIES", "Axis", "Sweep", "SweepError", "load_sweep", "parse_sweep", "point_key", "run_point",
@@ -295,35 +296,39 @@ def point_key(config: dict) -> str:
     return hashlib.sha256(text.encode()).hexdigest()[:20]
 
 
-def quantities_of(summary: dict) -> dict:
-    """The table row of a run summary (see :data:`QUANTITIES`; NaN / "" / None where undefined)."""
+def quantities_of(summary) -> dict:
+    """The table row of a run summary (a :class:`~topoedge.workflows.records.RunSummary` or, for a
+    self-consistent run in which no start converged, an ``UnconvergedSummary``; see :data:`QUANTITIES`;
+    None where undefined)."""
     out = {name: None for name in QUANTITIES}
-    inter = summary.get("interaction")
+    inter = summary.interaction
     if inter is not None:
-        out["hf_converged"] = bool(inter.get("converged"))
-        out["hf_energy"] = inter.get("energy_t")
-        out["hf_best_start"] = inter.get("best_start") or ""
-    bulk = summary.get("bulk", {})
-    out["chern"] = bulk.get("chern_below_fermi")
-    spin = bulk.get("spin_chern_below_fermi") or {}
-    out["chern_up"], out["chern_down"] = spin.get("up"), spin.get("down")
-    if "edges" not in summary:
+        out["hf_converged"] = bool(inter.converged)
+        out["hf_energy"] = inter.main.energy_t
+        out["hf_best_start"] = inter.main.best_start or ""
+    if not summary.converged:
+        out["chern"] = summary.chern_below_fermi
+        spin = summary.spin_chern_below_fermi or {}
+        out["chern_up"], out["chern_down"] = spin.get("up"), spin.get("down")
         return out
-    e, h, c = summary["edges"], summary["hall"], summary["check"]
-    out["fermi_energy"] = summary["fermi"]["energy"]
-    out["in_gap"] = e["in_gap"]
+    out["chern"] = summary.bulk.chern_below_fermi
+    spin = summary.bulk.spin_chern_below_fermi or {}
+    out["chern_up"], out["chern_down"] = spin.get("up"), spin.get("down")
+    e, h, c = summary.edges, summary.hall, summary.check
+    out["fermi_energy"] = summary.fermi.energy
+    out["in_gap"] = e.in_gap
     for side in ("bottom", "top"):
-        edge = e[side]
-        out[f"{side}_net"] = edge["net"]
-        out[f"{side}_pairs"] = edge["counter_pairs"]
+        edge = getattr(e, side)
+        out[f"{side}_net"] = edge.net
+        out[f"{side}_pairs"] = edge.counter_pairs
         for s in ("up", "down"):
-            out[f"{side}_pairs_{s}"] = edge["by_spin"].get(s, {}).get("counter_pairs")
-        out[f"outermost_spin_{side}"] = (edge["modes"][0]["spin"] or "") if edge["modes"] else ""
-    out["bottom_modes"] = len(e["bottom"]["modes"])
-    out["bulk_edge_agree"] = c["bulk_edge_agree"]
-    out["routes_agree"] = c["routes_agree"]
-    out["hall_streda"] = h["routes"]["streda"]
-    out["hall_hallbar"] = h["routes"]["hallbar"]
+            out[f"{side}_pairs_{s}"] = edge.by_spin.get(s, {}).get("counter_pairs")
+        out[f"outermost_spin_{side}"] = (edge.modes[0].spin or "") if edge.modes else ""
+    out["bottom_modes"] = len(e.bottom.modes)
+    out["bulk_edge_agree"] = c.bulk_edge_agree
+    out["routes_agree"] = c.routes_agree
+    out["hall_streda"] = h.routes.streda
+    out["hall_hallbar"] = h.routes.hallbar
     return out
 
 
@@ -351,8 +356,8 @@ def run_point(config: dict) -> dict:
                 from .run import run_scenario
 
                 result = run_scenario(scenario)
-        summary = json.loads(json.dumps(result.summary, default=float).replace("NaN", "null"))
-        return {"status": "ok", "quantities": quantities_of(summary), "summary": summary,
+        return {"status": "ok", "quantities": plain_json(quantities_of(result.summary)),
+                "summary": plain_json(result.summary),
                 "seconds": time.perf_counter() - start, "cpu_seconds": time.process_time() - cpu}
     except Exception as err:  # a failed point is recorded, never stops the sweep
         message = " ".join(str(err).split()) or type(err).__name__
@@ -502,17 +507,5 @@ def gather(sweep: Sweep, out: Path) -> list[dict]:
             row.update({"status": "missing", "error": "", **{name: None for name in QUANTITIES}})
         rows.append(row)
     return rows
-
-
-
-
-
-
-
-
-
-
-
-
 
 
