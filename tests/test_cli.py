@@ -418,7 +418,7 @@ BAD_INPUT = {
     # even q is closed), so the gap above 2 bands does not exist.
     "closed gap": (TINY, ["--set", "lattice.flux=1/4", "--set", "spin.enabled=false",
                           "--set", "spin.zeeman=0", "--set", "fermi.gap=2"],
-                   ["fermi.gap = 2", "gap above band 1 is closed", "open gaps: 1 (", ", 3 ("]),
+                   ["fermi.gap = 2", "gap above band 1 is closed", "open gaps near it: 1 (", ", 3 ("]),
     "TOML syntax error": ('title = "x"\n[lattice\nflux = "1/10"\n', [],
                           ["tiny.toml", "invalid TOML", "line 2"]),
 }

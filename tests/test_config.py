@@ -142,7 +142,7 @@ BAD = {
     "not coprime": (nested("lattice.flux", "2/6"),
                     r"^lattice\.flux: got '2/6'; p and q must be coprime \(use '1/3'\)$"),
     "malformed flux": (nested("lattice.flux", "abc"),
-                       r"^lattice\.flux: got 'abc'; expected a string 'p/q' such as '1/40'$"),
+                       r"^lattice\.flux: got 'abc'; expected a string 'p/q' with \|p/q\| < 1 such as '1/40'$"),
     "decimal string flux": (nested("lattice.flux", "0.025"), r"^lattice\.flux: got '0\.025';"),
     "float flux": (nested("lattice.flux", 0.025),
                    r"^lattice\.flux: got 0\.025 \(float\); expected a string 'p/q'.*\"1/40\""),
@@ -275,12 +275,53 @@ def test_source_not_compared():
     assert parse_scenario(FULL, source="a.toml") == parse_scenario(FULL)
 
 
-@pytest.mark.parametrize("text, flux", [("0", Fraction(0)), ("1", Fraction(1)),
-                                        ("-1/3", Fraction(-1, 3)), (" 3 / 7 ", Fraction(3, 7)),
-                                        ("+1/40", Fraction(1, 40)), (0, Fraction(0)),
-                                        (-2, Fraction(-2))])
+@pytest.mark.parametrize("text, flux", [("-1/3", Fraction(-1, 3)), (" 3 / 7 ", Fraction(3, 7)),
+                                        ("+1/40", Fraction(1, 40)), ("-39/40", Fraction(-39, 40))])
 def test_flux_accepted(text, flux):
     assert parse_scenario(nested("lattice.flux", text)).lattice.flux == flux
+
+
+# The Peierls phases exp(2 pi i p/q) repeat with period 1 in the flux (common
+# practice, no source): |flux| >= 1 is the lattice at flux - round(flux).
+@pytest.mark.parametrize("text, message", [
+    ("1", r"^lattice\.flux: got '1'; expected \|p/q\| < 1 .*1 is zero field on the lattice\)$"),
+    (1, r"^lattice\.flux: got 1; expected \|p/q\| < 1 .*1 is zero field on the lattice\)$"),
+    (-2, r"^lattice\.flux: got -2; expected \|p/q\| < 1"),
+    ("41/10", r"^lattice\.flux: got '41/10'; expected \|p/q\| < 1 .*41/10 is the same lattice as '1/10'\)$"),
+    ("-7/3", r"the same lattice as '-1/3'"),
+])
+def test_flux_outside_one_period_refused(text, message):
+    with pytest.raises(ConfigError, match=message):
+        parse_scenario(nested("lattice.flux", text))
+
+
+@pytest.mark.parametrize("kind", ["square", "honeycomb"])
+def test_zero_flux_refused_where_a_field_is_needed(kind):
+    with pytest.raises(ConfigError, match=r"^lattice\.flux: got '0' on the .*expected a nonzero flux p/q .*"
+                                          r"lattice\.kind = 'haldane' or 'qwz'\)$"):
+        parse_scenario({"lattice": {"kind": kind, "flux": "0"}})
+
+
+def test_flux_denominator_beyond_q_max_refused():
+    with pytest.raises(ConfigError, match=r"^lattice\.flux: got '1/100000'; expected a denominator of at "
+                                          r"most field\.q_max = 4000 "):
+        parse_scenario(nested("lattice.flux", "1/100000"))
+    data = nested("lattice.flux", "1/5000")
+    data["field"] = {"q_max": 5000}
+    data["ribbon"] = {"width": 400}
+    assert parse_scenario(data).lattice.flux == Fraction(1, 5000)
+
+
+def test_ribbon_narrower_than_two_magnetic_lengths_refused():
+    # l_B = a / sqrt(2 pi |flux|) on the square lattice (common practice, no
+    # source): flux 1/400 gives l_B = 7.98 a, so a span of 15 a is too little, 16 a enough.
+    data = nested("lattice.flux", "1/400")
+    data["ribbon"] = {"width": 15}
+    with pytest.raises(ConfigError, match=r"^ribbon\.width: got 15 \(15 a across\), less than two magnetic "
+                                          r"lengths at flux 1/400 \(l_B = 7\.98 a\)"):
+        parse_scenario(data)
+    data["ribbon"] = {"width": 16}
+    assert parse_scenario(data).ribbon.width == 16
 
 
 def test_zero_width_ramp_and_zeeman_zero_without_spin_allowed():
@@ -296,8 +337,8 @@ def test_edge_width_at_half_allowed():
 
 @st.composite
 def coprime_pairs(draw):
-    q = draw(st.integers(1, 60))
-    p = draw(st.integers(-q + 1, q - 1).filter(lambda p: math.gcd(p, q) == 1))
+    q = draw(st.integers(2, 60))
+    p = draw(st.integers(-q + 1, q - 1).filter(lambda p: p != 0 and math.gcd(p, q) == 1))
     return p, q
 
 

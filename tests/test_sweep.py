@@ -326,3 +326,30 @@ def test_every_quantity_is_documented():
     section = outputs[outputs.index(".. _sweep-outputs:"):outputs.index(".. _butterfly-outputs:")]
     for name in QUANTITIES:
         assert f"``{name}``" in section, name
+
+
+def test_command_with_failed_points_exits_3_after_writing_the_rest(tmp_path):
+    # An edge ramp wider than half the ribbon fails at that point only; the
+    # table holds both points and the exit status says that some failed.
+    data = {**SWEEP, "axis": [{"key": "ribbon.edge.width", "values": [2.0, 16.0]}],
+            "plot": {"quantities": ["bottom_net"]}}
+    path = _sweep_file(tmp_path, data)
+    proc = _cli(path, "--out", tmp_path / "out", "--jobs", "1", cwd=tmp_path)
+    assert proc.returncode == 3, proc.stderr
+    assert "1 of 2 points failed (exit status 3)" in proc.stdout
+    table = (tmp_path / "out" / "table.csv").read_text()
+    assert table.count("\n") == 3 and "failed" in table and ",ok," in table
+
+
+def test_command_set_changes_the_base_scenario_and_refuses_an_axis(tmp_path):
+    data = {**SWEEP, "axis": [{"key": "spin.zeeman", "values": [0.0, 0.2]}],
+            "plot": {"quantities": ["bottom_net"]}}
+    path = _sweep_file(tmp_path, data)
+    sweep = load_sweep(path, ["ribbon.edge.width=3"])
+    assert sweep.base["ribbon"]["edge"]["width"] == 3
+    assert load_sweep(path).base["ribbon"]["edge"]["width"] != 3
+    proc = _cli(path, "--out", tmp_path / "out", "--set", "spin.zeeman=0.1", cwd=tmp_path)
+    assert proc.returncode == 2 and proc.stdout == ""
+    assert proc.stderr.count("\n") == 1
+    assert "--set 'spin.zeeman=0.1': spin.zeeman is an axis of this sweep" in proc.stderr
+    assert not (tmp_path / "out").exists()

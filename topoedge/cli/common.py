@@ -16,6 +16,10 @@ EXIT_BAD_INPUT = 2
 #: A self-consistent run that wrote its results but did not converge everywhere.
 EXIT_NOT_CONVERGED = 1
 
+#: A sweep or scan that wrote its results, with some points that failed (named in
+#: its table and summary).
+EXIT_POINTS_FAILED = 3
+
 
 @dataclass(frozen=True)
 class Command:

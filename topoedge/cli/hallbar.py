@@ -19,6 +19,10 @@ def cmd_hallbar(args) -> int:
     fields = scan_range(args.fields, "--fields", "tesla")
     scenario = load_scenario(args.config, args.overrides)
     require_support(scenario, "hallbar")
+    from ..util.budget import require
+    from ..workflows.build import hallbar_memory
+
+    require([hallbar_memory(scenario)])
     if fields is not None:
         if scenario.field.b_tesla is None:
             raise ConfigError("hallbar --fields: the scenario has no [field] section; expected a scenario "

@@ -7,7 +7,7 @@ import json
 import sys
 from pathlib import Path
 from ..scenario import ConfigError
-from .common import Command, say
+from .common import EXIT_POINTS_FAILED, Command, say
 
 
 def cmd_sweep(args) -> int:
@@ -16,16 +16,13 @@ def cmd_sweep(args) -> int:
     from ..plotting.sweep import sweep_figures
     from ..workflows.sweep import gather, load_sweep, run_sweep
 
-    if args.overrides:
-        raise ConfigError("sweep: --set is not used by sweeps; expected the values in the sweep file "
-                          "(its [scenario] or an [[axis]])")
     if args.jobs is not None and args.jobs < 1:
         raise ConfigError(f"sweep --jobs: got {args.jobs}; expected at least 1 worker")
     if args.scheduler is not None and args.executor == "local":
         raise ConfigError("sweep --scheduler: given with --executor local; expected --executor dask or no "
                           "--executor (a scheduler implies dask)")
     executor = "dask" if args.scheduler is not None else (args.executor or "local")
-    sweep = load_sweep(args.sweep_file)
+    sweep = load_sweep(args.sweep_file, args.overrides)
     out = args.out if args.out is not None else Path("sweeps") / Path(args.sweep_file).stem
     if out.exists() and not out.is_dir():
         raise ConfigError(f"sweep --out: '{out}' exists and is not a folder; expected a folder")
@@ -78,6 +75,10 @@ def cmd_sweep(args) -> int:
     if len(failed) > 5:
         say(args, f"               ... {len(failed) - 5} more (column 'error' of table.csv)")
     say(args, f"  results      {out}/ (points/, table.h5, table.csv{''.join(', ' + n for n in names)})")
+    if failed:
+        say(args, f"topoedge sweep: {len(failed)} of {stats['total']} points failed (exit status "
+                   f"{EXIT_POINTS_FAILED}); the others are in the table")
+        return EXIT_POINTS_FAILED
     return 0
 
 

@@ -65,6 +65,9 @@ class Lattice:
     model_keys: Callable
     periods: dict = field(default_factory=dict)     # ribbon period by orientation, for figure labels
     describe: Callable | None = None    # text-report line of the model (from the summary's "model")
+    #: Largest |flux| at which the continuum scales of ``scales`` (l_B, hbar omega_c or the
+    #: Dirac E_1) describe the lattice Landau levels; None without such scales.
+    continuum_flux_max: float | None = None
 
 
 def _rashba(spin) -> bool:
@@ -225,14 +228,18 @@ LATTICES: dict[str, Lattice] = {entry.kind: entry for entry in (
         supports=_EVERYTHING, params=_square_params,
         bulk=_square_bulk,
         ribbon=_square_ribbon, span=lambda width, orientation: float(width), scales=_square_scales,
-        model_keys=lambda lattice, ribbon: {}, periods={None: "a"}, describe=_square_describe),
+        model_keys=lambda lattice, ribbon: {}, periods={None: "a"}, describe=_square_describe,
+        # measured: the lowest Landau level at flux 1/20, 1/10, 1/8 is 0.48, 0.46,
+        # 0.45 hbar omega_c above the band bottom instead of 0.5
+        continuum_flux_max=1 / 8),
     Lattice(
         kind="honeycomb", title="honeycomb lattice", length_unit="a_cc", cell="hexagon", in_field=True,
         orbitals_per_site=1, sites_per_width=2, cell_sites_per_q=2, orientations=("zigzag", "armchair"),
         own_keys=("staggered",), supports=frozenset({"rashba"}), params=_honeycomb_params,
         bulk=_honeycomb_bulk,
         ribbon=_honeycomb_ribbon, span=_honeycomb_span, scales=_honeycomb_scales, model_keys=_hexagonal_keys,
-        periods={"zigzag": "sqrt(3) a_cc", "armchair": "3 a_cc"}, describe=_honeycomb_describe),
+        periods={"zigzag": "sqrt(3) a_cc", "armchair": "3 a_cc"}, describe=_honeycomb_describe,
+        continuum_flux_max=1 / 8),
     Lattice(
         kind="haldane", title="Haldane model", length_unit="a_cc", cell="", in_field=False,
         orbitals_per_site=1, sites_per_width=2, cell_sites_per_q=2, orientations=("zigzag",),

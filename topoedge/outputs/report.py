@@ -7,6 +7,8 @@ same results in full.
 
 from __future__ import annotations
 
+from fractions import Fraction
+
 from typing import TYPE_CHECKING
 
 from ..models.lattices import lattice
@@ -37,15 +39,20 @@ def format_summary(summary: RunSummary | UnconvergedSummary) -> str:
     honeycomb = entry.length_unit == "a_cc"
     lines.append(f"  lattice      {entry.describe(m.to_dict())}")
     scales = m.scales
+    limit = entry.continuum_flux_max
+    beyond = limit is not None and abs(Fraction(m.flux)) > limit
     if m.magnetic_length_a is not None and honeycomb:
         lines.append(
             f"  scales       l_B = {m.magnetic_length_a:.3f} a_cc, "
-            f"E_1 = sqrt(2) hbar v_F / l_B = {scales['landau_level_1_t']:.4f} t (Dirac limit)"
+            f"E_1 = sqrt(2) hbar v_F / l_B = {scales['landau_level_1_t']:.4f} t "
+            + ("(Dirac limit; not the lattice levels at this flux, see the warning)" if beyond else "(Dirac limit)")
         )
     elif m.magnetic_length_a is not None and not summary.units:
         lines.append(
             f"  scales       l_B = {m.magnetic_length_a:.3f} a, "
-            f"hbar*omega_c = {scales['cyclotron_energy_t']:.4f} t (effective-mass limit)"
+            f"hbar*omega_c = {scales['cyclotron_energy_t']:.4f} t "
+            + ("(effective-mass limit; not the lattice levels at this flux, see the warning)" if beyond
+               else "(effective-mass limit)")
         )
     spin = f"spin 1/2, Zeeman {m.zeeman_t:g} t" if m.spin else "spinless"
     if entry.orbitals_per_site > 1:

@@ -151,9 +151,12 @@ def plot_level_diagram(chern, *, ax, fermi_energy: float | None = None,
 def continuum_levels(result, lo: float, hi: float) -> dict:
     """Continuum Landau levels ``hbar omega_c (n + 1/2) -+ Delta/2`` (t) of a square-lattice run in [lo, hi]."""
     sc = result.scenario
-    hw = lattice(sc.lattice.kind).scales(sc.lattice).get("cyclotron_energy_t")
+    entry = lattice(sc.lattice.kind)
+    hw = entry.scales(sc.lattice).get("cyclotron_energy_t")
     if not hw:       # no effective-mass Landau levels (honeycomb, zero field)
         return {}
+    if entry.continuum_flux_max is not None and abs(sc.lattice.flux) > entry.continuum_flux_max:
+        return {}    # Hofstadter bands: the continuum levels would mislead
     bottom = -4.0 + sc.lattice.onsite
     n = np.arange(int(max(0, (hi - bottom) / hw)) + 2)
     base = bottom + hw * (n + 0.5)

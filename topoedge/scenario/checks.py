@@ -71,6 +71,32 @@ def _check_lattice(s: Scenario) -> None:
             raise ConfigError(f"spin.rashba: got {s.spin.rashba!r} with {what}, which needs S_z conserved "
                               f"(no Rashba term); expected 0 or {key} = false")
     entry = lattice(lat.kind)
+    if entry.in_field and lat.flux == 0 and s.field.b_tesla is None:
+        zero_field = [kind for kind, other in LATTICES.items() if not other.in_field]
+        raise ConfigError(f"lattice.flux: got '0' on the {entry.title}; expected a nonzero flux p/q (without "
+                          "a field there are no Landau levels, no Hall plateau and no chiral edge; topology "
+                          f"at zero field: lattice.kind = {' or '.join(map(repr, zero_field))})")
+    if entry.in_field and s.field.b_tesla is None and lat.flux.denominator > s.field.q_max:
+        raise ConfigError(f"lattice.flux: got '{fraction_text(lat.flux)}'; expected a denominator of at most "
+                          f"field.q_max = {s.field.q_max} (the magnetic cell holds {entry.cell_sites_per_q} x q "
+                          "sites; raise field.q_max to go further)")
+    if entry.in_field and s.field.b_tesla is None and lat.flux != 0:
+        length = entry.scales(lat)["magnetic_length_a"]
+        span = ribbon_span(s)
+        if span < 2 * length:
+            unit = entry.length_unit
+            raise ConfigError(f"ribbon.width: got {s.ribbon.width} ({span:g} {unit} across), less than two "
+                              f"magnetic lengths at flux {fraction_text(lat.flux)} (l_B = {length:.3g} {unit}): "
+                              "no Landau level fits between the edges; expected a wider ribbon or a larger flux")
+    if s.fermi.gap is not None and (s.field.b_tesla is None or not entry.in_field):
+        q = lat.flux.denominator if entry.in_field else 1
+        spins = 2 if entry.in_field and s.spin.enabled else 1
+        bands = entry.cell_sites_per_q * q * entry.orbitals_per_site * spins
+        if s.fermi.gap >= bands:
+            per = f": {bands // spins} per spin x 2 spins" if spins == 2 else ""
+            raise ConfigError(f"fermi.gap: got {s.fermi.gap}; expected 1 <= gap < {bands} (the number of bulk "
+                              f"bands of the {entry.title}{f' at flux {fraction_text(lat.flux)}' if q > 1 else ''}"
+                              f"{per})")
     for name in ("staggered", "t2", "t2_phase", "mass"):
         key, value = f"lattice.{name}", getattr(lat, name)
         kinds = [kind for kind, other in LATTICES.items() if name in other.own_keys]

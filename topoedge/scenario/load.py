@@ -163,7 +163,8 @@ def apply_overrides(data: Mapping[str, Any], overrides: Sequence[str]) -> dict[s
         Items ``path=value`` with a dotted key path of any depth, e.g.
         ``ribbon.edge.width=4``. The value is read as a TOML value, or kept
         as a bare string if it is not one (``lattice.flux=1/30``). Setting
-        ``fermi.gap`` removes ``fermi.energy`` and the other way round.
+        ``fermi.gap`` removes the ``fermi.energy`` of ``data`` and the other
+        way round; setting both is refused.
 
     Returns
     -------
@@ -174,13 +175,15 @@ def apply_overrides(data: Mapping[str, Any], overrides: Sequence[str]) -> dict[s
     Raises
     ------
     ConfigError
-        For an item without ``=`` or with an empty key, or one whose path
-        descends into a value that is not a table.
+        For an item without ``=`` or with an empty key, one whose path
+        descends into a value that is not a table, or two items setting keys
+        that exclude each other (``fermi.gap`` and ``fermi.energy``).
     """
     if isinstance(overrides, str):
         raise TypeError(f"overrides: got the string {show(overrides)}; expected a sequence "
                         "of 'section.key=value' strings (wrap it in a list)")
     merged = plain(data)
+    given: dict[str, str] = {}   # alternative key -> the --set item that set it
     for item in overrides:
         path, eq, text = item.partition("=")
         names = [name.strip() for name in path.split(".")]
@@ -195,9 +198,15 @@ def apply_overrides(data: Mapping[str, Any], overrides: Sequence[str]) -> dict[s
                 raise ConfigError(f"--set {show(item)}: {inner} holds a value, not a table; "
                                   f"expected a key path ending at a key (e.g. {inner}=...)")
         table[names[-1]] = _parse_value(text.strip())
-        for group in _ALTERNATIVES:  # setting one alternative replaces the others
-            if ".".join(names) in group and table is merged.get(names[0]):
-                for other in group - {".".join(names)}:
+        for group in _ALTERNATIVES:  # setting one alternative replaces the others of the file
+            key = ".".join(names)
+            if key in group and table is merged.get(names[0]):
+                clash = [given[other] for other in sorted(group - {key}) if other in given]
+                if clash:
+                    raise ConfigError(f"--set {show(item)}: given together with --set {show(clash[0])}; "
+                                      f"expected only one of {', '.join(sorted(group))}")
+                given[key] = item
+                for other in group - {key}:
                     table.pop(other.rpartition(".")[2], None)
     return merged
 
@@ -243,6 +252,9 @@ def load_scenario(path: str | os.PathLike[str] | None = None,
     except (tomllib.TOMLDecodeError, UnicodeDecodeError) as err:
         raise ConfigError(f"scenario file {str(path)!r}: invalid TOML: {err}; "
                           "expected a valid UTF-8 TOML document") from None
+    if not data:
+        raise ConfigError(f"scenario file {str(path)!r} holds no keys; expected a scenario with at least "
+                          "[lattice] flux = 'p/q' and [fermi] energy or gap (see the shipped 'default')")
     return parse_scenario(apply_overrides(data, overrides), source=str(path))
 
 

@@ -37,6 +37,10 @@ class Key:
     optional: bool = False  # None (absent) is allowed
 
 
+#: Largest energy (units of t) a key accepts: a million times the hopping.
+ENERGY_LIMIT = 1e6
+
+
 def _positive(x):
     return x > 0
 
@@ -50,7 +54,7 @@ KEYS: dict[str, Key] = {key.path: key for key in (
     Key("lattice.flux", "flux", "phi0 per plaquette",
          "Flux per plaquette (per hexagon on the honeycomb lattice) as a fraction p/q; "
          "negative p reverses the field.",
-         "a string 'p/q' such as '1/40'"),
+         "a string 'p/q' with |p/q| < 1 such as '1/40'"),
     Key("lattice.onsite", "float", "t", "Uniform on-site energy.", "a finite energy in t"),
     Key("lattice.staggered", "float", "t", "Sublattice potential M: +M on A, -M on B (honeycomb, haldane).",
          "a finite energy in t"),
@@ -218,6 +222,9 @@ def _to_float(key: Key, value: Any) -> float:
         number = math.inf
     if not math.isfinite(number):
         raise ConfigError(f"{key.path}: got {show(value)} (not finite); expected {key.expect}")
+    if key.unit == "t" and abs(number) > ENERGY_LIMIT:
+        raise ConfigError(f"{key.path}: got {show(value)}; expected {key.expect} of at most "
+                          f"{ENERGY_LIMIT:.0e} t in size (beyond it the hopping t is lost in rounding)")
     return number
 
 
@@ -262,7 +269,7 @@ def _to_length_or_auto(key: Key, value: Any) -> float | str:
 
 def _to_flux(key: Key, value: Any) -> Fraction:
     if isinstance(value, numbers.Integral) and not isinstance(value, bool):
-        return Fraction(int(value))
+        return _one_period(key, value, Fraction(int(value)))
     if isinstance(value, float) and math.isfinite(value):
         near = Fraction(value).limit_denominator(1000)
         raise _type_error(key, value, f"; write it as a string: flux = \"{fraction_text(near)}\"")
@@ -276,7 +283,17 @@ def _to_flux(key: Key, value: Any) -> Fraction:
     if math.gcd(p, q) != 1:
         raise ConfigError(f"{key.path}: got {show(value)}; p and q must be coprime "
                           f"(use '{fraction_text(Fraction(p, q))}')")
-    return Fraction(p, q)
+    return _one_period(key, value, Fraction(p, q))
+
+
+def _one_period(key: Key, value: Any, flux: Fraction) -> Fraction:
+    """Refuse a flux outside (-1, 1): the lattice is periodic in it with period 1, so |flux| >= 1 is a typo."""
+    if abs(flux) < 1:
+        return flux
+    same = flux - round(flux)
+    alias = f"the same lattice as '{fraction_text(same)}'" if same else "zero field on the lattice"
+    raise ConfigError(f"{key.path}: got {show(value)}; expected |p/q| < 1 (the phases exp(2 pi i flux) "
+                      f"repeat with period 1: {fraction_text(flux)} is {alias})")
 
 
 def _to_pairs(key: Key, value: Any) -> tuple[tuple[float, float], ...]:

@@ -148,7 +148,7 @@ class ChernResult:
                 raise GapClosedError(
                     f"E_F = {energy:.6g} t lies inside bulk band {band.index}{spin} "
                     f"({band.energy_min:.6g} .. {band.energy_max:.6g} t); E_F must be in a gap "
-                    f"(open gaps: {self._gap_list()})"
+                    f"(open gaps near it: {self._gap_list(energy)})"
                 )
         for gap in self.gaps:
             if gap.energy_min < energy < gap.energy_max:
@@ -160,7 +160,7 @@ class ChernResult:
             return Gap(0, -np.inf, self.bands[0].energy_min, 0, self._zero_spin(), np.inf)
         if energy > self.bands[-1].energy_max:
             return Gap(len(self.bands), self.bands[-1].energy_max, np.inf, 0, self._zero_spin(), np.inf)
-        raise GapClosedError(f"E_F = {energy:.6g} t is in no open gap (open gaps: {self._gap_list()})")
+        raise GapClosedError(f"E_F = {energy:.6g} t is in no open gap (open gaps near it: {self._gap_list(energy)})")
 
     def gap_above(self, r: int) -> Gap:
         """The gap above the ``r`` lowest bands (spin bands included), 1 <= r < N.
@@ -186,14 +186,25 @@ class ChernResult:
         raise GapClosedError(
             f"the gap above band {r - 1} is closed (bands below reach {top:.6f} t, "
             f"bands above start at {bottom:.6f} t, minimum gap {self.gap_min:g} t); "
-            f"open gaps: {self._gap_list()}", gap=r
+            f"open gaps near it: {self._gap_list(below=r)}", gap=r
         )
 
     def _zero_spin(self):
         return None if self.sectors == (None,) else {s: 0 for s in self.sectors}
 
-    def _gap_list(self) -> str:
-        return ", ".join(f"{g.below} ({g.energy_min:.4g} .. {g.energy_max:.4g} t)" for g in self.gaps) or "none"
+    def _gap_list(self, energy: float | None = None, below: int | None = None, each_side: int = 2) -> str:
+        """The open gaps nearest to ``energy`` (or to the gap above ``below`` bands), a few on each side."""
+        gaps = list(self.gaps)
+        if not gaps:
+            return "none"
+        if energy is not None:
+            split = sum(g.energy_max <= energy for g in gaps)
+        else:
+            split = sum(g.below < (below or 0) for g in gaps)
+        shown = gaps[max(split - each_side, 0):split + each_side]
+        text = ", ".join(f"{g.below} ({g.energy_min:.4g} .. {g.energy_max:.4g} t)" for g in shown)
+        more = len(gaps) - len(shown)
+        return text + (f"; {more} more" if more else "")
 
     def to_dict(self) -> dict:
         return {"grid": list(self.grid), "gap_min": self.gap_min,

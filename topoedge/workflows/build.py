@@ -86,6 +86,11 @@ def memory_estimate(scenario: Scenario, solver: str) -> list[tuple[str, float, s
                                                                    complex_bytes)
     parts.append((f"the ribbon spectrum ({k} momenta x {kept} states)", 12 * k * kept * 8 + 3 * vectors,
                   "expected fewer spectrum.k_points, a spectrum.window or a smaller ribbon.width"))
+    ke = scenario.edges.k_points
+    parts.append((f"the edge scan ({ke} momenta x {per_block} states)", 4 * ke * per_block * 8,
+                  "expected fewer edges.k_points or a smaller ribbon.width"))
+    if scenario.hallbar.enabled:
+        parts.append(hallbar_memory(scenario))
     if solver == "landau":
         q = lat.flux.denominator
         n2 = scenario.chern.grid[1] if scenario.chern.grid else DEFAULT_K2_POINTS
@@ -103,9 +108,26 @@ def memory_estimate(scenario: Scenario, solver: str) -> list[tuple[str, float, s
         scale = 1.5 ** 2 if scenario.chern.refine else 1.0
         parts.append((f"the dense bulk solver ({grid[0]}x{grid[1]} grid, {m} bands per sector)",
                       max(18 * total * total * complex_bytes, 3 * scale * grid[0] * grid[1] * m * m * complex_bytes),
-                      "expected chern.solver = 'auto' or 'landau' (square lattice), a coarser chern.grid or a "
-                      "flux with a smaller denominator"))
+                      ("expected chern.solver = 'auto' or 'landau', " if "landau" in entry.supports else
+                       "expected ") + "a coarser chern.grid or a flux with a smaller denominator"))
     return parts
+
+
+def hallbar_memory(scenario: Scenario) -> tuple[str, float, str]:
+    """Upper bound (bytes) of the Hall bar's build and solve, with the keys that shrink it.
+
+    The sparse LU factorisation of a ``length x width`` strip fills in about
+    ``width`` entries per unknown (nested or banded ordering of a 2D grid,
+    common practice), so the solve holds ``~ 16 orb^2 length width^2`` bytes.
+    """
+    bar = scenario.hallbar
+    orb = 2 if scenario.spin.enabled else 1
+    sites = bar.length * bar.width
+    margin = bar.width + 2   # the frame around the bar used for the edge distances
+    build = sites * KWANT_SITE_BYTES + 5 * 8 * (bar.length + 2 * margin) * (bar.width + 2 * margin)
+    solve = 4 * 16 * orb * orb * sites * min(bar.width, bar.length)
+    return (f"the Hall bar ({bar.length} x {bar.width} sites)", max(build, solve),
+            "expected a smaller hallbar.length or hallbar.width")
 
 
 def harper_cell(scenario: Scenario) -> HarperCell:

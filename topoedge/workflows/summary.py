@@ -5,10 +5,13 @@ The records it returns are in :mod:`topoedge.workflows.records` (workflow stage)
 
 from __future__ import annotations
 
+from fractions import Fraction
+
 import numpy as np
 from .. import __version__
 from ..models.lattices import lattice
 from ..scenario import Scenario
+from ..scenario.schema import fraction_text
 from ..scenario.units import Derived
 from ..solvers.chern import ChernResult, Gap, SubspaceChern
 from ..solvers.edges import EdgeCount
@@ -101,6 +104,13 @@ def summarize(scenario: Scenario, spec: RibbonSpectrum, potential: np.ndarray, *
     lat = scenario.lattice
     entry = lattice(lat.kind)
     warnings = list(units.warnings) if units is not None else []
+    if entry.continuum_flux_max is not None and abs(lat.flux) > entry.continuum_flux_max:
+        warnings.append(
+            f"flux {lat.flux.numerator}/{lat.flux.denominator} is beyond the continuum limit (|flux| <= "
+            f"{fraction_text(Fraction(entry.continuum_flux_max))}): the Landau levels of the lattice are "
+            "Hofstadter bands there, and the continuum l_B and level spacing (the scales line, "
+            "model.scales) do not "
+            "describe them")
     bulk = BulkInfo(chern=chern, refined=refined, gap=gap, solver_reason=solver_reason, subspace=subspace)
     if bulk.subspace_agree is False:
         warnings.append(

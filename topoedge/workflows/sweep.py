@@ -43,6 +43,7 @@ import math
 import os
 import time
 import tomllib
+from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -194,8 +195,11 @@ def _axis_values(spec: Any, i: int) -> list:
     return [float(start + n * step) for n in range(count)]
 
 
-def parse_sweep(data: dict, *, base_dir: Path | None = None, source: str | None = None) -> Sweep:
+def parse_sweep(data: dict, *, base_dir: Path | None = None, source: str | None = None,
+                overrides: Sequence[str] = ()) -> Sweep:
     """Validate a sweep table (see the module notes) before any point runs.
+
+    ``overrides`` (``section.key=value``) are applied to the base scenario.
 
     Raises
     ------
@@ -225,6 +229,8 @@ def parse_sweep(data: dict, *, base_dir: Path | None = None, source: str | None 
     elif not isinstance(base, dict):
         raise SweepError(f"scenario: got {base!r}; expected a scenario file path or a [scenario] table")
     try:
+        if overrides:
+            base = apply_overrides(base, overrides)
         parse_scenario(base)
     except ConfigError as err:
         raise SweepError(f"scenario: {err}") from None
@@ -252,6 +258,10 @@ def parse_sweep(data: dict, *, base_dir: Path | None = None, source: str | None 
             raise SweepError(f"axis[{i}].key: {key!r} is swept twice; expected each key once")
         # Keep the TOML form (a flux stays "p/q") for the overrides and the table.
         axes.append(Axis(key, tuple(plain(v) for v in converted)))
+    for item in overrides:
+        key = ".".join(name.strip() for name in item.partition("=")[0].split("."))
+        if any(a.key == key for a in axes):
+            raise SweepError(f"--set {item!r}: {key} is an axis of this sweep; expected a key that is not swept")
     if mode == "zip" and len({len(a.values) for a in axes}) > 1:
         lengths = ", ".join(f"{a.key}: {len(a.values)}" for a in axes)
         raise SweepError(f"axis: zipped axes have different lengths ({lengths}); expected the same length")
@@ -267,8 +277,12 @@ def parse_sweep(data: dict, *, base_dir: Path | None = None, source: str | None 
     return Sweep(title, base, tuple(axes), mode, tuple(quantities), source)
 
 
-def load_sweep(path: str | os.PathLike) -> Sweep:
-    """Read and validate a sweep file (:func:`parse_sweep`), or a shipped sweep by name."""
+def load_sweep(path: str | os.PathLike, overrides: Sequence[str] = ()) -> Sweep:
+    """Read and validate a sweep file (:func:`parse_sweep`), or a shipped sweep by name.
+
+    ``overrides`` (``section.key=value`` items, as ``--set``) change the base
+    scenario of every point; a key that is an axis of the sweep is refused.
+    """
     from ..scenario import find_shipped, shipped
 
     path = find_shipped(path, "sweeps")
@@ -279,7 +293,7 @@ def load_sweep(path: str | os.PathLike) -> Sweep:
                          f"shipped sweep ({', '.join(shipped('sweeps'))})") from None
     except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError) as err:
         raise SweepError(f"sweep file {str(path)!r}: {err}".replace("\n", " ")) from None
-    return parse_sweep(data, base_dir=path.parent, source=str(path))
+    return parse_sweep(data, base_dir=path.parent, source=str(path), overrides=overrides)
 
 
 def point_key(config: dict) -> str:
