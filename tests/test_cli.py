@@ -51,7 +51,8 @@ TINY_GAP = (-3.37, -2.40)
 TINY_IN_BAND = -3.47
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 FIGURES = {"ribbon_spectrum.png", "bulk_bands.png"}
-RUN_FILES = {"summary.json", "spectrum.h5"} | FIGURES
+TABLES = {"edge_modes.csv", "bulk_bands.csv", "bulk_gaps.csv", "hall_routes.csv"}
+RUN_FILES = {"summary.json", "spectrum.h5"} | FIGURES | TABLES
 H5_DATASETS = {"k", "energy", "velocity", "y_mean", "y_spread", "sz", "count", "potential"}
 H5_GROUPS = {"bulk", "edge_modes", "config"}
 

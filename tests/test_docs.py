@@ -504,7 +504,7 @@ def lookup(data, path: str) -> list:
 def test_run_writes_the_files_the_outputs_page_names(tiny_run):
     _, out = tiny_run
     intro = page("outputs").split(".. _summary-json:")[0]
-    named = set(re.findall(r"``([\w.]+\.(?:json|h5|png))``", intro))
+    named = set(re.findall(r"``([\w.]+\.(?:json|h5|png|csv))``", intro))
     assert named == {p.name for p in out.iterdir()}
 
 
@@ -589,3 +589,25 @@ def test_spectrum_h5_table_matches_the_file(tiny_run):
                     assert name in f, f"the outputs page lists {name}, not in spectrum.h5"
             if "attribute" in cells[0] and names:
                 assert names[-1] in f[names[0]].attrs, cells[0]
+
+
+def test_the_flux_two_fifths_example_does_what_the_run_page_says():
+    # docs/tutorials/run.rst: the flux 2/5 spinless ribbon with a hard wall
+    # has C = -2 in its lowest gap (TKNN: r = q s + p t with r = 1, q = 5,
+    # p = 2 gives t = -2, from memory of the Diophantine rule), two modes per
+    # edge, along -x at the bottom and +x at the top.
+    from topoedge.workflows import run_scenario
+
+    line = next(line for line in rst_code_blocks(page("tutorials/run"), "sh")[0].splitlines()
+                if "lattice.flux=2/5" in line)
+    words = line.split("#")[0].split()
+    items = [value for option, value in zip(words, words[1:]) if option == "--set"]
+    result = run_scenario(config.load_scenario(None, items))
+    summary = result.summary
+    assert summary.bulk.chern_below_fermi == -2
+    bottom, top = summary.edges.bottom, summary.edges.top
+    assert (bottom.net, top.net, bottom.counter_pairs, top.counter_pairs) == (-2, 2, 0, 0)
+    assert [m.velocity < 0 for m in bottom.modes] == [True, True]
+    assert [m.velocity > 0 for m in top.modes] == [True, True]
+    assert summary.model.edge_profile == "none"
+    assert any("beyond the continuum limit" in w for w in summary.warnings)

@@ -253,10 +253,26 @@ def test_hallbar_command_scans_the_plateaus(tmp_path):
                            "--out", str(out), "--json", "--quiet"], capture_output=True, text=True, cwd=tmp_path)
     assert proc.returncode == 0, proc.stderr
     summary = json.loads(proc.stdout)
-    assert {p.name for p in out.iterdir()} == {"summary.json", "hallbar.h5", "hallbar.png"}
+    assert {p.name for p in out.iterdir()} == {"summary.json", "hallbar.h5", "hallbar.csv", "hallbar.png"}
     assert summary["chern"] == [1, 1, 1]
+    # E_F in the gap above one band at flux 1/10: filling factor 1/|p| = 1
+    # (common practice, no source), the flux of every point given.
+    assert summary["filling_bulk"] == [1.0, 1.0, 1.0] and summary["flux"] == ["1/10"] * 3
     for r_xy, r_xx in zip(summary["r_xy"], summary["r_xx"]):
         assert r_xy == pytest.approx(-1.0, rel=1e-6) and abs(r_xx) < 1e-6
+    import csv
+
+    rows = list(csv.DictReader((out / "hallbar.csv").open()))
+    assert len(rows) == 3 and rows[0]["energy (t)"] == "-3.2" and rows[0]["status"] == "ok"
+    assert float(rows[1]["r_xy (h/e^2)"]) == pytest.approx(-1.0, rel=1e-6)
+    assert float(rows[1]["r_xy_ohm (ohm)"]) == pytest.approx(-const.physical_constants["von Klitzing constant"][0],
+                                                             rel=1e-6)
+    # The negative range without "=", and the printed table.
+    again = subprocess.run([sys.executable, "-m", "topoedge", "hallbar", str(config), "--energies", "-3.2:-2.6:2",
+                            "--out", str(tmp_path / "again")], capture_output=True, text=True, cwd=tmp_path)
+    assert again.returncode == 0, again.stderr
+    table = [line.split() for line in again.stdout.splitlines() if line.strip().startswith("-3.2000")]
+    assert table and table[0][:4] == ["-3.2000", "1.00", "1", "-1.00000"]
     bad = subprocess.run([sys.executable, "-m", "topoedge", "hallbar", str(config), "--energies=1:0:3",
                           "--out", str(tmp_path / "bad")], capture_output=True, text=True, cwd=tmp_path)
     assert bad.returncode == 2 and bad.stderr.count("\n") == 1 and "expected LO:HI:N" in bad.stderr
@@ -377,9 +393,12 @@ def test_hallbar_command_scans_the_field(tmp_path, capsys):
     assert cli.main(["hallbar", str(_field_scenario(tmp_path)), "--fields", "3:8:2", "--jobs", "1", "--out",
                      str(out), "--json", "--quiet"]) == 0
     printed = json.loads(capsys.readouterr().out)
-    assert {p.name for p in out.iterdir()} == {"summary.json", "hallbar.h5", "hallbar.png"}
+    assert {p.name for p in out.iterdir()} == {"summary.json", "hallbar.h5", "hallbar.csv", "hallbar.png"}
     assert json.loads((out / "summary.json").read_text()) == printed
     assert printed["b_tesla"] == [3.0, 8.0] and printed["chern"] == [-4, -2]
+    # the bulk filling factor at every field: r/|p| above r bands (|C| = nu here)
+    assert printed["filling_bulk"] == [4.0, 2.0] and all("/" in f for f in printed["flux"])
+    assert not list(tmp_path.glob(".hallbar-*.points"))     # the points folder is gone once written
     for r_xy, r_ohm, c in zip(printed["r_xy"], printed["r_xy_ohm"], printed["chern"]):
         assert r_xy == pytest.approx(-1.0 / c, rel=1e-6)
         assert r_ohm == pytest.approx(-const.h / (c * const.e**2), rel=1e-6)   # exact SI h and e

@@ -263,8 +263,8 @@ def test_sweep_figures(local_run, tmp_path):
     assert set(figures) == {f"map-{q}" for q in sweep.quantities}
     ax = figures["map-chern"].axes[0]
     legend = ax.get_legend()
-    assert [t.get_text() for t in legend.get_texts()] == ["2"]
-    assert ax.get_xlabel() == "ribbon.edge.width" and ax.get_ylabel() == "spin.zeeman"
+    assert [t.get_text() for t in legend.get_texts()][0] == "2"
+    assert ax.get_xlabel() == "ribbon.edge.width (a)" and ax.get_ylabel() == "spin.zeeman (t)"
     for fig in figures.values():
         plt.close(fig)
     line = parse_sweep({**SWEEP, "axis": SWEEP["axis"][:1]})

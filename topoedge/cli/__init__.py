@@ -17,6 +17,7 @@ one line on standard error and exit status 2, before anything is written.
 from __future__ import annotations
 
 import argparse
+import re
 import sys
 import warnings
 
@@ -51,9 +52,30 @@ def _parser() -> argparse.ArgumentParser:
     return parser
 
 
+#: Options whose value may start with a minus sign (a range of negative energies).
+_RANGE_OPTIONS = ("--energies", "--fields")
+_NUMBER_START = re.compile(r"^-(\d|\.\d)")
+
+
+def _join_negative_values(argv: list[str]) -> list[str]:
+    """``--energies -3.95:-3.3:14`` as ``--energies=-3.95:-3.3:14``: argparse would take the value for an option."""
+    out: list[str] = []
+    i = 0
+    while i < len(argv):
+        word = argv[i]
+        if word in _RANGE_OPTIONS and i + 1 < len(argv) and _NUMBER_START.match(argv[i + 1]):
+            out.append(f"{word}={argv[i + 1]}")
+            i += 2
+            continue
+        out.append(word)
+        i += 1
+    return out
+
+
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the ``topoedge`` command."""
-    args = _parser().parse_args(argv)
+    argv = list(sys.argv[1:] if argv is None else argv)
+    args = _parser().parse_args(_join_negative_values(argv))
     # kwant warns at import that its sparse solver falls back to SciPy; the
     # ribbon and bulk calculations do not use that solver.
     warnings.filterwarnings("ignore", message="MUMPS is not available")

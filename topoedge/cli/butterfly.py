@@ -44,12 +44,24 @@ def cmd_butterfly(args) -> int:
     # With [field], the Zeeman splitting (in t) is the one at the scenario's
     # field, kept the same at every flux of the spectrum.
     model = resolve(scenario).scenario
-    result = compute_butterfly(
-        args.q_max, spin=model.spin.enabled, zeeman=model.spin.zeeman, onsite=model.lattice.onsite,
-        jobs=args.jobs, full_grid=args.full_grid, progress=sys.stdout.isatty() and not args.quiet,
-    )
+    from ..util.points import PointStore, points_folder
+
+    options = dict(spin=model.spin.enabled, zeeman=model.spin.zeeman, onsite=model.lattice.onsite,
+                   full_grid=args.full_grid)
+    store = PointStore(points_folder(out, "butterfly", options))
+    earlier = store.count()
+    if earlier:
+        say(args, f"topoedge butterfly: continuing an interrupted run: {earlier} fluxes from {store.folder}")
+    try:
+        result = compute_butterfly(args.q_max, jobs=args.jobs, progress=sys.stderr.isatty() and not args.quiet,
+                                   store=store, **options)
+    except KeyboardInterrupt:
+        print(f"topoedge: interrupted; {store.count()} finished fluxes are kept in {store.folder}; run the same "
+              "command again to compute the rest", file=sys.stderr)
+        return 130
     summary = butterfly_summary(result, min_gap=args.min_gap, scenario=scenario)
     write_butterfly(out, result, summary, force=args.force)
+    store.clear()
     if args.json:
         print(json.dumps(summary, indent=2))
     say(args, format_butterfly(summary, out))

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import math
 import time
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -62,10 +63,15 @@ def scan_range(text: str | None, option: str, unit: str) -> tuple[float, float, 
     parts = text.split(":")
     try:
         lo, hi, n = float(parts[0]), float(parts[1]), int(parts[2])
-        assert len(parts) == 3 and lo < hi and n >= 2
+        assert len(parts) == 3 and math.isfinite(lo) and math.isfinite(hi) and lo < hi and 2 <= n <= MAX_SCAN_POINTS
     except (ValueError, IndexError, AssertionError):
-        raise ConfigError(f"hallbar {option}: got {text!r}; expected LO:HI:N with LO < HI ({unit}) and N >= 2 steps")
+        raise ConfigError(f"hallbar {option}: got {text!r}; expected LO:HI:N with finite LO < HI ({unit}) and "
+                          f"2 <= N <= {MAX_SCAN_POINTS} steps (e.g. {option}=-3.95:-3.3:14)") from None
     return lo, hi, n
+
+
+#: Most points of one ``hallbar`` scan (each point is a Hall-bar solve).
+MAX_SCAN_POINTS = 10000
 
 
 def require_support(scenario, command: str) -> None:

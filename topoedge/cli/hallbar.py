@@ -2,9 +2,11 @@
 
 from __future__ import annotations
 
+import sys
 from pathlib import Path
 
 from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario, resolve
+from ..scenario.checks import check_hallbar
 from ..util.jsonio import dumps
 from .common import Command, default_out, require_support, say, scan_range
 
@@ -23,6 +25,7 @@ def cmd_hallbar(args) -> int:
     from ..workflows.build import hallbar_memory
 
     require([hallbar_memory(scenario)])
+    check_hallbar(scenario)
     if fields is not None:
         if scenario.field.b_tesla is None:
             raise ConfigError("hallbar --fields: the scenario has no [field] section; expected a scenario "
@@ -42,36 +45,54 @@ def cmd_hallbar(args) -> int:
     from ..util.progress import Progress, progress_mode
 
     progress = Progress(progress_mode(quiet=args.quiet))
-    if fields is not None:
-        try:
-            scan = hallbar_field_scan(resolved, np.linspace(*fields), jobs=args.jobs, progress=progress)
-        except ValueError as err:
-            raise ConfigError(f"hallbar --fields: {err}") from None
-        axis = "b_tesla"
-    else:
-        energies = np.linspace(*window) if window is not None else default_energies(resolved)
-        scan = hallbar_scan(resolved, energies, progress=progress)
-        axis = "energy"
+    from ..util.points import PointStore, points_folder
+
+    axis = "energy" if fields is None else "b_tesla"
+    store = PointStore(points_folder(out, f"hallbar-{axis}", model.to_dict()))
+    earlier = store.count()
+    if earlier:
+        say(args, f"topoedge hallbar: continuing an interrupted scan: {earlier} points from {store.folder}")
+    try:
+        if fields is not None:
+            try:
+                scan = hallbar_field_scan(resolved, np.linspace(*fields), jobs=args.jobs, progress=progress,
+                                          store=store)
+            except ValueError as err:
+                raise ConfigError(f"hallbar --fields: {err}") from None
+        else:
+            energies = np.linspace(*window) if window is not None else default_energies(resolved)
+            scan = hallbar_scan(resolved, energies, progress=progress, store=store)
+    except KeyboardInterrupt:
+        print(f"topoedge: interrupted; {store.count()} finished points are kept in {store.folder}; run the "
+              "same command again to compute the rest", file=sys.stderr)
+        return 130
     import matplotlib
 
     matplotlib.use("Agg")
-    from ..outputs.hallbar import hallbar_summary, write_hallbar
+    from ..outputs.hallbar import format_hallbar_table, hallbar_rows, hallbar_summary, write_hallbar
 
     summary = hallbar_summary(scenario, scan, axis)
     where = (f"flux {model.lattice.flux}" if fields is None
              else f"E_F = {scan['fermi_mev']:.3f} meV above the band bottom")
     write_hallbar(out, scenario, scan, summary, axis=axis, force=args.force,
                   title=f"{scenario.title or 'Hall bar'}: {model.hallbar.length}x{model.hallbar.width} sites, {where}")
+    store.clear()
     if args.json:
         print(dumps(summary, indent=2))
+    else:
+        say(args, format_hallbar_table(hallbar_rows(scan, axis), axis))
     xs = scan[axis]
     ok = sum(1 for r in scan["r_xy"] if r == r)
     what = "Fermi energies" if fields is None else "fields"
     unit = "t" if fields is None else "T"
+    n_err = len(scan["errors"])
     say(args, f"topoedge hallbar: {len(xs)} {what} from {xs[0]:.4f} to {xs[-1]:.4f} {unit}"
                + ("" if fields is None else f" at {where}")
-               + f", {ok} solved, {len(scan['errors'])} without open channels in every lead")
-    say(args, f"  results      {out}/ (summary.json, hallbar.h5, hallbar.png)")
+               + f", {ok} solved" + ("" if not n_err else
+                                     f", {n_err} with no open channel in some lead (E_F below its lowest level)"
+                                     if all("channel" in e[1] for e in scan["errors"]) else
+                                     f", {n_err} not solved (column status of hallbar.csv)"))
+    say(args, f"  results      {out}/ (summary.json, hallbar.h5, hallbar.csv, hallbar.png)")
     return 0
 
 

@@ -71,6 +71,7 @@ from functools import lru_cache
 import kwant
 import numpy as np
 from scipy.spatial import cKDTree
+from .bar_layout import check_flat, validate_probes
 from .square import landau_hopping, square_lattice
 
 __all__ = ["LEAD_NAMES", "hallbar_builder", "hallbar_params"]
@@ -83,9 +84,6 @@ LEAD_NAMES = ("source", "top left", "top right", "drain", "bottom right", "botto
 _PAULI_Z = np.diag([1.0, -1.0])
 
 
-#: The edge potential at the centre of the bar (or of a lead) must have decayed
-#: below this fraction of its largest value.
-_FLAT_FRACTION = 1e-2
 
 
 # --------------------------------------------------------------------- geometry
@@ -119,20 +117,6 @@ def _bar_distances(length, width, lead_rows, probe_cols):
     bx, by = np.meshgrid(np.arange(length), np.arange(width), indexing="ij")
     dist, _ = cKDTree(walls).query(np.column_stack([bx.ravel(), by.ravel()]))
     return (dist - 1.0).reshape(length, width)
-
-
-def _check_flat(potential, span, what):
-    """Raise if the edge potential has not decayed in the middle of ``span`` rows."""
-    d = np.arange(span, dtype=float)
-    values = np.abs(np.asarray(potential(np.minimum(d, span - 1 - d)), dtype=float))
-    edge = float(np.abs(potential(np.array([0.0]))[0]))
-    centre = float(values.min()) if values.size else 0.0
-    if edge > 0 and centre > _FLAT_FRACTION * edge:
-        raise ValueError(
-            f"the {what} ({span} sites) is narrower than the edge potential: at its centre the "
-            f"potential is still {centre:.3g} t (edge value {edge:.3g} t, at most "
-            f"{_FLAT_FRACTION:g} of it is allowed); widen the {what} or shorten the ramp"
-        )
 
 
 # --------------------------------------------------------------------- builder
@@ -213,22 +197,11 @@ def hallbar_builder(
     if len(probe_positions) != 2:
         raise ValueError(f"probe_positions needs two columns (left, right probe), got {probe_positions!r}")
     xa, xb = (int(x) for x in probe_positions)
-    if not (0 <= xa and xa + pw <= xb and xb + pw <= length):
-        raise ValueError(
-            f"probes of {pw} columns at x = {xa}, {xb} must fit in the bar (0 .. {length - 1}) "
-            f"without overlapping: need 0 <= {xa}, {xa} + {pw} <= {xb} and {xb} + {pw} <= {length}"
-        )
-    if gauge not in ("columns", "kwant"):
-        raise ValueError(f"gauge: got {gauge!r}; expected 'columns' or 'kwant'")
-    if gauge == "columns" and not (xa >= 1 and xb + pw <= length - 1):
-        raise ValueError(
-            f"probes at x = {xa}, {xb} ({pw} columns) touch the first or last column of the bar, "
-            f"where the source and drain attach; need 1 <= {xa} and {xb} + {pw} <= {length - 1}"
-        )
+    validate_probes(length, pw, (xa, xb), gauge=gauge)
     if potential is not None:
-        _check_flat(potential, width, "bar")
-        _check_flat(potential, lead_width, "source/drain lead")
-        _check_flat(potential, pw, "voltage probe")
+        check_flat(potential, width, "bar")
+        check_flat(potential, lead_width, "source/drain lead")
+        check_flat(potential, pw, "voltage probe")
 
     y0 = (width - lead_width) // 2
     lead_rows = (y0, y0 + lead_width)

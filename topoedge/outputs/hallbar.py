@@ -15,10 +15,20 @@ from ..util.jsonio import plain_json
 if TYPE_CHECKING:
     from ..scenario import Scenario
 
-__all__ = ["HALLBAR_FILES", "AXIS_UNITS", "hallbar_summary", "write_hallbar"]
+__all__ = ["HALLBAR_FILES", "AXIS_UNITS", "hallbar_summary", "hallbar_rows", "format_hallbar_table",
+           "write_hallbar"]
 
 #: Files of a Hall-bar results folder.
-HALLBAR_FILES = ("summary.json", "hallbar.h5", "hallbar.png")
+HALLBAR_FILES = ("summary.json", "hallbar.h5", "hallbar.csv", "hallbar.png")
+
+#: Columns of hallbar.csv after the scan axis (present ones only), with their units.
+CSV_COLUMNS = {
+    "b_lattice_tesla": "T", "flux": "phi0 per plaquette", "filling": "n h/(e B)",
+    "filling_bulk": "bulk gap r/|p|", "chern": "", "chern_up": "", "chern_down": "",
+    "r_xy": "h/e^2", "r_xy_sem": "h/e^2", "r_xx": "h/e^2", "r_xx_sem": "h/e^2",
+    "r_xy_ohm": "ohm", "r_xx_ohm": "ohm", "r_xy_bulk": "h/e^2",
+    "r_xy_up": "h/e^2", "r_xx_up": "h/e^2", "r_xy_down": "h/e^2", "r_xx_down": "h/e^2",
+}
 
 #: What the scan axis and the fixed quantities mean, by axis.
 AXIS_UNITS = {
@@ -45,8 +55,81 @@ def hallbar_summary(scenario: Scenario, scan: dict, axis: str) -> dict:
         scan[f"{key}_ohm"] = [None if v is None or v != v else v * VON_KLITZING for v in scan[key]]
     summary = {"title": scenario.title, "source": scenario.source, "config": scenario.to_dict(),
                "units": f"{AXIS_UNITS[axis]}; r_xy, r_xx in h/e^2 (per spin: r_xy_up, ...), r_xy_ohm, r_xx_ohm "
-                        "in ohm; R_xy = -1/sigma_xy; r_xy_bulk = -1/C from the bulk Chern sum", **scan}
+                        "in ohm; R_xy = -1/sigma_xy; r_xy_bulk = -1/C from the bulk Chern sum; filling_bulk = r/|p| "
+                        "for E_F in the bulk gap above r bands at flux p/q", **scan}
     return plain_json(summary)
+
+
+def hallbar_rows(scan: dict, axis: str) -> list[dict]:
+    """One dict per scan point: the axis value, the columns of :data:`CSV_COLUMNS` and ``status``.
+
+    ``status`` is ``ok`` or the reason the bar could not be solved (e.g. no
+    open channel in some lead: E_F below the lowest Landau level there).
+    """
+    errors = {float(x): message for x, message in scan.get("errors", [])}
+    rows = []
+    for i, x in enumerate(scan[axis]):
+        row = {axis: x}
+        for key in CSV_COLUMNS:
+            value = scan.get(key)
+            if isinstance(value, list):
+                v = value[i]
+                row[key] = None if v is None or (isinstance(v, float) and v != v) else v
+        row["status"] = "ok" if float(x) not in errors else errors[float(x)]
+        rows.append(row)
+    return rows
+
+
+def _csv_text(rows: list[dict], axis: str) -> str:
+    import csv
+    import io
+
+    unit = {"energy": "t", "b_tesla": "T"}[axis]
+    columns = [axis] + [c for c in CSV_COLUMNS if rows and c in rows[0]] + ["status"]
+    buffer = io.StringIO()
+    writer = csv.writer(buffer)
+    writer.writerow([f"{c} ({unit})" if c == axis else (f"{c} ({CSV_COLUMNS[c]})" if CSV_COLUMNS.get(c) else c)
+                     for c in columns])
+    for row in rows:
+        writer.writerow([_cell(row.get(c)) for c in columns])
+    return buffer.getvalue()
+
+
+def _small(value) -> str:
+    """R_xx for the table: numerical zeros (below 1e-12 h/e^2) as 0."""
+    if value is None:
+        return format("-", ">12")
+    return format(0.0, ">12.1f") if abs(value) < 1e-12 else format(value, ">12.2e")
+
+
+def _cell(value) -> str:
+    return "" if value is None else (f"{value:.12g}" if isinstance(value, float) else str(value))
+
+
+def format_hallbar_table(rows: list[dict], axis: str) -> str:
+    """The scan as a text table: axis, flux (field scans), filling, C, R_xy, R_xx, R_xy in kOhm, status."""
+    head = "E_F (t)" if axis == "energy" else "B (T)"
+    field = axis == "b_tesla"
+    lines = [f"  {head:>9}" + ("  flux      " if field else "") + "  nu     C   R_xy (h/e^2)  R_xx (h/e^2)"
+             "  R_xy (kOhm)  bulk -1/C"]
+
+    def num(v, fmt):
+        width = int(fmt[1:].split(".")[0].rstrip("d"))
+        return format("-", f">{width}") if v is None else format(v, fmt)
+
+    for row in rows:
+        nu = row.get("filling_bulk")
+        if field and row.get("filling") is not None:
+            nu = row["filling"]
+        note = "" if row["status"] == "ok" else ("  no open channel in every lead" if "channel" in row["status"]
+                                                  else f"  {row['status'][:60]}")
+        lines.append(
+            f"  {row[axis]:>9.4f}" + (f"  {row.get('flux', ''):<8}" if field else "")
+            + f"  {num(nu, '>4.2f')}  {num(row.get('chern'), '>4d')}"
+            + f"  {num(row.get('r_xy'), '>12.5f')}  {_small(row.get('r_xx'))}"
+            + f"  {num(None if row.get('r_xy_ohm') is None else row['r_xy_ohm'] / 1e3, '>11.4f')}"
+            + f"  {num(row.get('r_xy_bulk'), '>9.5f')}{note}")
+    return "\n".join(lines)
 
 
 def _write_h5(path: Path, scenario: Scenario, scan: dict, units: str) -> None:
@@ -85,6 +168,8 @@ def write_hallbar(out: Path, scenario: Scenario, scan: dict, summary: dict, *, a
         finally:
             plt.close(fig)
 
+    csv_text = _csv_text(hallbar_rows(scan, axis), axis)
     return write_folder(out, {"summary.json": write_json(summary),
                               "hallbar.h5": lambda path: _write_h5(path, scenario, scan, summary["units"]),
+                              "hallbar.csv": lambda path: path.write_text(csv_text),
                               "hallbar.png": figure}, force=force)

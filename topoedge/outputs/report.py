@@ -12,6 +12,7 @@ from fractions import Fraction
 from typing import TYPE_CHECKING
 
 from ..models.lattices import lattice
+from ..util.text import count
 
 if TYPE_CHECKING:  # the report only reads records
     from ..workflows.interacting_records import InteractionInfo, OrderedMode
@@ -267,9 +268,9 @@ def _topology_lines(summary: RunSummary) -> list[str]:
     elif b.chern.solver:
         solver = "dense solver (every band); "
     lines = [
-        f"  bulk         {solver}{len(b.chern.bands)} bands, {len(b.chern.gaps)} open gaps on a "
+        f"  bulk         {solver}{count(len(b.chern.bands), 'band')}, {count(len(b.chern.gaps), 'open gap')} on a "
         f"{b.chern.grid[0]}x{b.chern.grid[1]} grid{conv}",
-        f"  Fermi energy {f.energy:.5f} t in the gap above {f.gap_below} bands "
+        f"  Fermi energy {f.energy:.5f} t in the gap above {count(f.gap_below, 'band')} "
         + (f"({window})" if f.note is None else "(self-consistent: mid-way between the highest occupied "
            "and the lowest empty level)"),
         f"  Chern sum    C = {b.chern_below_fermi}{spin}" + _subspace_note(b),

@@ -49,7 +49,7 @@ from typing import TYPE_CHECKING
 
 from .. import __version__
 from ..util.atomic import atomic_file, write_folder, write_json
-from ..util.jsonio import dumps
+from ..util.jsonio import dumps, plain_json
 
 if TYPE_CHECKING:  # the writers only read a RunResult; importing it would load kwant
     from ..workflows import RunResult
@@ -279,6 +279,10 @@ def write_run(
         Replace an existing folder.
     """
     files = {"summary.json": write_json(result.summary)}
+    from .tables import run_tables
+
+    for name, text in run_tables(plain_json(result.summary.to_dict())).items():
+        files[name] = lambda path, text=text: path.write_text(text)
     if result.spectrum is not None:
         files["spectrum.h5"] = lambda path: write_spectrum_h5(path, result)
     if result.interacting is not None:

@@ -10,10 +10,20 @@ from __future__ import annotations
 
 from .units import Derived, UnitsError, derive
 from .sections import ConfigError, Scenario
+from ..models.bar_layout import check_layout
 from ..models.lattices import LATTICES, lattice
+from ..models.profiles import EDGE_PROFILES
 from .schema import fraction_text
 
-__all__ = ["check_combinations", "ribbon_span", "derive_units", "MATERIAL_KEYS"]
+__all__ = ["check_combinations", "check_hallbar", "ribbon_span", "derive_units", "MATERIAL_KEYS"]
+
+
+def edge_potential_at(d, edge):
+    """The edge potential (t) of ``ribbon.edge`` at distances ``d`` (a) from the edge."""
+    import numpy as np
+
+    return EDGE_PROFILES[edge.profile](np.asarray(d, dtype=float), width=edge.width, height=edge.height,
+                                       table=edge.table)
 
 
 def check_combinations(s: Scenario) -> None:
@@ -33,10 +43,8 @@ def check_combinations(s: Scenario) -> None:
                           f"{edge.profile!r}; expected no table for that profile "
                           "(set ribbon.edge.profile = 'table' to use it)")
     _check_units(s)
-    bar = s.hallbar
-    if bar.enabled and bar.width <= 2 * edge.width:
-        raise ConfigError(f"hallbar.width: got {bar.width}, not wider than the two edge ramps "
-                          f"(2 x ribbon.edge.width = {2 * edge.width:g}); expected a wider bar")
+    if s.hallbar.enabled:
+        check_hallbar(s)
     if s.fermi.energy is not None and s.fermi.gap is not None:
         raise ConfigError(f"fermi.gap: got {s.fermi.gap} together with fermi.energy = "
                           f"{s.fermi.energy!r}; expected only one of them")
@@ -47,6 +55,34 @@ def check_combinations(s: Scenario) -> None:
         raise ConfigError(f"spin.zeeman: got {s.spin.zeeman!r} with spin.enabled = false; "
                           f"expected 0 without spin (spin.zeeman = {s.spin.zeeman!r} needs "
                           "spin.enabled = true)")
+
+
+def check_hallbar(s: Scenario) -> None:
+    """The Hall bar of ``[hallbar]`` (used by the run with ``hallbar.enabled`` and by ``topoedge hallbar``)."""
+    bar, edge = s.hallbar, s.ribbon.edge
+    if bar.width <= 2 * edge.width:
+        raise ConfigError(f"hallbar.width: got {bar.width}, not wider than the two edge ramps "
+                          f"(2 x ribbon.edge.width = {2 * edge.width:g}); expected a wider bar")
+    potential = None
+    if edge.profile != "none":
+        def potential(d):
+            return edge_potential_at(d, edge)
+    try:
+        check_layout(bar.length, bar.width, potential)
+    except ValueError as err:
+        shortest = next((n for n in range(bar.length + 1, 64 * bar.width + 64) if _fits(n, bar.width, potential)),
+                        None)
+        hint = f"expected hallbar.length >= {shortest}" if shortest else "expected a longer or wider bar"
+        raise ConfigError(f"hallbar.length: got {bar.length} with hallbar.width = {bar.width}: {err}; "
+                          f"{hint}") from None
+
+
+def _fits(length: int, width: int, potential) -> bool:
+    try:
+        check_layout(length, width, potential)
+    except ValueError:
+        return False
+    return True
 
 
 def ribbon_span(s: Scenario) -> float:

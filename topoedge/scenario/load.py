@@ -225,7 +225,11 @@ def load_scenario(path: str | os.PathLike[str] | None = None,
         Scenario file, or the name of a shipped scenario (``"gaas-1T"``,
         see :func:`shipped`); `DEFAULT_SCENARIO` when None.
     overrides : sequence of str
-        ``section.key=value`` items, applied as by `apply_overrides`.
+        ``section.key=value`` items, applied as by `apply_overrides`. The
+        file's title then gets the items appended in brackets (``"nu = 2
+        [--set spin.enabled=false]"``), so that reports and figure titles
+        do not describe physics the command line changed; an override of
+        ``title`` itself replaces it.
 
     Returns
     -------
@@ -255,7 +259,13 @@ def load_scenario(path: str | os.PathLike[str] | None = None,
     if not data:
         raise ConfigError(f"scenario file {str(path)!r} holds no keys; expected a scenario with at least "
                           "[lattice] flux = 'p/q' and [fermi] energy or gap (see the shipped 'default')")
-    return parse_scenario(apply_overrides(data, overrides), source=str(path))
+    merged = apply_overrides(data, overrides)
+    changed = [item.strip() for item in overrides if item.partition("=")[0].strip() != "title"]
+    if changed and isinstance(merged.get("title"), str) and merged["title"] and merged["title"] == data.get("title"):
+        # the file's title describes the file's physics: say what the command line changed
+        shown = "; ".join(changed)
+        merged["title"] += f" [--set {shown}]" if len(shown) <= 60 else f" [{len(changed)} keys changed by --set]"
+    return parse_scenario(merged, source=str(path))
 
 
 def shipped(kind: str = "scenarios") -> list[str]:

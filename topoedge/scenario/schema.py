@@ -403,6 +403,8 @@ def join_path(prefix: str, name: str) -> str:
 
 def children(prefix: str) -> list[str]:
     """Names of the keys and sections directly inside section ``prefix``."""
+    if prefix not in SECTIONS:     # e.g. a key name with a dot in it: no such section
+        return []
     return [f.name for f in fields(SECTIONS[prefix])
             if join_path(prefix, f.name) in KEYS or join_path(prefix, f.name) in SECTIONS]
 

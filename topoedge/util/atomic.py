@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import contextlib
 import os
+import re
 import shutil
 import tempfile
 from collections.abc import Callable
@@ -19,7 +20,8 @@ from pathlib import Path
 
 from .jsonio import dumps
 
-__all__ = ["ResultsExistError", "check_destination", "atomic_file", "write_atomic", "write_folder", "write_json"]
+__all__ = ["ResultsExistError", "check_destination", "atomic_file", "write_atomic", "write_folder", "write_json",
+           "remove_stale", "temp_prefix"]
 
 
 class ResultsExistError(FileExistsError):
@@ -36,6 +38,51 @@ def check_destination(out: Path, *, force: bool) -> None:
         raise ResultsExistError(f"'{out}' exists and is not a folder; choose another --out")
 
 
+def temp_prefix(name: str, what: str = "partial") -> str:
+    """Prefix of a temporary sibling of ``name``: hidden, and naming the process that owns it."""
+    return f".{name}.{what}-{os.getpid()}-"
+
+
+_STALE = re.compile(r"^\..+\.(partial|old)-(\d+)-[^/]*$")
+
+
+def _alive(pid: int) -> bool:
+    if pid == os.getpid():
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:   # another user's process
+        return True
+    return True
+
+
+def remove_stale(folder: Path) -> list[Path]:
+    """Remove the temporary files and folders of processes that died while writing into ``folder``.
+
+    A writer killed before it could clean up (SIGKILL, power loss) leaves
+    its hidden ``.<name>.partial-<pid>-*`` (or ``.old-``) sibling behind; the
+    next writer into the same folder removes those whose process is gone.
+    Temporaries of running processes are left alone. Returns what was removed.
+    """
+    removed = []
+    try:
+        entries = list(Path(folder).iterdir())
+    except OSError:
+        return removed
+    for entry in entries:
+        match = _STALE.match(entry.name)
+        if match is None or _alive(int(match.group(2))):
+            continue
+        if entry.is_dir() and not entry.is_symlink():
+            shutil.rmtree(entry, ignore_errors=True)
+        else:
+            entry.unlink(missing_ok=True)
+        removed.append(entry)
+    return removed
+
+
 @contextlib.contextmanager
 def atomic_file(path: Path):
     """Yield a temporary sibling of ``path`` to write; rename it into place on success.
@@ -45,7 +92,7 @@ def atomic_file(path: Path):
     plain new file (``mkstemp`` would leave it 0600).
     """
     path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.partial-", dir=path.parent)
+    fd, tmp = tempfile.mkstemp(prefix=temp_prefix(path.name), dir=path.parent)
     os.close(fd)
     try:
         yield Path(tmp)
@@ -83,7 +130,8 @@ def write_folder(out: Path, files: dict[str, Callable[[Path], None]], *, force: 
     out = Path(out)
     check_destination(out, force=force)
     out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
+    remove_stale(out.parent)
+    tmp = Path(tempfile.mkdtemp(prefix=temp_prefix(out.name), dir=out.parent))
     try:
         # mkdtemp creates the folder 0700; give it the permissions of a plain mkdir.
         umask = os.umask(0)
@@ -92,7 +140,7 @@ def write_folder(out: Path, files: dict[str, Callable[[Path], None]], *, force: 
         for name, write in files.items():
             write(tmp / name)
         if out.exists():
-            old = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
+            old = Path(tempfile.mkdtemp(prefix=temp_prefix(out.name, "old"), dir=out.parent))
             os.replace(out, old / out.name)
             try:
                 os.replace(tmp, out)

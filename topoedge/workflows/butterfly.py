@@ -139,6 +139,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from ..util.points import PointStore
 from ..util.workers import default_jobs, process_pool, stop_pool
 
 if TYPE_CHECKING:  # importing chern at module level would load kwant in every worker at start-up
@@ -313,6 +314,7 @@ def compute_butterfly(
     jobs: int | None = None,
     full_grid: bool = False,
     progress: bool = False,
+    store: PointStore | None = None,
 ) -> ButterflyResult:
     """Bands and gap Chern sums at every flux ``p/q`` in ``[0, 1]`` with ``q <= q_max``.
 
@@ -335,6 +337,10 @@ def compute_butterfly(
         cheaper :func:`butterfly_grid` (same results, see the module notes).
     progress : bool
         Show a progress bar (tqdm, on stderr).
+    store : PointStore, optional
+        Where every computed flux is kept the moment it is finished; fluxes
+        found there (from an interrupted earlier run with the same options)
+        are not computed again.
 
     Returns
     -------
@@ -361,13 +367,24 @@ def compute_butterfly(
     fluxes = butterfly_fluxes(q_max)
     half = Fraction(1, 2)
     todo = sorted((f for f in fluxes if f <= half), key=lambda f: (-f.denominator, f))
-    workers = max(1, min(default_jobs() if jobs is None else int(jobs), len(todo)))
+    store = store if store is not None else PointStore(None)
+    computed: dict[Fraction, FluxSpectrum] = {}
+    for flux in todo:
+        found = store.load(f"{flux.numerator}_{flux.denominator}")
+        if isinstance(found, FluxSpectrum) and found.flux == flux:
+            computed[flux] = found
+    todo = [f for f in todo if f not in computed]
+    workers = max(1, min(default_jobs() if jobs is None else int(jobs), max(len(todo), 1)))
     task = partial(flux_spectrum, spin=spin, zeeman=float(zeeman), onsite=float(onsite), full_grid=full_grid)
 
     from tqdm.auto import tqdm
 
     start = time.perf_counter()
-    computed: dict[Fraction, FluxSpectrum] = {}
+
+    def keep(flux: Fraction, entry: FluxSpectrum) -> None:
+        computed[flux] = entry
+        store.save(f"{flux.numerator}_{flux.denominator}", entry)
+
     with tqdm(total=len(todo), disable=not progress, unit="flux", desc=f"fluxes q <= {q_max}",
               leave=False, dynamic_ncols=True) as bar:
         if workers == 1:
@@ -375,7 +392,7 @@ def compute_butterfly(
 
             with one_blas_thread():
                 for flux in todo:
-                    computed[flux] = task(flux)
+                    keep(flux, task(flux))
                     bar.update()
         else:
             from concurrent.futures import as_completed
@@ -385,7 +402,7 @@ def compute_butterfly(
             try:
                 futures = {pool.submit(task, flux): flux for flux in todo}
                 for future in as_completed(futures):
-                    computed[futures[future]] = future.result()
+                    keep(futures[future], future.result())
                     bar.update()
             except BaseException:
                 stop_pool(pool)

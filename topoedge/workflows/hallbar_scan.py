@@ -13,6 +13,7 @@ import numpy as np
 from ..scenario import Model, Scenario, resolve
 from ..solvers.chern import ChernResult, chern_numbers
 from ..solvers.landau import (bands_for, landau_chern)
+from ..util.points import PointStore
 from ..util.progress import ticks
 from .build import build_bulk, harper_cell, params_of
 from .bulk import bulk_chern, bulk_solver, fermi_level, replace_chern_refine
@@ -43,6 +44,7 @@ def hallbar_route(scenario: Scenario, ef: float) -> tuple[HallBarRoute | None, s
 
 def hallbar_system(scenario: Scenario):
     """The finalized Hall bar of a scenario and its kwant params (without E_F)."""
+    from ..models.bar_layout import probe_layout
     from ..models.hallbar import hallbar_builder
     from ..models.profiles import EDGE_PROFILES
 
@@ -52,20 +54,10 @@ def hallbar_system(scenario: Scenario):
     def potential(d):
         return shape(np.asarray(d, dtype=float), width=edge.width, height=edge.height, table=edge.table)
 
-    # Voltage probes: a quarter of the bar, at least 6 columns, and with a
-    # flat middle of at least 12 columns between the edge potentials of their
-    # two side walls (where it has decayed below a hundredth of its edge
-    # value), so that the lowest Landau levels fit in them.
-    probe = max(6, bar.width // 4)
-    if edge.profile != "none":
-        d = np.arange(bar.length, dtype=float)
-        v = np.abs(potential(d))
-        flat = np.nonzero(v <= 1e-2 * v[0])[0]
-        if flat.size:
-            probe = max(probe, 2 * int(flat[0]) + 12)
+    probe, positions = probe_layout(bar.length, bar.width, None if edge.profile == "none" else potential)
     builder = hallbar_builder(
         bar.length, bar.width, lead_width=bar.width, spin=scenario.spin.enabled, probe_width=probe,
-        probe_positions=(bar.length // 4 - probe // 2, 3 * bar.length // 4 - probe // 2),
+        probe_positions=positions,
         potential=None if edge.profile == "none" else potential,
     )
     return builder.finalized(), dict(params_of(scenario), disorder=bar.disorder, seed=0)
@@ -74,18 +66,24 @@ def hallbar_system(scenario: Scenario):
 _SCAN_KEYS = ("r_xy", "r_xx", "r_xy_sem", "r_xx_sem", "r_xy_up", "r_xx_up", "r_xy_down", "r_xx_down")
 
 
-def _bulk_point(chern: ChernResult, energy: float) -> dict:
-    """Bulk prediction at ``energy``: Chern sum, spin Chern numbers and -1/C (None in a band)."""
+def _bulk_point(chern: ChernResult, energy: float, flux) -> dict:
+    """Bulk prediction at ``energy``: Chern sum, spin Chern numbers, -1/C and the filling (None in a band).
+
+    The filling factor of E_F in a gap above ``r`` bands at flux ``p/q`` is
+    ``r / |p|`` (``r/q`` electrons per site, ``|p|/q`` flux quanta per site).
+    """
     from ..solvers.chern import GapClosedError
 
     try:
         gap = chern.gap_at(energy)
-        c, spin_c = gap.chern, gap.spin_chern
+        c, spin_c, below = gap.chern, gap.spin_chern, gap.below
     except GapClosedError:
-        c, spin_c = None, None
+        c, spin_c, below = None, None, None
+    filling = below / abs(flux.numerator) if below is not None and flux.numerator else None
     return {"chern": c, "r_xy_bulk": -1.0 / c if c else None,
             "chern_up": spin_c.get("up") if spin_c else None,
-            "chern_down": spin_c.get("down") if spin_c else None}
+            "chern_down": spin_c.get("down") if spin_c else None,
+            "filling_bulk": filling}
 
 
 def _hall_point(fsyst, params: dict, energy: float, seeds: int) -> tuple[dict, str | None]:
@@ -114,7 +112,7 @@ def default_energies(scenario: Scenario | Model, points: int = 41) -> np.ndarray
     return np.linspace(bottom, ef + 1.5 * (ef - bottom), points)
 
 
-def hallbar_scan(scenario: Scenario | Model, energies, *, progress=False) -> dict:
+def hallbar_scan(scenario: Scenario | Model, energies, *, progress=False, store: PointStore | None = None) -> dict:
     """R_xy and R_xx of the scenario's Hall bar over a range of Fermi energies.
 
     Returns a JSON-able dict of lists: ``energy`` (t), ``r_xy``, ``r_xx``
@@ -124,17 +122,27 @@ def hallbar_scan(scenario: Scenario | Model, energies, *, progress=False) -> dic
     without spin or without an open channel of that spin in every lead), the
     bulk prediction ``chern`` (Chern sum below E, None inside a bulk band),
     ``chern_up``, ``chern_down`` (spin Chern numbers) and ``r_xy_bulk = -1/C``
-    (None for C = 0 or in a band), and ``errors`` (energy, message) where the
-    bar could not be solved.
+    (None for C = 0 or in a band), the flux ``flux`` (``"p/q"``) and the
+    filling factor ``filling_bulk`` of the bulk gap at E (``r/|p|`` above
+    ``r`` bands, None in a band), and ``errors`` (energy, message) where the
+    bar could not be solved. With a ``store``, every point is kept the moment
+    it is solved and points found there are not solved again.
     """
     scenario = resolve(scenario).scenario
+    store = store if store is not None else PointStore(None)
     chern, _, _ = bulk_chern(replace_chern_refine(scenario))
     fsyst, params = hallbar_system(scenario)
+    flux = scenario.lattice.flux
     out: dict = {"energy": []}
     errors = []
     for energy in ticks(np.asarray(energies, dtype=float), progress, "Hall bars over E_F"):
-        values, error = _hall_point(fsyst, params, float(energy), scenario.hallbar.seeds)
-        point = {**_bulk_point(chern, float(energy)), **values}
+        name = f"E{float(energy)!r}"
+        found = store.load(name)
+        if found is None:
+            found = _hall_point(fsyst, params, float(energy), scenario.hallbar.seeds)
+            store.save(name, found)
+        values, error = found
+        point = {**_bulk_point(chern, float(energy), flux), "flux": str(flux), **values}
         out["energy"].append(float(energy))
         for key, value in point.items():
             out.setdefault(key, []).append(value)
@@ -144,8 +152,13 @@ def hallbar_scan(scenario: Scenario | Model, energies, *, progress=False) -> dic
     return out
 
 
+def _field_bulk_point(model: Scenario, fermi_t: float) -> dict:
+    """:func:`_bulk_point` of a field-scan point at ``fermi_t`` (a process-pool task)."""
+    return _bulk_point(_field_bulk(model, fermi_t), fermi_t, model.lattice.flux)
+
+
 def _field_bulk(model: Scenario, fermi_t: float) -> ChernResult:
-    """Chern numbers of a field-scan point's bulk up to a little above ``fermi_t`` (a process-pool task).
+    """Chern numbers of a field-scan point's bulk up to a little above ``fermi_t``.
 
     The Landau-level solver where :func:`bulk_solver` takes it, else every
     band on the butterfly's momentum grid.
@@ -162,8 +175,14 @@ def _field_bulk(model: Scenario, fermi_t: float) -> ChernResult:
                          gap_min=model.chern.gap_min)
 
 
+def _keep(store: PointStore, name: str, future) -> None:
+    """Store a finished future's result (nothing for a cancelled or failed one)."""
+    if not future.cancelled() and future.exception() is None:
+        store.save(name, future.result())
+
+
 def hallbar_field_scan(scenario: Scenario | Model, fields_tesla, *, jobs: int | None = None,
-                       progress=False) -> dict:
+                       progress=False, store: PointStore | None = None) -> dict:
     """R_xy and R_xx of the scenario's Hall bar over the magnetic field at fixed E_F.
 
     The scenario must be in physical units (``[material]`` and ``[field]``).
@@ -190,13 +209,17 @@ def hallbar_field_scan(scenario: Scenario | Model, fields_tesla, *, jobs: int | 
     progress : bool or Progress
         True: a progress bar; a :class:`topoedge.util.progress.Progress`: one
         stage over the bars (a bar or log lines).
+    store : PointStore, optional
+        Keeps every bar and every bulk prediction the moment it is computed;
+        what is found there is not computed again.
 
     Returns
     -------
     dict
         ``b_tesla`` (requested), ``b_lattice_tesla`` (the field of the lattice
         flux, within ``field.tolerance``), ``flux`` (``"p/q"``), ``filling`` (``n h / (e B)`` for a
-        density, else None), ``fermi_t`` and ``fermi_mev`` (fixed), and the
+        density, else None), ``filling_bulk`` (of the bulk gap at E_F: ``r/|p|`` above ``r``
+        bands, None in a band), ``fermi_t`` and ``fermi_mev`` (fixed), and the
         lists of :func:`hallbar_scan` (without ``energy``), ``errors`` as
         ``[B, message]``.
 
@@ -227,27 +250,50 @@ def hallbar_field_scan(scenario: Scenario | Model, fields_tesla, *, jobs: int | 
             models.append((at_b.scenario, at_b.units))
         except ValueError as err:
             raise ValueError(f"field scan at B = {b:g} T: {err}") from None
+    store = store if store is not None else PointStore(None)
     fsyst, _ = hallbar_system(base)
     # One bulk computation per distinct lattice model (fields rounding to the
     # same flux share it), started first so that it runs beside the bars.
     distinct = {}
     for model, _ in models:
         distinct.setdefault((model.lattice.flux, model.spin.zeeman), model)
-    workers = min(jobs or os.cpu_count() or 1, len(distinct))
+
+    def bulk_name(key) -> str:
+        return f"bulk_{key[0].numerator}_{key[0].denominator}_{key[1]!r}"
+
+    bulk: dict = {}
+    for key in distinct:
+        found = store.load(bulk_name(key))
+        if found is not None:
+            bulk[key] = found
+    remaining = {key: model for key, model in distinct.items() if key not in bulk}
+    workers = min(jobs or os.cpu_count() or 1, len(remaining))
     pool = None
     if workers > 1:
         from ..util.workers import process_pool
 
         pool = process_pool(workers)
     try:
-        bulk = {key: pool.submit(_field_bulk, model, fermi_t) if pool else None
-                for key, model in distinct.items()}
+        futures = {}
+        for key, model in remaining.items() if pool else ():
+            future = pool.submit(_field_bulk_point, model, fermi_t)
+            # kept the moment it is done, even if the bars are interrupted later
+            future.add_done_callback(lambda f, key=key: _keep(store, bulk_name(key), f))
+            futures[key] = future
         bars = []
         for b, (model, _) in ticks(list(zip(fields, models)), progress, "Hall bars over B"):
-            params = dict(params_of(model), disorder=model.hallbar.disorder, seed=0)
-            bars.append(_hall_point(fsyst, params, fermi_t, model.hallbar.seeds))
-        chern = {key: future.result() if pool else _field_bulk(distinct[key], fermi_t)
-                 for key, future in bulk.items()}
+            found = store.load(f"B{b!r}")
+            if found is None:
+                params = dict(params_of(model), disorder=model.hallbar.disorder, seed=0)
+                found = _hall_point(fsyst, params, fermi_t, model.hallbar.seeds)
+                store.save(f"B{b!r}", found)
+            bars.append(found)
+        for key, model in remaining.items():
+            if pool:
+                bulk[key] = futures[key].result()
+            else:
+                bulk[key] = _field_bulk_point(model, fermi_t)
+                store.save(bulk_name(key), bulk[key])
     finally:
         if pool is not None:
             pool.shutdown(cancel_futures=True)
@@ -255,7 +301,7 @@ def hallbar_field_scan(scenario: Scenario | Model, fields_tesla, *, jobs: int | 
                  "fermi_t": fermi_t, "fermi_mev": (fermi_t + 4.0) * base_units.hopping_mev}
     errors = []
     for b, (model, units), (values, error) in zip(fields, models, bars):
-        point = {**_bulk_point(chern[(model.lattice.flux, model.spin.zeeman)], fermi_t), **values}
+        point = {**bulk[(model.lattice.flux, model.spin.zeeman)], **values}
         out["b_tesla"].append(b)
         out["b_lattice_tesla"].append(units.b_lattice_tesla)
         out["flux"].append(str(model.lattice.flux))

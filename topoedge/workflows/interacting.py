@@ -61,6 +61,7 @@ from .interacting_records import (InteractingRun, SelfConsistent, bulk_density, 
                                   interaction_summary, kept_states, state_key)
 from .run import RunResult
 from .summary import summarize
+from ..util.progress import as_progress
 
 __all__ = [
     "CELL_AVERAGE", "SelfConsistent", "InteractingRun", "interaction_of", "background_of",
@@ -141,6 +142,12 @@ def choose_k_points(electrons: float, magnetic_length: float, *, given: int | No
     return found, None
 
 
+def restart_matches(scenario: Scenario | Model, restart_model: dict) -> bool:
+    """Whether a restart (or checkpoint) file's model is the self-consistent problem of ``scenario``."""
+    resolved = resolve(scenario)
+    return model_key(resolved.scenario, interaction_of(resolved.scenario, resolved.units)) == restart_model
+
+
 def model_key(scenario: Scenario, interaction: Interaction) -> dict:
     """What defines the self-consistent problem (a restart must match it); JSON-able."""
     inter = scenario.interaction
@@ -203,15 +210,16 @@ def solve_width(scenario: Scenario, blocks, interaction: Interaction, width: flo
     on_state : callable, optional
         ``on_state(key, g, converged, iterations)`` after every iteration and
         at the end of every start.
-    progress : bool
-        Show a progress bar of the iterations.
+    progress : bool or Progress
+        True: a progress bar of the iterations; a
+        :class:`topoedge.util.progress.Progress`: one stage per start (a bar,
+        or log lines with the elapsed time for batch jobs).
 
     Returns
     -------
     SelfConsistent, and a warning about the momentum grid (or None).
     """
-    from tqdm.auto import tqdm
-
+    progress = as_progress(progress)
     cfg = scenario.interaction
     background = background_of(scenario, width)
     nk, warning = choose_k_points(float(background.sum()), magnetic_length, given=cfg.k_points,
@@ -226,22 +234,20 @@ def solve_width(scenario: Scenario, blocks, interaction: Interaction, width: flo
         if restart and key in restart:
             begin = restart[key]
             restarted.append(start)
-        bar = tqdm(total=cfg.max_iter, disable=not progress, desc=f"Hartree-Fock {key}", leave=False)
+        stage = progress.stage(f"Hartree-Fock {key} (at most {cfg.max_iter} iterations)", cfg.max_iter)
 
-        def callback(it, res, energy, g, key=key, bar=bar):
-            bar.update(1)
-            bar.set_postfix_str(f"max|dG| {res:.1e}")
+        def callback(it, res, energy, g, key=key, stage=stage):
+            stage.update(1)
             if on_state is not None:
                 on_state(key, g, False, it)
 
         try:
-            result = hf.solve(begin, callback=callback, **options)
+            with stage:
+                result = hf.solve(begin, callback=callback, **options)
         except ValueError as err:
             if start in restarted:  # a restart file's state of the wrong shape or charge
                 raise ValueError(f"restart state {key}: {err}") from None
             raise
-        finally:
-            bar.close()
         result = replace(result, start=start)
         if on_state is not None:
             on_state(key, result.density_matrix, result.converged, result.iterations)
@@ -311,7 +317,7 @@ def run_interacting(scenario: Scenario | Model, *, restart: dict | None = None, 
         raise ValueError(f"restart file: made for a different model ({'; '.join(diff)}); expected the same "
                          "scenario (only the solver keys tol, max_iter, mixing, alpha, history, starts and "
                          "scan_widths may change)")
-    chern, refined, path = bulk_chern(scenario)
+    chern, refined, path = bulk_chern(scenario, progress=as_progress(progress))
     _, gap = fermi_level(scenario, chern)
     phi = abs(float(scenario.lattice.flux))
     lb = 1.0 / math.sqrt(2 * math.pi * phi)
@@ -351,8 +357,10 @@ def run_interacting(scenario: Scenario | Model, *, restart: dict | None = None, 
         window = None
         if scenario.spectrum.window is not None:
             window = (ef - scenario.spectrum.window, ef + scenario.spectrum.window)
-        spec = ribbon_spectrum(ham, k_grid(scenario.spectrum.k_points), window=window, solver="dense",
-                               progress=progress)
+        with as_progress(progress).stage(f"ribbon: spectrum at {scenario.spectrum.k_points} momenta",
+                                         scenario.spectrum.k_points) as stage:
+            spec = ribbon_spectrum(ham, k_grid(scenario.spectrum.k_points), window=window, solver="dense",
+                                   progress=stage)
     info = interaction_summary(scenario, run, gap)
     if main.best is not None:
         summary = summarize(scenario, spec, hartree, chern=chern, refined=refined, ef=ef, gap=gap, edges=edges,

@@ -53,7 +53,7 @@ import numpy as np
 from .. import __version__
 from ..scenario import ConfigError, apply_overrides, convert_key, parse_scenario
 from ..scenario.schema import plain
-from ..util.atomic import write_atomic
+from ..util.atomic import remove_stale, write_atomic
 from ..util.jsonio import plain_json
 
 __all__ = [
@@ -468,8 +468,8 @@ def run_sweep(sweep: Sweep, out: Path, *, executor: str = "local", jobs: int | N
     submit, completed, close = _submitter(executor, workers, scheduler) if todo else (None, None, None)
     try:
         points_dir.mkdir(parents=True, exist_ok=True)
-        for stale in points_dir.glob(".*.partial-*"):  # left by a process killed while writing
-            stale.unlink(missing_ok=True)
+        remove_stale(points_dir)   # left by a process killed while writing
+        remove_stale(out)
         write_atomic(out / "sweep.json", json.dumps(sweep.to_dict(), indent=2, default=str) + "\n")
     except BaseException:
         if close is not None:
