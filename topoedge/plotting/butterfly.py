@@ -5,41 +5,12 @@ from __future__ import annotations
 import numpy as np
 from typing import TYPE_CHECKING
 
+from .style import CHERN_CLIP, chern_colours
+
 if TYPE_CHECKING:
     from ..workflows.butterfly import ButterflyResult
 
 __all__ = ["CHERN_CLIP", "chern_colours", "plot_butterfly", "butterfly_figure"]
-
-
-#: Chern sums beyond +-CHERN_CLIP share the colour of +-CHERN_CLIP in the figure.
-CHERN_CLIP = 8
-
-
-def chern_colours(clip: int = CHERN_CLIP):
-    """Discrete diverging colours for Chern sums ``-clip .. clip``, grey at 0.
-
-    Positive sums run from yellow (``C = 1``) through orange and red to dark
-    red (``YlOrRd``), negative ones from pale green through teal and blue to
-    navy (``YlGnBu``): the sign reads from warm against cool, the size from
-    hue and darkness together, so that neighbouring integers stay apart.
-    Values beyond ``+-clip`` take the end colours.
-
-    Returns
-    -------
-    cmap : matplotlib.colors.ListedColormap
-        ``2 clip + 1`` colours, with under/over colours for the clipped ends.
-    norm : matplotlib.colors.BoundaryNorm
-        Bins of width 1 centred on the integers.
-    """
-    import matplotlib
-    from matplotlib import colors
-
-    steps = np.linspace(0.25, 1.0, clip)  # skip the near-white start of both maps
-    warm, cool = matplotlib.colormaps["YlOrRd"], matplotlib.colormaps["YlGnBu"]
-    rgba = [cool(x) for x in steps[::-1]] + [colors.to_rgba("0.55")] + [warm(x) for x in steps]
-    cmap = colors.ListedColormap(rgba, name="chern").with_extremes(under=rgba[0], over=rgba[-1])
-    norm = colors.BoundaryNorm(np.arange(-clip - 0.5, clip + 1.5), cmap.N)
-    return cmap, norm
 
 
 def plot_butterfly(result: ButterflyResult, *, ax, min_gap: float, clip: int = CHERN_CLIP) -> dict:
@@ -103,8 +74,7 @@ def butterfly_figure(result: ButterflyResult, *, min_gap: float, clip: int = CHE
     handles = [Line2D([], [], color="k", lw=1.2, label="bulk band (energy range)"),
                Line2D([], [], color=art["cmap"](art["norm"](3)), lw=3,
                       label=f"gap wider than {min_gap:g} $t$, coloured by $C$")]
-    ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, 1.0), ncols=2, fontsize=9,
-              framealpha=0.95)
+    fig.legend(handles=handles, loc="outside lower center", ncols=2, fontsize=9, frameon=False)
     spin = (f"spin 1/2, Zeeman {result.zeeman:g} $t$" if result.spin else "spinless")
     onsite = f", on-site {result.onsite:g} $t$" if result.onsite else ""
     head = f"{title}: " if title else ""
