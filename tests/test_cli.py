@@ -625,7 +625,7 @@ def test_bench_rejects_narrow_ribbon(tmp_path):
     proc = topoedge_cli("bench", "--width", 1, cwd=tmp_path)
     assert proc.returncode == 2
     assert proc.stdout == ""
-    assert_one_error_line(proc.stderr, "--width 1", "width >= 2")
+    assert_one_error_line(proc.stderr, "--width 1", "2 <= width <= 5000")
 
 
 # ------------------------------------------------- 9. argument errors

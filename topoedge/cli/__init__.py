@@ -24,7 +24,7 @@ import warnings
 from .. import __version__
 from ..scenario import ConfigError
 from . import bench, butterfly, hallbar, run, sweep
-from .common import EXIT_BAD_INPUT, Command, Parser
+from .common import EXIT_BAD_INPUT, Command, Parser, one_line
 
 #: Every subcommand, in the order of ``topoedge --help``: a new command is a
 #: module of this package with a :class:`~topoedge.cli.common.Command` and one
@@ -89,7 +89,7 @@ def main(argv: list[str] | None = None) -> int:
         return COMMANDS[args.command].run(args)
     except (ConfigError, ResultsExistError, GapClosedError, RestartFileError, MemoryBudgetError,
             LandauSolverError) as err:
-        print(f"topoedge: error: {err}", file=sys.stderr)
+        print(f"topoedge: error: {one_line(str(err))}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except OSError as err:  # e.g. an --out whose parent is a file or read-only
         where = f" '{err.filename}'" if err.filename else ""

@@ -53,7 +53,9 @@ def cmd_butterfly(args) -> int:
     if earlier:
         say(args, f"topoedge butterfly: continuing an interrupted run: {earlier} fluxes from {store.folder}")
     try:
-        result = compute_butterfly(args.q_max, jobs=args.jobs, progress=sys.stderr.isatty() and not args.quiet,
+        from ..util.progress import Progress, progress_mode
+
+        result = compute_butterfly(args.q_max, jobs=args.jobs, progress=Progress(progress_mode(quiet=args.quiet)),
                                    store=store, **options)
     except KeyboardInterrupt:
         print(f"topoedge: interrupted; {store.count()} finished fluxes are kept in {store.folder}; run the same "

@@ -22,6 +22,18 @@ EXIT_NOT_CONVERGED = 1
 EXIT_POINTS_FAILED = 3
 
 
+#: Longest error message printed (characters); longer ones are cut with their length said.
+MESSAGE_LIMIT = 600
+
+
+def one_line(message: str, limit: int = MESSAGE_LIMIT) -> str:
+    """An error message on one readable line: line breaks joined, and cut after ``limit`` characters."""
+    text = " ".join(part.strip() for part in message.splitlines() if part.strip())
+    if len(text) <= limit:
+        return text
+    return f"{text[:limit].rstrip()} ... ({len(text) - limit} more characters)"
+
+
 @dataclass(frozen=True)
 class Command:
     """One subcommand: its one-line help, what adds its arguments to its parser, and what runs it.

@@ -8,7 +8,7 @@ from pathlib import Path
 from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario, resolve
 from ..scenario.checks import check_hallbar
 from ..util.jsonio import dumps
-from .common import Command, default_out, require_support, say, scan_range
+from .common import EXIT_POINTS_FAILED, Command, default_out, require_support, say, scan_range
 
 
 def cmd_hallbar(args) -> int:
@@ -93,6 +93,8 @@ def cmd_hallbar(args) -> int:
                                      if all("channel" in e[1] for e in scan["errors"]) else
                                      f", {n_err} not solved (column status of hallbar.csv)"))
     say(args, f"  results      {out}/ (summary.json, hallbar.h5, hallbar.csv, hallbar.png)")
+    if any("channel" not in e[1] for e in scan["errors"]):
+        return EXIT_POINTS_FAILED     # a bar that could not be solved for another reason than E_F
     return 0
 
 

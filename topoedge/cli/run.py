@@ -79,9 +79,8 @@ def cmd_run(args) -> int:
         if checkpoint_path.exists() and not (args.force or continuing):
             raise ConfigError(f"checkpoint '{checkpoint_path}' of an earlier interrupted run exists; continue it "
                               f"with --restart {checkpoint_path}, or pass --force to replace it")
-        checkpoint_path.parent.mkdir(parents=True, exist_ok=True)
-
         def checkpoint(states, model):
+            checkpoint_path.parent.mkdir(parents=True, exist_ok=True)   # only once there is something to keep
             write_restart(checkpoint_path, states, model)
 
         def again(restart_file=None, where=out):

@@ -30,7 +30,9 @@ def cmd_sweep(args) -> int:
     say(args, f"topoedge sweep: {sweep.title or args.sweep_file}: {npoints} points "
                f"({' x '.join(f'{a.key} [{len(a.values)}]' for a in sweep.axes)}, {sweep.mode}), "
                f"executor {executor}" + (f" at {args.scheduler}" if args.scheduler else ""))
-    progress = sys.stderr.isatty() and not args.quiet
+    from ..util.progress import Progress, progress_mode
+
+    progress = Progress(progress_mode(quiet=args.quiet))
     try:
         stats = run_sweep(sweep, out, executor=executor, jobs=args.jobs, scheduler=args.scheduler,
                           retry_failed=args.retry_failed, progress=progress)

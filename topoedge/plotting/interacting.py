@@ -120,7 +120,8 @@ def edge_scan_figure(scan, *, magnetic_length: float, title: str = ""):
     title : str
 
     Upper panel: each mode at its distance from the boundary (l_B) in its
-    spin's colour, the triangle pointing along its velocity (``>`` along
+    spin's colour (spin up drawn a little left of its width, spin down a
+    little right, so that coinciding modes both show), the triangle pointing along its velocity (``>`` along
     +x, the chirality of the bottom edge; ``<`` against it), filled as
     every bottom-edge mode in the ribbon figure. Lower panel:
     counter-propagating pairs per spin (bars, integers). The top edge is the
@@ -131,12 +132,13 @@ def edge_scan_figure(scan, *, magnetic_length: float, title: str = ""):
     fig, (modes, pairs) = plt.subplots(2, 1, figsize=(7.0, 6.5), sharex=True, layout="constrained",
                                        gridspec_kw={"height_ratios": [3, 1.3]})
     rows = sorted((r for r in scan if r.converged), key=lambda r: r.width_a)
+    span = max((r.width_lB for r in rows), default=1.0) or 1.0
     for row in rows:
-        x = row.width_lB
         for m in row.bottom.order:
-            c = spin_colour(m.spin)
+            # spin up a little left, spin down a little right: coinciding modes both stay visible
+            x = row.width_lB + {"up": -0.012, "down": 0.012}.get(m.spin, 0.0) * span
             modes.scatter([x], [m.distance_lB], marker=DIRECTION_MARKERS.get(m.direction, "o"), s=55, zorder=3,
-                          color=c, linewidths=1.3)
+                          color=spin_colour(m.spin), linewidths=1.3)
     half = [(r.width_lB, r.background_half_a / magnetic_length) for r in rows
             if r.background_half_a is not None]
     if half:
@@ -165,6 +167,9 @@ def edge_scan_figure(scan, *, magnetic_length: float, title: str = ""):
     legend_outside(pairs, [Line2D([], [], ls="", marker="s", ms=7, color=spin_colour(n), label=f"spin {n}")
                            for n in ("up", "down")])
     most = max((r.bottom.counter_pairs for r in rows), default=0)
+    if rows and most == 0:
+        pairs.text(0.5, 0.5, "no counter-propagating pair at any width", transform=pairs.transAxes,
+                   ha="center", va="center", fontsize=9, color="0.35")
     pairs.set_ylim(0, most + 0.6)
     pairs.set_yticks(range(most + 1))
     top = modes.secondary_xaxis("top", functions=(lambda x: x * magnetic_length,

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from .units import Derived, UnitsError, derive
 from .sections import ConfigError, Scenario
-from ..models.bar_layout import check_layout
+from ..models.bar_layout import check_layout, probe_layout, validate_probes
 from ..models.lattices import LATTICES, lattice
 from ..models.profiles import EDGE_PROFILES
 from .schema import fraction_text
@@ -57,12 +57,20 @@ def check_combinations(s: Scenario) -> None:
                           "spin.enabled = true)")
 
 
+#: Most sites of a Hall bar (length x width) the checks let through to the memory estimate.
+HALLBAR_MAX_SITES = 10**8
+
+
 def check_hallbar(s: Scenario) -> None:
     """The Hall bar of ``[hallbar]`` (used by the run with ``hallbar.enabled`` and by ``topoedge hallbar``)."""
     bar, edge = s.hallbar, s.ribbon.edge
     if bar.width <= 2 * edge.width:
         raise ConfigError(f"hallbar.width: got {bar.width}, not wider than the two edge ramps "
                           f"(2 x ribbon.edge.width = {2 * edge.width:g}); expected a wider bar")
+    if bar.length * bar.width > HALLBAR_MAX_SITES:
+        raise ConfigError(f"hallbar.length x hallbar.width: got {bar.length} x {bar.width} = "
+                          f"{bar.length * bar.width:.3g} sites; expected at most {HALLBAR_MAX_SITES:.0e} sites "
+                          "(a kwant site takes about 2 KB: beyond that no machine holds the bar)")
     potential = None
     if edge.profile != "none":
         def potential(d):
@@ -70,16 +78,19 @@ def check_hallbar(s: Scenario) -> None:
     try:
         check_layout(bar.length, bar.width, potential)
     except ValueError as err:
-        shortest = next((n for n in range(bar.length + 1, 64 * bar.width + 64) if _fits(n, bar.width, potential)),
-                        None)
-        hint = f"expected hallbar.length >= {shortest}" if shortest else "expected a longer or wider bar"
+        probe, _ = probe_layout(bar.length, bar.width, potential)
+        # the probes sit at the quarter points: the shortest bar that holds them, found without building
+        shortest = next((n for n in range(bar.length + 1, bar.length + 4 * probe + 64)
+                         if _probes_fit(n, probe)), None)
+        hint = (f"expected hallbar.length >= {shortest}" if shortest and "narrower" not in str(err)
+                else "expected a longer or wider bar, or a narrower ribbon.edge.width")
         raise ConfigError(f"hallbar.length: got {bar.length} with hallbar.width = {bar.width}: {err}; "
                           f"{hint}") from None
 
 
-def _fits(length: int, width: int, potential) -> bool:
+def _probes_fit(length: int, probe: int) -> bool:
     try:
-        check_layout(length, width, potential)
+        validate_probes(length, probe, (length // 4 - probe // 2, 3 * length // 4 - probe // 2))
     except ValueError:
         return False
     return True

@@ -36,6 +36,16 @@ def check_destination(out: Path, *, force: bool) -> None:
         )
     if out.exists() and not out.is_dir():
         raise ResultsExistError(f"'{out}' exists and is not a folder; choose another --out")
+    parent = out.parent
+    while not parent.exists() and parent != parent.parent:
+        parent = parent.parent
+    if not parent.is_dir():
+        raise ResultsExistError(f"results folder '{out}': '{parent}' is a file, not a folder; choose another --out")
+    try:   # a real probe: permissions alone do not tell (read-only mounts, /proc, root)
+        Path(tempfile.mkdtemp(prefix=temp_prefix("write-probe"), dir=parent)).rmdir()
+    except OSError as err:
+        raise ResultsExistError(f"results folder '{out}': cannot write in '{parent}' ({err.strerror or err}); "
+                                "choose another --out") from None
 
 
 def temp_prefix(name: str, what: str = "partial") -> str:

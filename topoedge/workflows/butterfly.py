@@ -140,6 +140,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from ..util.points import PointStore
+from ..util.progress import as_progress
 from ..util.workers import default_jobs, process_pool, stop_pool
 
 if TYPE_CHECKING:  # importing chern at module level would load kwant in every worker at start-up
@@ -335,8 +336,9 @@ def compute_butterfly(
     full_grid : bool
         Use :func:`topoedge.solvers.chern.default_grid` (``2q x 2q``) instead of the
         cheaper :func:`butterfly_grid` (same results, see the module notes).
-    progress : bool
-        Show a progress bar (tqdm, on stderr).
+    progress : bool or Progress
+        True: a progress bar (tqdm, on stderr); a
+        :class:`topoedge.util.progress.Progress`: one stage (a bar or log lines).
     store : PointStore, optional
         Where every computed flux is kept the moment it is finished; fluxes
         found there (from an interrupted earlier run with the same options)
@@ -377,16 +379,13 @@ def compute_butterfly(
     workers = max(1, min(default_jobs() if jobs is None else int(jobs), max(len(todo), 1)))
     task = partial(flux_spectrum, spin=spin, zeeman=float(zeeman), onsite=float(onsite), full_grid=full_grid)
 
-    from tqdm.auto import tqdm
-
     start = time.perf_counter()
 
     def keep(flux: Fraction, entry: FluxSpectrum) -> None:
         computed[flux] = entry
         store.save(f"{flux.numerator}_{flux.denominator}", entry)
 
-    with tqdm(total=len(todo), disable=not progress, unit="flux", desc=f"fluxes q <= {q_max}",
-              leave=False, dynamic_ncols=True) as bar:
+    with as_progress(progress).stage(f"butterfly: {len(todo)} fluxes with q <= {q_max}", len(todo)) as bar:
         if workers == 1:
             from ..util.threads import one_blas_thread
 

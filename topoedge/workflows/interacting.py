@@ -61,6 +61,7 @@ from .interacting_records import (InteractingRun, SelfConsistent, bulk_density, 
                                   interaction_summary, kept_states, state_key)
 from .run import RunResult
 from .summary import summarize
+from ..util.budget import require
 from ..util.progress import as_progress
 
 __all__ = [
@@ -140,6 +141,25 @@ def choose_k_points(electrons: float, magnetic_length: float, *, given: int | No
                        f"whole number of electrons (denominator {frac.denominator}); the last level is "
                        "partly filled (set interaction.temperature > 0 or change the background)")
     return found, None
+
+
+def memory_estimate_interacting(scenario: Scenario) -> tuple[str, float, str]:
+    """Upper bound (bytes) of the self-consistent loop, with the keys that shrink it.
+
+    Per spin and momentum a W x W density matrix; the loop holds the input,
+    the output, the residual and ``history`` pairs of them for the mixing
+    (complex128). ``N_k`` is ``interaction.k_points`` or, when the run
+    chooses it, twice its smallest choice (:func:`choose_k_points`).
+    """
+    cfg, width = scenario.interaction, scenario.ribbon.width
+    phi = abs(float(scenario.lattice.flux)) or 1.0
+    least = max(32, int(math.ceil(12 / math.sqrt(2 * math.pi * phi))))
+    nk = cfg.k_points if cfg.k_points is not None else 2 * least
+    copies = 4 + 2 * (cfg.history if cfg.mixing == "diis" else 0)
+    need = copies * 2 * nk * width * width * 16
+    return (f"the self-consistent loop ({nk} momenta x {width} rows x 2 spins, {copies} density matrices "
+            "each)", need, "expected a smaller ribbon.width, fewer interaction.k_points or a shorter "
+            "interaction.history")
 
 
 def restart_matches(scenario: Scenario | Model, restart_model: dict) -> bool:
@@ -310,6 +330,7 @@ def run_interacting(scenario: Scenario | Model, *, restart: dict | None = None, 
     if not scenario.interaction.enabled:
         raise ValueError("the scenario has no [interaction] section; use topoedge.workflows.run.run_scenario")
     interaction = interaction_of(scenario, units)
+    require([memory_estimate_interacting(scenario)])
     model = model_key(scenario, interaction)
     if restart_model is not None and restart_model != model:
         diff = [f"{k}: file {restart_model.get(k)!r}, scenario {v!r}" for k, v in model.items()

@@ -54,6 +54,7 @@ from .. import __version__
 from ..scenario import ConfigError, apply_overrides, convert_key, parse_scenario
 from ..scenario.schema import plain
 from ..util.atomic import remove_stale, write_atomic
+from ..util.progress import as_progress
 from ..util.jsonio import plain_json
 
 __all__ = [
@@ -436,7 +437,7 @@ def run_sweep(sweep: Sweep, out: Path, *, executor: str = "local", jobs: int | N
         ``tcp://10.0.0.5:8786``.
     retry_failed : bool
         Run again the points recorded as failed.
-    progress : bool
+    progress : bool or Progress
         Progress bar with points done, failed and remaining and the time left.
     on_point : callable, optional
         ``on_point(record)`` after every point written.
@@ -476,9 +477,7 @@ def run_sweep(sweep: Sweep, out: Path, *, executor: str = "local", jobs: int | N
             close()
         raise
     if todo:
-        from tqdm.auto import tqdm
-
-        bar = tqdm(total=len(todo), disable=not progress, desc="sweep points", unit="point")
+        bar = as_progress(progress).stage(f"sweep: {len(todo)} points", len(todo))
         done = False
         try:
             futures = {submit(point["config"]): (key, point) for key, point in todo}
@@ -491,12 +490,11 @@ def run_sweep(sweep: Sweep, out: Path, *, executor: str = "local", jobs: int | N
                 computed += 1
                 failed += result["status"] == "failed"
                 bar.update(1)
-                bar.set_postfix_str(f"done {computed - failed}, failed {failed}, remaining {len(todo) - computed}")
                 if on_point is not None:
                     on_point(record)
             done = True
         finally:
-            bar.close()
+            bar.close(failed=not done)
             close(graceful=done)
     return {"total": skipped + len(todo), "skipped": skipped, "computed": computed, "failed": failed,
             "seconds": time.perf_counter() - start}
