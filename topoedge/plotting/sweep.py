@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import textwrap
+
 from collections.abc import Sequence
 import numpy as np
 from ..scenario.schema import KEYS
@@ -127,7 +129,8 @@ def sweep_figures(sweep: Sweep, rows: list[dict]) -> dict:
                 ax.set_yticks(range(len(ys)), [str(v) for v in ys])
             ax.set_xlabel(axis_label(ax_x.key))
             ax.set_ylabel(axis_label(ax_y.key))
-            ax.set_title(f"{title}\n{q}: {QUANTITIES[q][1]} (dots: computed points)", fontsize=9)
+            caption = textwrap.fill(f"{q}: {QUANTITIES[q][1]} (dots: computed points)", 80)
+            ax.set_title(f"{textwrap.fill(title, 80)}\n{caption}", fontsize=9)
             figures[f"map-{q}"] = fig
     elif len(sweep.axes) == 1 or sweep.mode == "zip":
         axis = sweep.axes[0]
