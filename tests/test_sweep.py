@@ -353,3 +353,14 @@ def test_command_set_changes_the_base_scenario_and_refuses_an_axis(tmp_path):
     assert proc.stderr.count("\n") == 1
     assert "--set 'spin.zeeman=0.1': spin.zeeman is an axis of this sweep" in proc.stderr
     assert not (tmp_path / "out").exists()
+
+
+def test_sweep_whose_point_does_not_fit_is_refused_before_any_point_runs(tmp_path):
+    # Every point's memory is estimated as `topoedge run` estimates it: a
+    # billion momenta (21 TB of states) cannot fit on any machine.
+    data = {**SWEEP, "axis": [{"key": "spectrum.k_points", "values": [21, 1_000_000_000]}]}
+    path = _sweep_file(tmp_path, data)
+    proc = _cli(path, "--out", tmp_path / "out", cwd=tmp_path)
+    assert proc.returncode == 2 and proc.stdout == "" and proc.stderr.count("\n") == 1
+    assert "sweep point spectrum.k_points = 1000000000: the ribbon spectrum" in proc.stderr
+    assert not (tmp_path / "out").exists()

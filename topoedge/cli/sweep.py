@@ -15,6 +15,7 @@ def cmd_sweep(args) -> int:
     from ..outputs.tables import write_table
     from ..plotting.sweep import sweep_figures
     from ..workflows.sweep import gather, load_sweep, run_sweep
+    from ..workflows.sweep_budget import check_memory
 
     if args.jobs is not None and args.jobs < 1:
         raise ConfigError(f"sweep --jobs: got {args.jobs}; expected at least 1 worker")
@@ -23,6 +24,7 @@ def cmd_sweep(args) -> int:
                           "--executor (a scheduler implies dask)")
     executor = "dask" if args.scheduler is not None else (args.executor or "local")
     sweep = load_sweep(args.sweep_file, args.overrides)
+    check_memory(sweep)        # every point's estimate, before anything is written
     out = args.out if args.out is not None else Path("sweeps") / Path(args.sweep_file).stem
     if out.exists() and not out.is_dir():
         raise ConfigError(f"sweep --out: '{out}' exists and is not a folder; expected a folder")
