@@ -94,7 +94,7 @@ from .square import rashba_matrix
 __all__ = [
     "HEXAGON_AREA", "ORIENTATIONS", "honeycomb_lattice", "honeycomb_params",
     "honeycomb_ribbon_builder", "honeycomb_bulk_builder",
-    "dirac_landau_level", "honeycomb_magnetic_length",
+    "dirac_landau_level", "honeycomb_magnetic_length", "honeycomb_hopping_landau", "honeycomb_onsite",
 ]
 
 #: Area of one hexagon in units of a_cc^2.
@@ -163,6 +163,16 @@ def _hopping(spin: bool, rashba: bool, phase: Callable):
         return -t * np.exp(1j * phase(site_i, site_j, phi)) * unit
 
     return hopping
+
+
+def honeycomb_hopping_landau(spin: bool, rashba: bool = False):
+    """Hopping value function in the position gauge of the ribbons (see the module notes)."""
+    return _hopping(spin, rashba, _landau_phase)
+
+
+def honeycomb_onsite(spin: bool, sublattice_a):
+    """On-site value function (``onsite``, ``zeeman``, ``staggered``: +M on A, -M on B)."""
+    return _onsite(spin, None, sublattice_a)
 
 
 def _landau_phase(site_i, site_j, phi):

@@ -68,6 +68,15 @@ class Lattice:
     #: Largest |flux| at which the continuum scales of ``scales`` (l_B, hbar omega_c or the
     #: Dirac E_1) describe the lattice Landau levels; None without such scales.
     continuum_flux_max: float | None = None
+    #: ``plane(lattice, spin)``: a plane whose values depend on positions only, from which
+    #: finite flakes are cut (None: ``bulk`` is such a plane).
+    plane: Callable | None = None
+    #: Area per site in ``length_unit`` squared (the cell area over its sites).
+    site_area: float = 1.0
+
+    def flake_plane(self, lattice, spin):
+        """The template of finite flakes of this lattice (:mod:`topoedge.models.flakes`)."""
+        return (self.plane or self.bulk)(lattice, spin)
 
 
 def _rashba(spin) -> bool:
@@ -150,6 +159,12 @@ def _honeycomb_bulk(lattice, spin):
     from .honeycomb import honeycomb_bulk_builder
 
     return honeycomb_bulk_builder(lattice.flux, spin=spin.enabled, rashba=_rashba(spin))
+
+
+def _honeycomb_plane(lattice, spin):
+    from .flakes import honeycomb_plane
+
+    return honeycomb_plane(spin=spin.enabled, rashba=_rashba(spin))
 
 
 def _honeycomb_scales(lattice) -> dict:
@@ -239,7 +254,7 @@ LATTICES: dict[str, Lattice] = {entry.kind: entry for entry in (
         bulk=_honeycomb_bulk,
         ribbon=_honeycomb_ribbon, span=_honeycomb_span, scales=_honeycomb_scales, model_keys=_hexagonal_keys,
         periods={"zigzag": "sqrt(3) a_cc", "armchair": "3 a_cc"}, describe=_honeycomb_describe,
-        continuum_flux_max=1 / 8),
+        continuum_flux_max=1 / 8, plane=_honeycomb_plane, site_area=3 * math.sqrt(3) / 4),
     Lattice(
         kind="haldane", title="Haldane model", length_unit="a_cc", cell="", in_field=False,
         orbitals_per_site=1, sites_per_width=2, cell_sites_per_q=2, orientations=("zigzag",),
@@ -249,7 +264,7 @@ LATTICES: dict[str, Lattice] = {entry.kind: entry for entry in (
         span=_honeycomb_span, scales=_no_scales,
         model_keys=lambda lattice, ribbon: {**_hexagonal_keys(lattice, ribbon), "t2_t": lattice.t2,
                                             "t2_phase_rad": lattice.t2_phase},
-        periods={"zigzag": "sqrt(3) a_cc"}, describe=_haldane_describe),
+        periods={"zigzag": "sqrt(3) a_cc"}, describe=_haldane_describe, site_area=3 * math.sqrt(3) / 4),
     Lattice(
         kind="qwz", title="Qi-Wu-Zhang model", length_unit="a", cell="", in_field=False,
         orbitals_per_site=2, sites_per_width=1, cell_sites_per_q=1, orientations=(), own_keys=("mass",),
