@@ -137,3 +137,42 @@ def test_disorder_is_reproducible_and_checked():
     assert np.allclose(d[0::2], d[1::2]) and np.all(np.abs(d) <= 0.5)   # one energy per site, both spins
     with pytest.raises(ValueError, match="disorder strength must be a finite W >= 0"):
         flake.with_disorder(-1.0, seed=0)
+
+
+def test_kernel_polynomial_marker_agrees_with_the_dense_projector():
+    # KPM (Weisse et al., RMP 78, 275 (2006)) against the dense projector on
+    # a small flake: the largest difference over the central sites shrinks
+    # with the number of moments and is below 1e-3 at 800.
+    from topoedge.solvers.marker import local_chern_marker_kpm
+
+    scenario, flake = _flake({"lattice": {"flux": "1/5"}, "spin": {"enabled": True, "zeeman": 0.2}}, 16)
+    ef = _gap_middle(scenario, 2)
+    dense = local_chern_marker(flake, ef)
+    sites = flake.central(0.4)
+    diffs = [np.abs(local_chern_marker_kpm(flake, ef, sites, moments=m) - dense[sites]).max() for m in (60, 800)]
+    assert diffs[1] < diffs[0] and diffs[1] < 1e-3, diffs
+
+
+def test_kernel_polynomial_pieces():
+    # The Jackson kernel starts at 1 and decays to ~0 (Weisse et al. 2006,
+    # Eq. 71); the damped step coefficients sum to the step at points away
+    # from x_F; the projector is idempotent on a small random matrix.
+    import scipy.sparse as sp
+
+    from topoedge.solvers.kpm import apply_fermi_projector, jackson_kernel, step_coefficients
+
+    g = jackson_kernel(200)
+    assert g[0] == pytest.approx(1.0) and abs(g[-1]) < 1e-3 and np.all(np.diff(g) <= 1e-12)
+    c = step_coefficients(400, 0.1)
+    for x, expected in ((-0.6, 1.0), (0.7, 0.0)):
+        value = np.polynomial.chebyshev.chebval(x, c)
+        assert value == pytest.approx(expected, abs=1e-3)
+    rng = np.random.default_rng(1)
+    a = rng.normal(size=(60, 60)) + 1j * rng.normal(size=(60, 60))
+    h = (a + a.conj().T) / 2
+    e, v = np.linalg.eigh(h)
+    ef = 0.5 * (e[29] + e[30])        # a gap between two levels
+    exact = v[:, :30] @ v[:, :30].conj().T
+    m = int(40 * (e[-1] - e[0]) / (e[30] - e[29]))
+    approx = apply_fermi_projector(sp.csr_matrix(h), np.eye(60), ef, m)
+    assert np.abs(approx - exact).max() < 2e-2

@@ -31,7 +31,7 @@ import numpy as np
 
 from ..systems.flake import Flake
 
-__all__ = ["flake_eigen", "ground_projector", "local_chern_marker", "marker_average"]
+__all__ = ["flake_eigen", "ground_projector", "local_chern_marker", "local_chern_marker_kpm", "marker_average"]
 
 
 def flake_eigen(flake: Flake) -> tuple[np.ndarray, np.ndarray]:
@@ -73,6 +73,55 @@ def local_chern_marker(flake: Flake, fermi_energy: float, *, projector: np.ndarr
     per_orbital = (b * (y[None, :] * p.T)).sum(axis=1)   # <a| (P x P) y P |a> = sum_b B_ab y_b P_ba
     per_site = per_orbital.reshape(flake.sites, flake.orbitals).sum(axis=1)
     return -4 * np.pi / flake.site_area * per_site.imag
+
+
+def local_chern_marker_kpm(flake: Flake, fermi_energy: float, sites, *, moments: int, block: int = 64,
+                           progress=None) -> np.ndarray:
+    """The local Chern marker of the given sites with the Fermi projector by kernel polynomials.
+
+    ``<a|P x Q y P|a> = <x u| y u> - <x u| P y u>`` with ``u = P|a>``: two
+    applications of the projector (:func:`topoedge.solvers.kpm.apply_fermi_projector`)
+    per orbital of the sites asked for, in blocks of ``block`` orbitals;
+    the cost grows linearly with the flake and with the number of sites
+    asked for, and nothing N x N is formed.
+
+    Parameters
+    ----------
+    flake : Flake
+    fermi_energy : float
+        E_F in t (inside a gap).
+    sites : array_like of int
+        Indices of the sites (e.g. :meth:`Flake.central`).
+    moments : int
+        Chebyshev moments (see :func:`topoedge.solvers.kpm.moments_for_gap`).
+    block : int
+        Orbitals per block (memory about ``6 N block`` complex numbers).
+    progress : Stage, optional
+        Advanced once per block.
+
+    Returns
+    -------
+    ndarray, shape (len(sites),)
+    """
+    from .kpm import apply_fermi_projector, spectral_bounds
+
+    sites = np.asarray(sites, dtype=int)
+    x, y = flake.orbital_positions()
+    orbitals = (sites[:, None] * flake.orbitals + np.arange(flake.orbitals)[None, :]).ravel()
+    bounds = spectral_bounds(flake.hamiltonian)
+    values = np.empty(orbitals.size)
+    for start in range(0, orbitals.size, block):
+        chunk = orbitals[start:start + block]
+        unit = np.zeros((flake.size, chunk.size), dtype=complex)
+        unit[chunk, np.arange(chunk.size)] = 1.0
+        u = apply_fermi_projector(flake.hamiltonian, unit, fermi_energy, moments, bounds=bounds)
+        yu = y[:, None] * u
+        w = apply_fermi_projector(flake.hamiltonian, yu, fermi_energy, moments, bounds=bounds)
+        values[start:start + chunk.size] = np.einsum("na,na->a", np.conj(x[:, None] * u), yu - w).imag
+        if progress is not None:
+            progress.update(1)
+    per_site = values.reshape(sites.size, flake.orbitals).sum(axis=1)
+    return 4 * np.pi / flake.site_area * per_site
 
 
 def marker_average(marker: np.ndarray, flake: Flake, fraction: float = 0.5) -> tuple[float, float]:
