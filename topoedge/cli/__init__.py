@@ -6,6 +6,7 @@
 ``topoedge hallbar``         R_xy and R_xx of the scenario's Hall bar over E_F or B, results folder
 ``topoedge sweep SWEEP``     a scenario over a grid of parameters (resumable; local or dask), table and maps
 ``topoedge butterfly``       flux-energy spectrum with gap Chern numbers, results folder
+``topoedge disorder``        local Chern marker and Kubo-Bastin sigma_xy of a disordered flake, results folder
 
 Each command is a module of this package with its arguments and its
 :class:`~topoedge.cli.common.Command`, listed once in :data:`COMMANDS`.
@@ -23,14 +24,15 @@ import warnings
 
 from .. import __version__
 from ..scenario import ConfigError
-from . import bench, butterfly, hallbar, run, sweep
+from . import bench, butterfly, disorder, hallbar, run, sweep
 from .common import EXIT_BAD_INPUT, Command, Parser, one_line
 
 #: Every subcommand, in the order of ``topoedge --help``: a new command is a
 #: module of this package with a :class:`~topoedge.cli.common.Command` and one
 #: entry here.
 COMMANDS: dict[str, Command] = {"run": run.COMMAND, "bench": bench.COMMAND, "hallbar": hallbar.COMMAND,
-                                "sweep": sweep.COMMAND, "butterfly": butterfly.COMMAND}
+                                "sweep": sweep.COMMAND, "butterfly": butterfly.COMMAND,
+                                "disorder": disorder.COMMAND}
 
 
 def _parser() -> argparse.ArgumentParser:

@@ -12,7 +12,8 @@ matplotlib backend (the command line chooses it; see
 - :mod:`.hallbar` -- Hall-bar scans;
 - :mod:`.interacting` -- self-consistent runs;
 - :mod:`.butterfly` -- the flux-energy spectrum;
-- :mod:`.sweep` -- sweep maps and lines.
+- :mod:`.sweep` -- sweep maps and lines;
+- :mod:`.disorder` -- the marker map, sigma_xy curves and the robustness map of a disordered flake.
 """
 
 from .bulk import bulk_energy_range, bulk_figure, plot_bulk_bands, plot_level_diagram

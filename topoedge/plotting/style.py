@@ -104,6 +104,20 @@ def chern_colours(clip: int = CHERN_CLIP):
     return cmap, norm
 
 
+def chern_continuous(limit: float):
+    """A continuous version of :func:`chern_colours` for non-integer values (local markers, sigma_xy).
+
+    Returns ``(cmap, norm)`` with the same warm (positive) and cool
+    (negative) sides, grey at 0, and a linear scale from ``-limit`` to ``+limit``.
+    """
+    from matplotlib import colors
+
+    listed, _ = chern_colours()
+    cmap = colors.LinearSegmentedColormap.from_list("chern-continuous", listed.colors, N=256)
+    limit = max(float(limit), 1e-9)
+    return cmap, colors.Normalize(vmin=-limit, vmax=limit)
+
+
 def legend_outside(ax, handles, *, where: str = "right", **kwargs):
     """A legend beside (``"right"``) or below (``"below"``) the axes, never over the data.
 

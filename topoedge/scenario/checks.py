@@ -48,6 +48,9 @@ def check_combinations(s: Scenario) -> None:
     if s.fermi.energy is not None and s.fermi.gap is not None:
         raise ConfigError(f"fermi.gap: got {s.fermi.gap} together with fermi.energy = "
                           f"{s.fermi.energy!r}; expected only one of them")
+    if not s.disorder.strengths:
+        raise ConfigError("disorder.strengths: empty; expected a non-empty array of distinct strengths >= 0 in t "
+                          "(e.g. [0.0, 1.0, 2.0])")
     if s.interaction.enabled:
         _check_interaction(s)
     _check_lattice(s)

@@ -311,6 +311,45 @@ class HallbarConfig:
     seeds: int = 1
 
 
+@dataclass(frozen=True)
+class DisorderConfig:
+    """Topology of a finite disordered flake (``topoedge disorder``).
+
+    Attributes
+    ----------
+    flake : int
+        Side of the square flake in the lattice's length unit (a, or a_cc).
+    strength : float
+        Anderson disorder W_dis (t, uniform in [-W/2, W/2] per site) of the
+        marker map.
+    strengths : tuple of float
+        Disorder strengths W_dis (t) of the sigma_xy curves and the
+        robustness map.
+    seeds : int
+        Disorder realisations per strength (seeds 0 .. seeds-1).
+    region : float
+        Central fraction of the flake (in x and in y) over which the marker
+        is averaged and sigma_xy is traced.
+    moments : int or None
+        Chebyshev moments of the kernel-polynomial expansions; None: chosen
+        from the clean gap at E_F.
+    vectors : int
+        Random phase vectors of the Kubo-Bastin trace.
+    energies : int
+        Fermi energies of the sigma_xy curves (from the band bottom to 1.5
+        (E_F - bottom) above E_F).
+    """
+
+    flake: int = 60
+    strength: float = 0.0
+    strengths: tuple[float, ...] = (0.0, 1.0, 2.0, 4.0, 8.0)
+    seeds: int = 2
+    region: float = 0.4
+    moments: int | None = None
+    vectors: int = 8
+    energies: int = 41
+
+
 #: Starting states of the self-consistent loop (the names of
 #: topoedge.solvers.hartree_fock.START_STATES; repeated here so that reading a
 #: scenario does not import the solvers).
@@ -415,6 +454,7 @@ class Scenario:
     field: FieldConfig = FieldConfig()
     hallbar: HallbarConfig = HallbarConfig()
     interaction: InteractionConfig = InteractionConfig()
+    disorder: DisorderConfig = DisorderConfig()
     source: str | None = dataclasses.field(default=None, compare=False)
 
     def to_dict(self) -> dict[str, Any]:
@@ -429,6 +469,8 @@ class Scenario:
                    if self.field.b_tesla is not None else set())
         if self.interaction == InteractionConfig():  # no interaction: leave the section out
             derived.add("interaction")
+        if self.disorder == DisorderConfig():        # the defaults of topoedge disorder: left out too
+            derived.add("disorder")
         return _plain_fields(self, "", derived)
 
 
@@ -479,6 +521,7 @@ SECTIONS: dict[str, type] = {
     "material": MaterialConfig, "field": FieldConfig,
     "hallbar": HallbarConfig,
     "interaction": InteractionConfig, "interaction.background": BackgroundConfig,
+    "disorder": DisorderConfig,
 }
 
 

@@ -1,0 +1,84 @@
+"""`topoedge disorder`: files, summary, resumability and bad input."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+import warnings
+
+import numpy as np
+import pytest
+
+from topoedge import cli
+from topoedge.outputs.disorder import DISORDER_FILES
+
+warnings.filterwarnings("ignore", message="MUMPS is not available")
+
+SMALL = ('title = "tiny disorder"\n[lattice]\nflux = "1/5"\n[spin]\nenabled = false\n[fermi]\ngap = 1\n'
+         '[chern]\ngrid = [16, 16]\nrefine = false\n'
+         '[disorder]\nflake = 16\nstrength = 0.5\nstrengths = [0.0, 0.5, 12.0]\nseeds = 1\nregion = 0.5\n'
+         'vectors = 4\nenergies = 9\n')
+
+
+def _cli(*args, cwd):
+    return subprocess.run([sys.executable, "-m", "topoedge", "disorder", *map(str, args)], cwd=cwd,
+                          capture_output=True, text=True, timeout=600)
+
+
+def test_command_writes_the_folder_and_finds_the_plateau(tmp_path, monkeypatch):
+    # Flux 1/5, gap above the lowest band: C = 1 (TKNN, PRL 49, 405 (1982));
+    # weak disorder keeps it, W = 12 t (beyond the whole band set) does not.
+    (tmp_path / "tiny.toml").write_text(SMALL)
+    monkeypatch.chdir(tmp_path)
+    assert cli.main(["disorder", "tiny.toml", "--out", "out", "--quiet"]) == 0
+    out = tmp_path / "out"
+    assert {p.name for p in out.iterdir()} == set(DISORDER_FILES)
+    summary = json.loads((out / "summary.json").read_text())
+    assert summary["fermi"]["chern"] == 1 and summary["strengths"] == [0.0, 0.5, 12.0]
+    assert summary["marker_mean"][0] == pytest.approx(1.0, abs=0.03)
+    assert summary["marker_mean"][1] == pytest.approx(1.0, abs=0.05)
+    assert summary["plateau_broken_at"]["marker"] == 12.0
+    assert summary["sigma_fermi_mean"][0] == pytest.approx(1.0, abs=0.15)
+    rows = (out / "disorder.csv").read_text().splitlines()
+    assert rows[0].startswith("strength (t),seed") and len(rows) == 4
+    assert not list(tmp_path.glob(".disorder-*.points"))
+    for name in ("marker_map.png", "sigma_xy.png", "robustness.png"):
+        assert (out / name).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_resumes_from_finished_points(tmp_path, monkeypatch):
+    import importlib
+
+    from topoedge.scenario import parse_scenario
+    from topoedge.util.points import PointStore
+    from topoedge.workflows.disorder import disorder_run
+
+    import tomllib
+
+    scenario = parse_scenario(tomllib.loads(SMALL))
+    store = PointStore(tmp_path / ".points")
+    first = disorder_run(scenario, store=store)
+    kubo = importlib.import_module("topoedge.workflows.disorder")
+    calls = []
+    original = kubo.hall_conductivity_kpm
+    monkeypatch.setattr(kubo, "hall_conductivity_kpm", lambda *a, **k: calls.append(1) or original(*a, **k))
+    again = disorder_run(scenario, store=PointStore(tmp_path / ".points"))
+    assert calls == [] and np.array_equal(first.marker, again.marker)
+
+
+@pytest.mark.parametrize("override, message", [
+    ("disorder.flake=4", "disorder.flake: got 4; expected an integer side >= 8"),
+    ("lattice.flux=1/40", "disorder.flake: got 16 at l_B = 2.52 a; expected at least 21"),
+    ("disorder.strengths=[-1.0]", "disorder.strengths: got -1.0 in the array"),
+    ("disorder.strengths=[]", "disorder.strengths: empty"),
+    ("disorder.moments=9", "disorder.moments: got 9; their resolution"),
+    ("disorder.region=0", "disorder.region: got 0"),
+])
+def test_bad_input_is_refused_in_one_line_before_anything_is_written(tmp_path, override, message):
+    (tmp_path / "tiny.toml").write_text(SMALL)
+    proc = _cli("tiny.toml", "--out", tmp_path / "out", "--set", override, cwd=tmp_path)
+    assert proc.returncode == 2 and proc.stdout == ""
+    lines = [line for line in proc.stderr.splitlines() if not line.startswith("topoedge |")]
+    assert len(lines) == 1 and message in lines[0], proc.stderr
+    assert not (tmp_path / "out").exists()

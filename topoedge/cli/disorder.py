@@ -1,0 +1,80 @@
+"""`topoedge disorder`: local Chern marker and Kubo-Bastin sigma_xy of a finite disordered flake."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario, resolve
+from ..util.jsonio import dumps
+from .common import Command, default_out, say
+
+
+def cmd_disorder(args) -> int:
+    """Marker map, sigma_xy curves and the robustness of the plateau into a results folder."""
+    scenario = load_scenario(args.config, args.overrides)
+    if scenario.interaction.enabled:
+        raise ConfigError("interaction.enabled: true; `topoedge disorder` is non-interacting; expected a scenario "
+                          "without [interaction]")
+    model = resolve(scenario)
+    from ..workflows.disorder import check_disorder
+
+    check_disorder(model.scenario)          # flake against l_B and size, before anything is built
+    out = args.out if args.out is not None else default_out(f"disorder-{Path(args.config or DEFAULT_SCENARIO).stem}")
+    from ..util.atomic import check_destination
+
+    check_destination(out, force=args.force)
+    from ..util.points import PointStore, points_folder
+    from ..util.progress import Progress, progress_mode
+    from ..workflows.disorder import disorder_run
+
+    store = PointStore(points_folder(out, "disorder", model.scenario.to_dict()))
+    earlier = store.count()
+    if earlier:
+        say(args, f"topoedge disorder: continuing an interrupted run: {earlier} points from {store.folder}")
+    try:
+        result = disorder_run(model, progress=Progress(progress_mode(quiet=args.quiet)), store=store)
+    except KeyboardInterrupt:
+        print(f"topoedge: interrupted; {store.count()} finished points are kept in {store.folder}; run the same "
+              "command again to compute the rest", file=sys.stderr)
+        return 130
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from ..outputs.disorder import format_disorder, write_disorder
+    from ..plotting.disorder import marker_map_figure, robustness_figure, sigma_curves_figure
+
+    def saver(make):
+        def save(path: Path) -> None:
+            fig = make(result)
+            try:
+                fig.savefig(path, dpi=150)
+            finally:
+                plt.close(fig)
+        return save
+
+    figures = {"marker_map.png": saver(marker_map_figure), "sigma_xy.png": saver(sigma_curves_figure),
+               "robustness.png": saver(robustness_figure)}
+    write_disorder(out, result, figures, force=args.force)
+    store.clear()
+    if args.json:
+        print(dumps(result.to_dict(), indent=2))
+    say(args, format_disorder(result, out))
+    return 0
+
+
+def add_arguments(parser) -> None:
+    """The arguments of ``topoedge disorder`` (besides ``--set``, ``--json`` and ``--quiet``)."""
+    parser.add_argument("config", nargs="?", default=None,
+                        help="scenario TOML file or the name of a shipped scenario (default: default); the "
+                             "[disorder] section sets the flake, the strengths and the expansions")
+    parser.add_argument("--out", type=Path, default=None,
+                        help="results folder (default: results/disorder-<scenario>-<date-time>)")
+    parser.add_argument("--force", action="store_true", help="replace an existing results folder")
+
+
+#: ``topoedge disorder`` in the command registry of :mod:`topoedge.cli`.
+COMMAND = Command(help="local Chern marker and Kubo-Bastin sigma_xy of a finite disordered flake: marker map, "
+                       "sigma_xy curves, plateau robustness", add_arguments=add_arguments, run=cmd_disorder)
