@@ -176,3 +176,14 @@ def test_kernel_polynomial_pieces():
     m = int(40 * (e[-1] - e[0]) / (e[30] - e[29]))
     approx = apply_fermi_projector(sp.csr_matrix(h), np.eye(60), ef, m)
     assert np.abs(approx - exact).max() < 2e-2
+
+
+def test_marker_benchmark_reports_ratio_difference_and_sizes():
+    # The benchmark's own numbers are not checked (shared machines): only
+    # that it measures the two routes on the same sites, and they agree.
+    from topoedge.workflows.bench_disorder import bench_marker
+
+    r = bench_marker(sizes=(20, 28), dense_size=24, half=3.0)
+    assert r["dense"]["largest_difference"] < 1e-2
+    assert r["dense"]["central_sites"] >= 36 and [row["size"] for row in r["sizes"]] == [20, 28]
+    assert all(row["central_mean"] == pytest.approx(1.0, abs=0.05) for row in r["sizes"])

@@ -11,10 +11,10 @@ def cmd_bench(args) -> int:
     from ..workflows.bench import bench_chern, bench_ribbon
 
     parts = [p.strip() for p in args.parts.split(",") if p.strip()]
-    unknown = sorted(set(parts) - {"ribbon", "chern", "landau", "gaas", "hallbar", "hf", "sweep"})
+    unknown = sorted(set(parts) - {"ribbon", "chern", "landau", "gaas", "hallbar", "hf", "sweep", "marker"})
     if unknown or not parts:
         raise ConfigError(f"bench --parts: got {args.parts!r}; expected a comma-separated subset of "
-                          "ribbon, chern, landau, gaas, hallbar, hf, sweep")
+                          "ribbon, chern, landau, gaas, hallbar, hf, sweep, marker")
     try:
         landau_qs = [int(x) for x in args.landau_q.split(",")]
         assert landau_qs and all(24 <= q <= 20000 for q in landau_qs)
@@ -137,6 +137,19 @@ def cmd_bench(args) -> int:
             ratio = (f"; scipy / mumps_amd = {row['ratio_scipy_over_mumps_amd']:.2f}x"
                      if "ratio_scipy_over_mumps_amd" in row else "")
             say(args, f"  {'':23s}  R_xy = {row['r_xy']:.8f} h/e^2{ratio}")
+    if "marker" in parts:
+        from ..workflows.bench_disorder import bench_marker
+
+        say(args, "local Chern marker benchmark: flux 1/20, spinless, E_F above the lowest Landau level; the "
+                   "central 10 x 10 sites by kernel polynomials against the dense projector, then KPM at 3 sizes ...")
+        report["marker"] = r = bench_marker()
+        d = r["dense"]
+        say(args, f"  {d['size']} x {d['size']} ({d['orbitals']} orbitals), {r['moments']} moments: dense "
+                   f"{d['dense_seconds']:.2f} s, KPM {d['kpm_seconds']:.2f} s, ratio {d['ratio_dense_over_kpm']:.1f}, "
+                   f"largest difference {d['largest_difference']:.1e}")
+        for row in r["sizes"]:
+            say(args, f"  KPM {row['size']:4d} x {row['size']:<4d} {row['orbitals']:7d} orbitals: {row['seconds']:7.2f} s, "
+                       f"{1e6 * row['seconds_per_orbital']:.1f} us per orbital, central mean {row['central_mean']:.4f}")
     if "hf" in parts:
         from ..workflows.bench import bench_hf
 
@@ -177,8 +190,8 @@ def add_arguments(parser) -> None:
                         help="half-width of the energy window around E_F, units of t (default 0.5)")
     parser.add_argument("--chern-q", type=int, default=50,
                         help="Chern benchmark at flux 1/q, spinless (default 50)")
-    parser.add_argument("--parts", default="ribbon,chern,landau,gaas,hallbar,hf,sweep",
-                        help="comma-separated benchmarks to run: ribbon, chern, landau, gaas, hallbar, hf, sweep "
+    parser.add_argument("--parts", default="ribbon,chern,landau,gaas,hallbar,hf,sweep,marker",
+                        help="comma-separated benchmarks to run: ribbon, chern, landau, gaas, hallbar, hf, sweep, marker "
                              "(default all)")
     parser.add_argument("--landau-q", default="200,1000,2000", metavar="Q,...",
                         help="landau part: fluxes 1/q of the Landau-level Chern benchmark (default 200,1000,2000); "
