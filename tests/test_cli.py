@@ -565,10 +565,11 @@ def test_bench_json(tmp_path):
                                         '[ribbon]\nwidth = 70\n[spectrum]\nk_points = 21\n')
     proc = topoedge_cli("bench", "--width", 20, "--k-points", 5, "--chern-q", 6, "--bars", "80x40",
                         "--hf-size", "40x16", "--sweep", "sweep.toml", "--landau-q", "48,60",
-                        "--gaas", "gaas.toml", "--json", cwd=tmp_path)
+                        "--gaas", "gaas.toml", "--marker-flakes", "24:12,16", "--json", cwd=tmp_path)
     assert proc.returncode == 0, proc.stderr
     full = leading_json(proc.stdout)
-    assert full.keys() == {"ribbon", "chern", "landau", "gaas", "hallbar", "hf", "sweep"}
+    assert full.keys() == {"ribbon", "chern", "landau", "gaas", "hallbar", "hf", "sweep", "marker"}
+    assert full["marker"]["dense"]["largest_difference"] < 1e-2
     landau = full["landau"]
     # dense at 12, 24, 48 (measured), Landau-level solver at those and at 60;
     # the lowest four gaps have t_r = r at flux 1/q (TKNN, PRL 49, 405 (1982)).

@@ -38,6 +38,13 @@ def cmd_bench(args) -> int:
     except (ValueError, AssertionError):
         raise ConfigError(f"bench --hf-size: got {args.hf_size!r}; expected WxNK with W >= 8 rows and "
                           "NK >= 8 momenta, a multiple of 4 (e.g. 200x256)") from None
+    try:
+        dense_text, _, sizes_text = args.marker_flakes.partition(":")
+        marker_dense, marker_sizes = int(dense_text), tuple(int(n) for n in sizes_text.split(","))
+        assert 12 <= marker_dense <= 80 and marker_sizes and all(12 <= n <= 400 for n in marker_sizes)
+    except (ValueError, AssertionError):
+        raise ConfigError(f"bench --marker-flakes: got {args.marker_flakes!r}; expected DENSE:SIZE,SIZE,... flake "
+                          "sides, the dense one from 12 to 80, the others from 12 to 400 (e.g. 60:50,100,200)") from None
     bars = None
     if args.bars is not None:
         try:
@@ -141,8 +148,9 @@ def cmd_bench(args) -> int:
         from ..workflows.bench_disorder import bench_marker
 
         say(args, "local Chern marker benchmark: flux 1/20, spinless, E_F above the lowest Landau level; the "
-                   "central 10 x 10 sites by kernel polynomials against the dense projector, then KPM at 3 sizes ...")
-        report["marker"] = r = bench_marker()
+                   "central 10 x 10 sites by kernel polynomials against the dense projector, then KPM alone at "
+                   f"{len(marker_sizes)} sizes ...")
+        report["marker"] = r = bench_marker(sizes=marker_sizes, dense_size=marker_dense)
         d = r["dense"]
         say(args, f"  {d['size']} x {d['size']} ({d['orbitals']} orbitals), {r['moments']} moments: dense "
                    f"{d['dense_seconds']:.2f} s, KPM {d['kpm_seconds']:.2f} s, ratio {d['ratio_dense_over_kpm']:.1f}, "
@@ -193,6 +201,9 @@ def add_arguments(parser) -> None:
     parser.add_argument("--parts", default="ribbon,chern,landau,gaas,hallbar,hf,sweep,marker",
                         help="comma-separated benchmarks to run: ribbon, chern, landau, gaas, hallbar, hf, sweep, marker "
                              "(default all)")
+    parser.add_argument("--marker-flakes", default="60:50,100,200", metavar="DENSE:SIZE,...",
+                        help="marker part: the flake side where dense and kernel polynomials are compared, and the "
+                             "sides of the kernel-polynomial growth (default 60:50,100,200)")
     parser.add_argument("--landau-q", default="200,1000,2000", metavar="Q,...",
                         help="landau part: fluxes 1/q of the Landau-level Chern benchmark (default 200,1000,2000); "
                              "the dense route runs at the smallest (at most 200), half and a quarter of it (at least 12)")
