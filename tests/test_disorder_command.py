@@ -82,3 +82,33 @@ def test_bad_input_is_refused_in_one_line_before_anything_is_written(tmp_path, o
     lines = [line for line in proc.stderr.splitlines() if not line.startswith("topoedge |")]
     assert len(lines) == 1 and message in lines[0], proc.stderr
     assert not (tmp_path / "out").exists()
+
+
+def test_a_sweep_can_run_the_disorder_command_per_point(tmp_path):
+    # command = "disorder": every point is `topoedge disorder` at its one
+    # disorder.strength; the table holds the marker and sigma_xy at E_F.
+    # Flux 1/5, gap above one band: C = 1 (TKNN), kept at W = 0.5 t, lost at 12 t.
+    from topoedge.workflows.sweep import gather, parse_sweep, run_sweep
+
+    import tomllib
+
+    base = tomllib.loads(SMALL)
+    data = {"title": "tiny robustness", "command": "disorder", "scenario": base,
+            "axis": [{"key": "disorder.strength", "values": [0.5, 12.0]}],
+            "plot": {"quantities": ["disorder_marker", "disorder_sigma_xy"]}}
+    sweep = parse_sweep(data)
+    assert sweep.command == "disorder" and sweep.to_dict()["command"] == "disorder"
+    stats = run_sweep(sweep, tmp_path / "out", jobs=1)
+    assert stats["computed"] == 2 and stats["failed"] == 0
+    rows = {r["disorder.strength"]: r for r in gather(sweep, tmp_path / "out")}
+    assert rows[0.5]["disorder_marker"] == pytest.approx(1.0, abs=0.05) and rows[0.5]["chern"] == 1
+    assert abs(rows[12.0]["disorder_marker"] - 1.0) > 0.3
+    with pytest.raises(Exception, match="command: got 'walk'; expected one of 'run', 'disorder'"):
+        parse_sweep({**data, "command": "walk"})
+
+
+def test_the_shipped_robustness_sweep_is_valid():
+    from topoedge.workflows.sweep import load_sweep
+
+    sweep = load_sweep("disorder-robustness")
+    assert sweep.command == "disorder" and len(sweep.points()) == 24

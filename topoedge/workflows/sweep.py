@@ -92,6 +92,10 @@ QUANTITIES: dict[str, tuple[str, str]] = {
     "hf_converged": ("bool", "self-consistent solution found (interacting points)"),
     "hf_energy": ("float", "Hartree-Fock energy per cell, t (interacting points)"),
     "hf_best_start": ("str", "start of the kept self-consistent solution"),
+    "disorder_marker": ("float", "local Chern marker at E_F, central mean over the seeds (command disorder)"),
+    "disorder_marker_spread": ("float", "its spread over the seeds"),
+    "disorder_sigma_xy": ("float", "Kubo-Bastin sigma_xy at E_F, e^2/h, mean over the seeds (command disorder)"),
+    "disorder_sigma_xy_spread": ("float", "its spread over the seeds"),
 }
 
 
@@ -126,6 +130,7 @@ class Sweep:
     mode: str
     quantities: tuple[str, ...]
     source: str | None = None
+    command: str = "run"
 
     def points(self) -> list[dict]:
         """Every point: ``{"axes": {key: value}, "config": scenario tables}`` in sweep order."""
@@ -141,7 +146,8 @@ class Sweep:
         return out
 
     def to_dict(self) -> dict:
-        return {"title": self.title, "scenario": self.base, "mode": self.mode,
+        return {"title": self.title, **({"command": self.command} if self.command != "run" else {}),
+                "scenario": self.base, "mode": self.mode,
                 "axis": [{"key": a.key, "values": list(a.values)} for a in self.axes],
                 "plot": {"quantities": list(self.quantities)}}
 
@@ -158,7 +164,10 @@ def _toml_value(value: Any) -> str:
 
 
 DEFAULT_QUANTITIES = ("bottom_pairs", "bottom_net", "chern", "outermost_spin_bottom")
-_TOP_KEYS = ("title", "scenario", "mode", "axis", "plot")
+_TOP_KEYS = ("title", "command", "scenario", "mode", "axis", "plot")
+
+#: What every point of a sweep runs: ``topoedge run`` (default) or ``topoedge disorder`` at one strength.
+COMMANDS = ("run", "disorder")
 
 
 def _axis_values(spec: Any, i: int) -> list:
@@ -215,6 +224,9 @@ def parse_sweep(data: dict, *, base_dir: Path | None = None, source: str | None 
     title = data.get("title", "")
     if not isinstance(title, str):
         raise SweepError(f"title: got {title!r}; expected a string")
+    command = data.get("command", "run")
+    if command not in COMMANDS:
+        raise SweepError(f"command: got {command!r}; expected one of {', '.join(map(repr, COMMANDS))}")
     base = data.get("scenario")
     if isinstance(base, str):
         path = Path(base) if base_dir is None else (base_dir / base)
@@ -275,7 +287,7 @@ def parse_sweep(data: dict, *, base_dir: Path | None = None, source: str | None 
     for q in quantities:
         if q not in QUANTITIES:
             raise SweepError(f"plot.quantities: got {q!r}; expected names from {', '.join(QUANTITIES)}")
-    return Sweep(title, base, tuple(axes), mode, tuple(quantities), source)
+    return Sweep(title, base, tuple(axes), mode, tuple(quantities), source, command)
 
 
 def load_sweep(path: str | os.PathLike, overrides: Sequence[str] = ()) -> Sweep:
@@ -347,76 +359,6 @@ def quantities_of(summary) -> dict:
     return out
 
 
-def run_point(config: dict) -> dict:
-    """Run one point (in a worker): the pipeline of ``topoedge run``, no files.
-
-    Returns ``{"status": "ok", "quantities", "summary", "seconds"}`` or
-    ``{"status": "failed", "error": one line, "seconds"}``: a point that
-    fails never raises.
-    """
-    import warnings
-
-    from ..util.threads import one_blas_thread
-
-    warnings.filterwarnings("ignore", message="MUMPS is not available")
-    start, cpu = time.perf_counter(), time.process_time()
-    try:
-        scenario = parse_scenario(config)
-        with one_blas_thread():
-            if scenario.interaction.enabled:
-                from .interacting import run_interacting
-
-                result = run_interacting(scenario)
-            else:
-                from .run import run_scenario
-
-                result = run_scenario(scenario)
-        return {"status": "ok", "quantities": plain_json(quantities_of(result.summary)),
-                "summary": plain_json(result.summary),
-                "seconds": time.perf_counter() - start, "cpu_seconds": time.process_time() - cpu}
-    except Exception as err:  # a failed point is recorded, never stops the sweep
-        message = " ".join(str(err).split()) or type(err).__name__
-        return {"status": "failed", "error": f"{type(err).__name__}: {message}",
-                "seconds": time.perf_counter() - start}
-
-
-def _submitter(executor: str, jobs: int, scheduler: str | None):
-    """(submit(config) -> future, iterate-as-completed(futures), close) for an executor."""
-    if executor == "local":
-        from concurrent.futures import as_completed
-
-        from ..util.workers import process_pool, stop_pool
-
-        pool = process_pool(jobs)
-
-        def close_pool(graceful: bool = False) -> None:
-            # Every point done: let the workers exit and the pool release its
-            # queues (no leaked semaphores); otherwise end the workers now.
-            if graceful:
-                pool.shutdown(wait=True)
-            else:
-                stop_pool(pool)
-
-        return (lambda config: pool.submit(run_point, config)), as_completed, close_pool
-    from dask.distributed import Client, LocalCluster, as_completed
-
-    if scheduler is not None:
-        client = Client(scheduler, timeout="30s")
-        cluster = None
-    else:
-        cluster = LocalCluster(n_workers=jobs, threads_per_worker=1, processes=True, dashboard_address=None,
-                               host="127.0.0.1")
-        client = Client(cluster)
-
-    def close(graceful: bool = False):
-        client.close()
-        if cluster is not None:
-            cluster.close()
-
-    # pure=False: a point is computed even if an equal task ran before on the cluster.
-    return (lambda config: client.submit(run_point, config, pure=False)), as_completed, close
-
-
 def run_sweep(sweep: Sweep, out: Path, *, executor: str = "local", jobs: int | None = None,
               scheduler: str | None = None, retry_failed: bool = False, progress: bool = False,
               on_point=None) -> dict:
@@ -466,7 +408,7 @@ def run_sweep(sweep: Sweep, out: Path, *, executor: str = "local", jobs: int | N
     computed = failed = 0
     # Connect to the workers first: a scheduler that cannot be reached leaves nothing behind.
     workers = max(1, min(jobs or default_jobs(), len(todo)))
-    submit, completed, close = _submitter(executor, workers, scheduler) if todo else (None, None, None)
+    submit, completed, close = submitter(executor, workers, scheduler, sweep.command) if todo else (None, None, None)
     try:
         points_dir.mkdir(parents=True, exist_ok=True)
         remove_stale(points_dir)   # left by a process killed while writing
@@ -521,3 +463,4 @@ def gather(sweep: Sweep, out: Path) -> list[dict]:
     return rows
 
 
+from .sweep_points import run_point, submitter  # noqa: E402  (they read QUANTITIES of this module)
