@@ -3,11 +3,10 @@
 from __future__ import annotations
 
 import json
-import sys
 import time
 from pathlib import Path
 from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario, resolve
-from .common import Command, require_support, say
+from .common import Command, interrupted, open_points, require_support, say
 
 
 def cmd_butterfly(args) -> int:
@@ -44,23 +43,16 @@ def cmd_butterfly(args) -> int:
     # With [field], the Zeeman splitting (in t) is the one at the scenario's
     # field, kept the same at every flux of the spectrum.
     model = resolve(scenario).scenario
-    from ..util.points import PointStore, points_folder
-
     options = dict(spin=model.spin.enabled, zeeman=model.spin.zeeman, onsite=model.lattice.onsite,
                    full_grid=args.full_grid)
-    store = PointStore(points_folder(out, "butterfly", options))
-    earlier = store.count()
-    if earlier:
-        say(args, f"topoedge butterfly: continuing an interrupted run: {earlier} fluxes from {store.folder}")
+    store = open_points(args, out, "butterfly", options, "fluxes")
     try:
         from ..util.progress import Progress, progress_mode
 
         result = compute_butterfly(args.q_max, jobs=args.jobs, progress=Progress(progress_mode(quiet=args.quiet)),
                                    store=store, **options)
     except KeyboardInterrupt:
-        print(f"topoedge: interrupted; {store.count()} finished fluxes are kept in {store.folder}; run the same "
-              "command again to compute the rest", file=sys.stderr)
-        return 130
+        return interrupted(store, "fluxes")
     summary = butterfly_summary(result, min_gap=args.min_gap, scenario=scenario)
     write_butterfly(out, result, summary, force=args.force)
     store.clear()

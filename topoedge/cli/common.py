@@ -99,3 +99,36 @@ def require_support(scenario, command: str) -> None:
                           "yet; expected 0")
 
 
+def figure_writer(make, result, *, dpi: int = 150):
+    """A file writer for :func:`topoedge.util.atomic.write_folder`: ``make(result)`` saved and closed."""
+    import matplotlib.pyplot as plt
+
+    def save(path: Path) -> None:
+        fig = make(result)
+        try:
+            fig.savefig(path, dpi=dpi)
+        finally:
+            plt.close(fig)
+
+    return save
+
+
+def open_points(args, out: Path, kind: str, identity, what: str = "points"):
+    """The :class:`~topoedge.util.points.PointStore` of a resumable command, saying when it continues."""
+    from ..util.points import PointStore, points_folder
+
+    store = PointStore(points_folder(out, kind, identity))
+    earlier = store.count()
+    if earlier:
+        say(args, f"topoedge {args.command}: continuing an interrupted run: {earlier} {what} from {store.folder}")
+    return store
+
+
+def interrupted(store, what: str = "points") -> int:
+    """Say where the finished points of an interrupted command are kept; the exit status of Ctrl-C."""
+    import sys
+
+    print(f"topoedge: interrupted; {store.count()} finished {what} are kept in {store.folder}; run the same "
+          "command again to compute the rest", file=sys.stderr)
+    return 130
+

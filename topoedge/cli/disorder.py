@@ -2,12 +2,11 @@
 
 from __future__ import annotations
 
-import sys
 from pathlib import Path
 
 from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario, resolve
 from ..util.jsonio import dumps
-from .common import Command, default_out, say
+from .common import Command, default_out, figure_writer, interrupted, open_points, say
 
 
 def cmd_disorder(args) -> int:
@@ -24,39 +23,23 @@ def cmd_disorder(args) -> int:
     from ..util.atomic import check_destination
 
     check_destination(out, force=args.force)
-    from ..util.points import PointStore, points_folder
     from ..util.progress import Progress, progress_mode
     from ..workflows.disorder import disorder_run
 
-    store = PointStore(points_folder(out, "disorder", model.scenario.to_dict()))
-    earlier = store.count()
-    if earlier:
-        say(args, f"topoedge disorder: continuing an interrupted run: {earlier} points from {store.folder}")
+    store = open_points(args, out, "disorder", model.scenario.to_dict())
     try:
         result = disorder_run(model, progress=Progress(progress_mode(quiet=args.quiet)), store=store)
     except KeyboardInterrupt:
-        print(f"topoedge: interrupted; {store.count()} finished points are kept in {store.folder}; run the same "
-              "command again to compute the rest", file=sys.stderr)
-        return 130
+        return interrupted(store)
     import matplotlib
 
     matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
     from ..outputs.disorder import format_disorder, write_disorder
     from ..plotting.disorder import marker_map_figure, robustness_figure, sigma_curves_figure
 
-    def saver(make):
-        def save(path: Path) -> None:
-            fig = make(result)
-            try:
-                fig.savefig(path, dpi=150)
-            finally:
-                plt.close(fig)
-        return save
-
-    figures = {"marker_map.png": saver(marker_map_figure), "sigma_xy.png": saver(sigma_curves_figure),
-               "robustness.png": saver(robustness_figure)}
+    figures = {name: figure_writer(make, result) for name, make in (
+        ("marker_map.png", marker_map_figure), ("sigma_xy.png", sigma_curves_figure),
+        ("robustness.png", robustness_figure))}
     write_disorder(out, result, figures, force=args.force)
     store.clear()
     if args.json:

@@ -2,13 +2,13 @@
 
 from __future__ import annotations
 
-import sys
 from pathlib import Path
 
 from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario, resolve
 from ..scenario.checks import check_hallbar
 from ..util.jsonio import dumps
-from .common import EXIT_POINTS_FAILED, Command, default_out, require_support, say, scan_range
+from .common import (EXIT_POINTS_FAILED, Command, default_out, interrupted, open_points, require_support, say,
+                     scan_range)
 
 
 def cmd_hallbar(args) -> int:
@@ -45,13 +45,8 @@ def cmd_hallbar(args) -> int:
     from ..util.progress import Progress, progress_mode
 
     progress = Progress(progress_mode(quiet=args.quiet))
-    from ..util.points import PointStore, points_folder
-
     axis = "energy" if fields is None else "b_tesla"
-    store = PointStore(points_folder(out, f"hallbar-{axis}", model.to_dict()))
-    earlier = store.count()
-    if earlier:
-        say(args, f"topoedge hallbar: continuing an interrupted scan: {earlier} points from {store.folder}")
+    store = open_points(args, out, f"hallbar-{axis}", model.to_dict())
     try:
         if fields is not None:
             try:
@@ -63,9 +58,7 @@ def cmd_hallbar(args) -> int:
             energies = np.linspace(*window) if window is not None else default_energies(resolved)
             scan = hallbar_scan(resolved, energies, progress=progress, store=store)
     except KeyboardInterrupt:
-        print(f"topoedge: interrupted; {store.count()} finished points are kept in {store.folder}; run the "
-              "same command again to compute the rest", file=sys.stderr)
-        return 130
+        return interrupted(store)
     import matplotlib
 
     matplotlib.use("Agg")

@@ -7,7 +7,7 @@ from pathlib import Path
 
 from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario
 from ..util.jsonio import dumps
-from .common import EXIT_NOT_CONVERGED, Command, default_out, say
+from .common import EXIT_NOT_CONVERGED, Command, default_out, figure_writer, say
 
 
 #: Default of ``--checkpoint-every`` (seconds).
@@ -122,19 +122,10 @@ def cmd_run(args) -> int:
     import matplotlib
 
     matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
     from ..plotting import RUN_FIGURES
 
     def saver(make):
-        def save(path: Path) -> None:
-            fig = make(result)
-            try:
-                fig.savefig(path, dpi=150)
-            finally:
-                plt.close(fig)
-
-        return save
+        return figure_writer(make, result)
 
     figures = dict(RUN_FIGURES) if result.spectrum is not None else {}
     if result.interacting is not None:

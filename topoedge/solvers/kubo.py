@@ -60,7 +60,7 @@ def hall_conductivity_kpm(flake: Flake, energies, *, sites, moments: int, vector
         raise ValueError(f"expected moments >= 8, vectors >= 1 and temperature >= 0, got {moments!r}, "
                          f"{vectors!r}, {temperature!r}")
     sites = np.asarray(sites, dtype=int)
-    orbitals = (sites[:, None] * flake.orbitals + np.arange(flake.orbitals)[None, :]).ravel()
+    orbitals = flake.orbitals_of(sites)
     x, y = flake.orbital_positions()
     factory = kwant.kpm.RandomVectors(flake.hamiltonian, where=orbitals, rng=int(seed))
     correlator = kwant.kpm.conductivity(flake.hamiltonian, alpha="x", beta="y",

@@ -107,7 +107,7 @@ def local_chern_marker_kpm(flake: Flake, fermi_energy: float, sites, *, moments:
 
     sites = np.asarray(sites, dtype=int)
     x, y = flake.orbital_positions()
-    orbitals = (sites[:, None] * flake.orbitals + np.arange(flake.orbitals)[None, :]).ravel()
+    orbitals = flake.orbitals_of(sites)
     bounds = spectral_bounds(flake.hamiltonian)
     values = np.empty(orbitals.size)
     for start in range(0, orbitals.size, block):

@@ -15,7 +15,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 import scipy.sparse as sp
 
-__all__ = ["Flake"]
+__all__ = ["Flake", "central_sites"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -84,7 +84,16 @@ class Flake:
 
     def central(self, fraction: float = 0.5) -> np.ndarray:
         """Indices of the sites within the central ``fraction`` of the flake's extent in x and y."""
-        lo, hi = self.positions.min(axis=0), self.positions.max(axis=0)
-        middle, half = (lo + hi) / 2, (hi - lo) * fraction / 2
-        inside = np.all(np.abs(self.positions - middle) <= half + 1e-9, axis=1)
-        return np.nonzero(inside)[0]
+        return central_sites(self.positions, fraction)
+
+    def orbitals_of(self, sites) -> np.ndarray:
+        """Indices of the orbitals of ``sites`` (site by site, each site's orbitals adjacent)."""
+        sites = np.asarray(sites, dtype=int)
+        return (sites[:, None] * self.orbitals + np.arange(self.orbitals)[None, :]).ravel()
+
+
+def central_sites(positions: np.ndarray, fraction: float) -> np.ndarray:
+    """Indices of the ``positions`` within the central ``fraction`` of their extent in x and y."""
+    lo, hi = positions.min(axis=0), positions.max(axis=0)
+    middle, half = (lo + hi) / 2, (hi - lo) * fraction / 2
+    return np.nonzero(np.all(np.abs(positions - middle) <= half + 1e-9, axis=1))[0]

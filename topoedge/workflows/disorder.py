@@ -31,7 +31,7 @@ from ..solvers.chern import Gap
 from ..solvers.kpm import moments_for_gap, spectral_bounds
 from ..solvers.kubo import hall_conductivity_kpm
 from ..solvers.marker import local_chern_marker, local_chern_marker_kpm
-from ..systems.flake import Flake
+from ..systems.flake import Flake, central_sites
 from ..util.points import PointStore
 from ..util.progress import as_progress
 from .build import params_of
@@ -98,8 +98,7 @@ class DisorderResult:
                       "region": self.scenario.disorder.region},
             "kpm": {"moments": self.moments, "vectors": self.vectors, "resolution_t": self.resolution},
             "map": {"strength": self.map_strength, "method": self.map_method, "sites": int(self.map_sites.size),
-                    "region_mean": float(self.map_marker[np.isin(self.map_sites, self._region())].mean())
-                    if np.isin(self.map_sites, self._region()).any() else None},
+                    "region_mean": self._map_region_mean()},
             "strengths": [float(w) for w in self.strengths], "seeds": self.seeds,
             "marker_mean": [float(v) for v in self.marker.mean(axis=1)],
             "marker_spread": [float(v) for v in self.marker.std(axis=1)],
@@ -111,14 +110,10 @@ class DisorderResult:
             "warnings": list(self.warnings), "seconds": self.seconds,
         }
 
-    def _region(self) -> np.ndarray:
-        return _central(self.positions, self.scenario.disorder.region)
-
-
-def _central(positions: np.ndarray, fraction: float) -> np.ndarray:
-    lo, hi = positions.min(axis=0), positions.max(axis=0)
-    middle, half = (lo + hi) / 2, (hi - lo) * fraction / 2
-    return np.nonzero(np.all(np.abs(positions - middle) <= half + 1e-9, axis=1))[0]
+    def _map_region_mean(self) -> float | None:
+        """The map's marker averaged over the sites of the central region it holds."""
+        inside = np.isin(self.map_sites, central_sites(self.positions, self.scenario.disorder.region))
+        return float(self.map_marker[inside].mean()) if inside.any() else None
 
 
 def build_flake(scenario: Scenario) -> Flake:
