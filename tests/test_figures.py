@@ -198,7 +198,10 @@ def test_haldane_bulk_path_goes_through_k(haldane):
 
 
 def test_hexagonal_path_finds_the_dirac_point():
-    # t2 = 0 and no sublattice mass: graphene, whose bands touch at K (E = 0) only.
+    # t2 = 0 and no sublattice mass: graphene, whose bands +-t|1 + e^{ik.a1} + e^{ik.a2}|
+    # touch at K and K' (E = 0) only, with 2 x 3t at Gamma and 2 x t at M (the
+    # nearest-neighbour dispersion of P. R. Wallace, Phys. Rev. 71, 622 (1947),
+    # from memory).
     from topoedge.models.lattices import lattice
     from topoedge.workflows.build import build_bulk
 
@@ -212,7 +215,7 @@ def test_hexagonal_path_finds_the_dirac_point():
         closest = int(np.argmin(np.abs(path["distance"] - ticks[valley])))
         assert gap[closest] < 1e-2
     assert gap[0] == pytest.approx(6.0) and gap.min() < 1e-2
-    # M: the middle of the zone edge, gap 2 t1
+    # M: the middle of the zone edge, gap 2 t1 (same dispersion)
     at_m = int(np.argmin(np.abs(path["distance"] - path["ticks"][2][0])))
     assert gap[at_m] == pytest.approx(2.0, abs=1e-6)
 
