@@ -99,6 +99,12 @@ def background_of(scenario: Scenario, width: float | None = None) -> np.ndarray:
                               bg.width if width is None else width, profile=bg.profile, setback=bg.setback)
 
 
+def fewest_k_points(magnetic_length: float) -> int:
+    """The smallest even ``N_k >= max(32, 12 l_B / a)`` the self-consistent loop starts its search from."""
+    least = max(32, int(math.ceil(12 * magnetic_length)))
+    return least + least % 2
+
+
 def choose_k_points(electrons: float, magnetic_length: float, *, given: int | None = None,
                     temperature: float = 0.0, limit: int = 1024) -> tuple[int, str | None]:
     """Momenta of the self-consistent loop, and a warning where they hold a fractional charge.
@@ -123,8 +129,7 @@ def choose_k_points(electrons: float, magnetic_length: float, *, given: int | No
     def whole(n):
         return abs(electrons * n - round(electrons * n)) < 1e-9
 
-    least = max(32, int(math.ceil(12 * magnetic_length)))
-    least += least % 2
+    least = fewest_k_points(magnetic_length)
     if given is not None:
         if temperature == 0 and not whole(given):
             better = next((n for n in range(max(4, given - given % 2), limit + 1, 2) if whole(n)), None)
@@ -153,7 +158,7 @@ def memory_estimate_interacting(scenario: Scenario) -> tuple[str, float, str]:
     """
     cfg, width = scenario.interaction, scenario.ribbon.width
     phi = abs(float(scenario.lattice.flux)) or 1.0
-    least = max(32, int(math.ceil(12 / math.sqrt(2 * math.pi * phi))))
+    least = fewest_k_points(1.0 / math.sqrt(2 * math.pi * phi))
     nk = cfg.k_points if cfg.k_points is not None else 2 * least
     copies = 4 + 2 * (cfg.history if cfg.mixing == "diis" else 0)
     need = copies * 2 * nk * width * width * 16
