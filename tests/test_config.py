@@ -117,7 +117,7 @@ BAD = {
     "unknown section": ({"xyzzy": {}},
                         r"^xyzzy: unknown key; expected one of the top-level keys: "
                         r"'title', 'lattice', 'spin', 'ribbon', 'spectrum', 'fermi', 'chern', 'edges', "
-                        r"'material', 'field', 'hallbar', 'interaction', 'disorder'$"),
+                        r"'material', 'field', 'hallbar', 'interaction', 'disorder', 'levels'$"),
     "unknown key, nothing close": (nested("ribbon.edge.xyzzy", 1),
                                    r"keys of \[ribbon\.edge\]: 'profile', 'width', "),
     "section not a table": ({"lattice": 3}, r"^lattice: got 3 \(integer\); expected a table"),
@@ -268,8 +268,8 @@ def test_to_dict_values():
              "field.fermi_mev", "field.density_cm2", "ribbon.orientation"}
     # Without interaction the whole [interaction] section is left out.
     unset |= {p for p in leaf_paths(Scenario) if p.startswith("interaction.")}
-    # So is [disorder] while it has its defaults (tests/test_disorder_command.py sets it).
-    unset |= {p for p in leaf_paths(Scenario) if p.startswith("disorder.")}
+    # So are [disorder] and [levels] while they have their defaults (their command tests set them).
+    unset |= {p for p in leaf_paths(Scenario) if p.startswith(("disorder.", "levels."))}
     assert set(flat_paths(d)) == set(leaf_paths(Scenario)) - unset  # unset keys are left out
 
 
@@ -358,9 +358,10 @@ def test_key_docs_cover_every_key():
     assert len(paths) == len(set(paths))
     # FULL sets fermi.energy, which excludes fermi.gap, lattice units, which
     # exclude the physical-unit keys (tests/test_units.py covers those; [disorder]
-    # is tests/test_disorder_command.py's), and
+    # and [levels] are their commands' tests'), and
     # the square lattice, which has no ribbon.orientation (test_honeycomb.py).
-    physical = {p for p in leaf_paths(Scenario) if p.startswith(("material.", "field.", "interaction.", "disorder."))}
+    physical = {p for p in leaf_paths(Scenario) if p.startswith(("material.", "field.", "interaction.", "disorder.",
+                                                                     "levels."))}
     assert set(paths) == set(leaf_paths(Scenario)) == (set(flat_paths(FULL)) | {"fermi.gap", "ribbon.orientation"}
                                                        | physical)
     assert all(len(row) == 5 and all(isinstance(x, str) and x for x in row) for row in rows)

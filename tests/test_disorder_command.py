@@ -40,8 +40,15 @@ def test_command_writes_the_folder_and_finds_the_plateau(tmp_path, monkeypatch):
     assert summary["marker_mean"][1] == pytest.approx(1.0, abs=0.05)
     assert summary["plateau_broken_at"]["marker"] == 12.0
     assert summary["sigma_fermi_mean"][0] == pytest.approx(1.0, abs=0.15)
+    # The Hall bar of [hallbar] at E_F, the third view: clean and weakly disordered
+    # it is on the plateau, -1/R_xy = C and R_xx = 0 (Landauer-Buttiker in a
+    # quantum-Hall gap: M. Buttiker, PRL 57, 1761 (1986)); at W = 12 t it is off.
+    bar = summary["hallbar"]
+    assert bar["sigma_xy"][0] == pytest.approx(1.0, abs=1e-6) and abs(bar["r_xx_mean"][0]) < 1e-6
+    assert bar["sigma_xy"][1] == pytest.approx(1.0, abs=1e-3)
+    assert summary["plateau_broken_at"]["hallbar"] == 12.0
     rows = (out / "disorder.csv").read_text().splitlines()
-    assert rows[0].startswith("strength (t),seed") and len(rows) == 4
+    assert rows[0].startswith("strength (t),seed") and rows[0].endswith("hall bar R_xx (h/e^2)") and len(rows) == 4
     assert not list(tmp_path.glob(".disorder-*.points"))
     for name in ("marker_map.png", "sigma_xy.png", "robustness.png"):
         assert (out / name).read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
@@ -74,6 +81,8 @@ def test_resumes_from_finished_points(tmp_path, monkeypatch):
     ("disorder.strengths=[]", "disorder.strengths: empty"),
     ("disorder.moments=9", "disorder.moments: got 9; their resolution"),
     ("disorder.region=0", "disorder.region: got 0"),
+    ("disorder.unit=meV", "disorder.unit: got 'meV' without field.b_tesla"),
+    ("disorder.unit=eV", "disorder.unit: got 'eV'; expected one of 't', 'meV'"),
 ])
 def test_bad_input_is_refused_in_one_line_before_anything_is_written(tmp_path, override, message):
     (tmp_path / "tiny.toml").write_text(SMALL)
@@ -112,3 +121,23 @@ def test_the_shipped_robustness_sweep_is_valid():
 
     sweep = load_sweep("disorder-robustness")
     assert sweep.command == "disorder" and len(sweep.points()) == 24
+
+
+def test_strengths_in_mev_are_converted_once_with_the_field():
+    # disorder.unit = "meV" with [material] and [field]: the strengths in t are
+    # the meV values over t = hbar^2 / (2 m* a^2) (common practice; the hopping
+    # of the discretised effective-mass model, constants from scipy.constants).
+    import scipy.constants as const
+
+    from topoedge.scenario import load_scenario, resolve
+
+    scenario = load_scenario("gaas-5T", ["disorder.unit=meV", "disorder.strengths=[0.0, 2.0, 8.0]",
+                                         "disorder.strength=4.0"])
+    model = resolve(scenario)
+    a = model.units.lattice_constant_nm * 1e-9
+    t_mev = const.hbar ** 2 / (2 * 0.067 * const.m_e * a ** 2) / const.e * 1e3     # GaAs m* = 0.067 m_e
+    assert model.units.hopping_mev == pytest.approx(t_mev, rel=1e-3)
+    got = model.scenario.disorder
+    assert got.unit == "t" and got.strength == pytest.approx(4.0 / t_mev, rel=1e-3)
+    assert got.strengths == pytest.approx((0.0, 2.0 / t_mev, 8.0 / t_mev), rel=1e-3)
+    assert model.given.disorder.unit == "meV"

@@ -19,23 +19,42 @@ DISORDER_FILES = ("summary.json", "disorder.h5", "disorder.csv", "sigma_xy.csv",
 
 
 def disorder_csv(result) -> str:
-    """One row per (strength, seed): the marker averaged over the region and sigma_xy at E_F."""
+    """One row per (strength, seed): the marker averaged over the region, sigma_xy at E_F, the Hall bar.
+
+    Physical scenarios get the strength in meV as a second column; the Hall
+    bar's R_xy and R_xx (h/e^2) are empty where it was not solved.
+    """
     buffer = io.StringIO()
     writer = csv.writer(buffer)
-    writer.writerow(["strength (t)", "seed", "marker (region mean)", "sigma_xy at E_F (e^2/h)"])
+    mev = result.units.hopping_mev if result.units is not None else None
+    bar = result.hallbar_r_xy is not None
+    writer.writerow(["strength (t)"] + (["strength (meV)"] if mev else []) +
+                    ["seed", "marker (region mean)", "sigma_xy at E_F (e^2/h)"] +
+                    (["hall bar R_xy (h/e^2)", "hall bar R_xx (h/e^2)"] if bar else []))
     for i, w in enumerate(result.strengths):
         for seed in range(result.seeds):
-            writer.writerow([f"{w:.12g}", seed, f"{result.marker[i, seed]:.12g}", f"{result.sigma_fermi[i, seed]:.12g}"])
+            row = [f"{w:.12g}"] + ([f"{w * mev:.12g}"] if mev else []) + [
+                seed, f"{result.marker[i, seed]:.12g}", f"{result.sigma_fermi[i, seed]:.12g}"]
+            if bar:
+                row += [_number(result.hallbar_r_xy[i, seed]), _number(result.hallbar_r_xx[i, seed])]
+            writer.writerow(row)
     return buffer.getvalue()
+
+
+def _number(value: float) -> str:
+    return f"{value:.12g}" if np.isfinite(value) else ""
 
 
 def _sigma_csv(result) -> str:
     buffer = io.StringIO()
     writer = csv.writer(buffer)
-    writer.writerow(["energy (t)"] + [f"sigma_xy W={w:g} t (e^2/h, seed mean)" for w in result.strengths])
+    mev = result.units.hopping_mev if result.units is not None else None
+    writer.writerow(["energy (t)"] + (["energy above the band bottom (meV)"] if mev else []) +
+                    [f"sigma_xy W={w:g} t (e^2/h, seed mean)" for w in result.strengths])
     mean = result.sigma.mean(axis=1)
     for j, e in enumerate(result.energies):
-        writer.writerow([f"{e:.12g}"] + [f"{v:.12g}" for v in mean[:, j]])
+        writer.writerow([f"{e:.12g}"] + ([f"{(e - result.energy_zero) * mev:.12g}"] if mev else []) +
+                        [f"{v:.12g}" for v in mean[:, j]])
     return buffer.getvalue()
 
 
@@ -54,6 +73,11 @@ def _write_h5(path: Path, result) -> None:
         f.create_dataset("marker", data=result.marker)
         f.create_dataset("sigma_xy", data=result.sigma)
         f.create_dataset("sigma_xy_fermi", data=result.sigma_fermi)
+        if result.hallbar_r_xy is not None:
+            f.create_dataset("hallbar/r_xy", data=result.hallbar_r_xy)
+            f.create_dataset("hallbar/r_xx", data=result.hallbar_r_xx)
+            f["hallbar"].attrs["units"] = "h/e^2; NaN where the bar could not be solved"
+            f["hallbar"].attrs["size_sites"] = np.asarray(result.hallbar_size)
 
 
 def write_disorder(out: Path, result, figures: dict, *, force: bool = False) -> Path:
@@ -68,24 +92,46 @@ def write_disorder(out: Path, result, figures: dict, *, force: bool = False) -> 
 def format_disorder(result, out: Path) -> str:
     """The text report of a disorder run."""
     d = result.to_dict()
-    lines = [f"topoedge disorder: {result.scenario.title or 'scenario'}",
-             f"  clean bulk   E_F = {result.fermi_energy:.5f} t in the gap above {result.gap.below} "
+    mev = result.units.hopping_mev if result.units is not None else None
+    phys = d["physical"]
+    lines = [f"topoedge disorder: {result.scenario.title or 'scenario'}"]
+    if phys:
+        lines.append(f"  units        t = {mev:.4g} meV, a = {phys['a_nm']:.4g} nm; E_F = "
+                     f"{phys['fermi_energy_mev']:.4g} meV above the band bottom; flake {phys['flake_side_nm']:.4g} nm "
+                     "on a side")
+    lines += [f"  clean bulk   E_F = {result.fermi_energy:.5f} t in the gap above {result.gap.below} "
              f"band{'s' if result.gap.below != 1 else ''} ({result.gap.energy_min:.4g} .. {result.gap.energy_max:.4g} t), "
              f"C = {result.chern}",
              f"  flake        {d['flake']['side']} x {d['flake']['side']}: {result.flake_sites} sites, central "
              f"{result.region_sites} for the averages; {result.moments} moments (resolution "
              f"{result.resolution:.3g} t), {result.vectors} random vectors",
-             f"  map          marker at W = {result.map_strength:g} t ({result.map_method}): central mean "
+             f"  map          marker at W = {result.map_strength:.4g} t"
+             + (f" ({result.map_strength * mev:.4g} meV)" if mev else "") + f" ({result.map_method}): central mean "
              f"{d['map']['region_mean']:.4f}" if d["map"]["region_mean"] is not None else "  map          -",
-             "  W (t)     marker (mean +- spread)   sigma_xy(E_F) (e^2/h)"]
+             "  W (t)   " + ("  W (meV)" if mev else "") + "   marker (mean +- spread)   sigma_xy(E_F) (e^2/h)" +
+             ("   Hall bar sigma_xy   <R_xx> (h/e^2)" if d["hallbar"] else "")]
     for i, w in enumerate(result.strengths):
-        lines.append(f"  {w:7.3g}   {d['marker_mean'][i]:8.4f} +- {d['marker_spread'][i]:.4f}"
-                     f"      {d['sigma_fermi_mean'][i]:8.4f} +- {d['sigma_fermi_spread'][i]:.4f}")
+        line = (f"  {w:7.3g} " + (f"  {w * mev:7.3g}" if mev else "") +
+                f"   {d['marker_mean'][i]:8.4f} +- {d['marker_spread'][i]:.4f}"
+                f"      {d['sigma_fermi_mean'][i]:8.4f} +- {d['sigma_fermi_spread'][i]:.4f}")
+        if d["hallbar"]:
+            sig, rxx = d["hallbar"]["sigma_xy"][i], d["hallbar"]["r_xx_mean"][i]
+            line += "   " + ("      -" if sig is None else f"{sig:13.4f}") + "       " + (
+                "-" if rxx is None else f"{rxx:.4f}")
+        lines.append(line)
+    if d["hallbar"]:
+        h = d["hallbar"]
+        lines.append(f"  Hall bar     {h['length']} x {h['width']} sites at E_F, the same strengths and seeds"
+                     + (f"; {h['unsolved']} realisations unsolved (a closed lead)" if h["unsolved"] else ""))
     broken = d["plateau_broken_at"]
-    for name in ("marker", "sigma_xy"):
+    for name in ("marker", "sigma_xy", "hallbar"):
+        if name == "hallbar" and not d["hallbar"]:
+            continue
         at = broken[name]
-        lines.append(f"  plateau      {name}: " + (f"leaves C = {result.chern} at W = {at:g} t" if at is not None
-                                                  else f"stays at C = {result.chern} up to W = {result.strengths.max():g} t"))
+        where = f"W = {at:g} t" + (f" ({at * mev:.3g} meV)" if mev else "") if at is not None else None
+        lines.append(f"  plateau      {name.replace('hallbar', 'Hall bar')}: " + (
+            f"leaves C = {result.chern} at {where}" if where
+            else f"stays at C = {result.chern} up to W = {result.strengths.max():g} t"))
     lines.append(f"  time         {result.seconds:.1f} s")
     lines.append(f"  results      {out}/ ({', '.join(DISORDER_FILES)})")
     return "\n".join(lines)

@@ -43,7 +43,7 @@ def marker_map_figure(result):
     bar.set_label("local Chern marker $c(\\mathbf{r})$ (values beyond the scale clipped)")
     mean = result.to_dict()["map"]["region_mean"]
     ax.set_title(f"{result.scenario.title or result.scenario.lattice.kind}\n"
-                 f"$W_{{dis}}$ = {result.map_strength:g} t, $E_F$ = {result.fermi_energy:.4g} t, clean C = "
+                 f"$W_{{dis}}$ = {_strength(result, result.map_strength)}, $E_F$ = {result.fermi_energy:.4g} t, clean C = "
                  f"{result.chern}; central mean {mean:.3f}" + ("" if result.map_method == "dense"
                                                              else " (every few sites, kernel polynomials)"),
                  fontsize=9)
@@ -51,6 +51,31 @@ def marker_map_figure(result):
                         Line2D([], [], color="k", lw=1.0, ls="--", label="central region (averages)")],
                    where="below")
     return fig
+
+
+def _seeds(result) -> str:
+    return f"{result.seeds} seed{'s' if result.seeds != 1 else ''}"
+
+
+def _strength(result, w: float) -> str:
+    """A strength in t written in the unit it was given in."""
+    return f"{w * result.strength_scale:.3g} {result.strength_unit}"
+
+
+def _physical_axis(ax, result, what: str) -> None:
+    """A top axis for physical scenarios: E_F in meV above the band bottom, or W_dis in the other unit."""
+    if result.units is None:
+        return
+    mev, zero = result.units.hopping_mev, result.energy_zero
+    if what == "energy":
+        top = ax.secondary_xaxis("top", functions=(lambda e: (e - zero) * mev, lambda m: m / mev + zero))
+        top.set_xlabel("$E_F$ above the band bottom (meV)", fontsize=8)
+    else:
+        # the bottom axis is in the unit the strengths were given in; the top one in the other
+        factor = 1 / mev if result.strength_unit == "meV" else mev
+        top = ax.secondary_xaxis("top", functions=(lambda w: w * factor, lambda m: m / factor))
+        top.set_xlabel("$W_{dis}$ (" + ("t" if result.strength_unit == "meV" else "meV") + ")", fontsize=8)
+    top.tick_params(labelsize=8)
 
 
 def _steps(ax, result):
@@ -76,15 +101,16 @@ def sigma_curves_figure(result):
     mean = result.sigma.mean(axis=1)
     for w, values, colour in zip(result.strengths, mean, colours):
         line, = ax.plot(result.energies, values, "-o", ms=3, lw=1.2, color=colour, zorder=3,
-                        label=f"$W_{{dis}}$ = {w:g} t")
+                        label=f"$W_{{dis}}$ = {_strength(result, w)}")
         handles.append(line)
     ax.axvline(result.fermi_energy, **REFERENCE["fermi"])
     handles.append(Line2D([], [], **REFERENCE["fermi"], label="$E_F$ of the scenario"))
     ax.set_xlabel("$E_F$ (t)")
     ax.set_ylabel("$\\sigma_{xy}$ ($e^2/h$)")
+    _physical_axis(ax, result, "energy")
     ax.set_title(f"{result.scenario.title or result.scenario.lattice.kind}: Kubo-Bastin by kernel polynomials\n"
                  f"{result.moments} moments (resolution {result.resolution:.2g} t), {result.vectors} random vectors "
-                 f"x {result.seeds} seeds over {result.region_sites} central sites", fontsize=9)
+                 f"x {_seeds(result)} over {result.region_sites} central sites", fontsize=9)
     legend_outside(ax, handles)
     return fig
 
@@ -98,34 +124,45 @@ def robustness_figure(result):
                                       gridspec_kw={"width_ratios": [1.3, 1.0]})
     cmap, norm = chern_continuous(_limit(result))
     mean = result.sigma.mean(axis=1)
-    w = result.strengths
+    w = result.strengths * result.strength_scale          # in the unit they were given in
+    unit = result.strength_unit
     order = np.argsort(w)
     image = left.pcolormesh(result.energies, np.arange(len(w)), mean[order], cmap=cmap, norm=norm,
                             shading="nearest")
-    left.set_yticks(np.arange(len(w)), [f"{x:g}" for x in w[order]])
+    left.set_yticks(np.arange(len(w)), [f"{x:.3g}" for x in w[order]])
     left.axvline(result.fermi_energy, **REFERENCE["fermi"])
     left.set_xlabel("$E_F$ (t)")
-    left.set_ylabel("$W_{dis}$ (t)")
+    left.set_ylabel(f"$W_{{dis}}$ ({unit})")
+    _physical_axis(left, result, "energy")
     bar = fig.colorbar(image, ax=left, shrink=0.9)
     bar.set_label("$\\sigma_{xy}$ ($e^2/h$, seed mean)")
     left.set_title("$\\sigma_{xy}$ against $E_F$ and disorder", fontsize=9)
 
     for values, marker, label, colour in ((result.marker, "s", "local Chern marker (central mean)", "k"),
-                                          (result.sigma_fermi, "o", "$\\sigma_{xy}$ ($e^2/h$)", "0.45")):
+                                          (result.sigma_fermi, "o", "Kubo-Bastin $\\sigma_{xy}$ ($e^2/h$)", "0.45")):
         right.errorbar(w[order], values.mean(axis=1)[order], yerr=values.std(axis=1)[order], fmt=marker + "-",
                        ms=5, lw=1.0, color=colour, capsize=3, label=label)
+    limit = abs(result.chern) + 2.0
+    if result.hallbar_r_xy is not None:
+        shown = np.clip(result.hallbar_sigma, -limit, limit)
+        length, width = result.hallbar_size
+        right.plot(w[order], shown[order], "^--", ms=6, lw=1.0, color="0.2", mfc="white",
+                   label=f"Hall bar {length} x {width}: $\\sigma_{{xy}}$ from its resistivities")
+    right.set_ylim(max(right.get_ylim()[0], -limit), min(right.get_ylim()[1], limit))
     right.axhline(result.chern, color="0.75", lw=6, zorder=0)
     handles = [Line2D([], [], color="0.75", lw=6, label=f"clean C = {result.chern}")]
     broken = result.to_dict()["plateau_broken_at"]
-    for name, ls in (("marker", ":"), ("sigma_xy", "-.")):
+    names = {"marker": "marker", "sigma_xy": "Kubo-Bastin", "hallbar": "Hall bar"}
+    for name, ls in (("marker", ":"), ("sigma_xy", "-."), ("hallbar", "--")):
         if broken[name] is not None:
-            right.axvline(broken[name], color="0.3", ls=ls, lw=1)
-            handles.append(Line2D([], [], color="0.3", ls=ls, lw=1,
-                                  label=f"{name.replace('_', ' ')} leaves the plateau (|mean - C| > 1/2)"))
-    right.set_xlabel("$W_{dis}$ (t)")
+            right.axvline(broken[name] * result.strength_scale, color="0.3", ls=ls, lw=1)
+            handles.append(Line2D([], [], color="0.3", ls=ls, lw=1, label=f"{names[name]} off the plateau"))
+    right.set_xlabel(f"$W_{{dis}}$ ({unit})")
     right.set_ylabel("value at $E_F$")
-    right.set_title(f"at $E_F$ = {result.fermi_energy:.4g} t (error bars: spread over {result.seeds} seeds)",
-                    fontsize=9)
+    _physical_axis(right, result, "strength")
+    right.set_title(f"at $E_F$ = {result.fermi_energy:.4g} t (error bars: spread over {_seeds(result)})\n"
+                    "off the plateau: |mean - C| > 1/2" + (" (Hall bar: or $\\langle R_{xx}\\rangle$ > 1/2 $h/e^2$)"
+                                                          if result.hallbar_r_xy is not None else ""), fontsize=9)
     right.legend(handles=right.get_legend_handles_labels()[0] + handles, fontsize=8, frameon=False,
                  loc="upper center", bbox_to_anchor=(0.5, -0.18), ncols=2)
     fig.suptitle(result.scenario.title or result.scenario.lattice.kind, fontsize=10)

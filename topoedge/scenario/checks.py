@@ -51,6 +51,9 @@ def check_combinations(s: Scenario) -> None:
     if not s.disorder.strengths:
         raise ConfigError("disorder.strengths: empty; expected a non-empty array of distinct strengths >= 0 in t "
                           "(e.g. [0.0, 1.0, 2.0])")
+    if s.disorder.unit == "meV" and s.field.b_tesla is None:
+        raise ConfigError("disorder.unit: got 'meV' without field.b_tesla; expected 't', or [material] and "
+                          "[field] that give t in meV")
     if s.interaction.enabled:
         _check_interaction(s)
     _check_lattice(s)

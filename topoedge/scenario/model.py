@@ -56,7 +56,8 @@ def lattice_scenario(s: Scenario) -> tuple[Scenario, Derived | None]:
     are replaced by the values derived from ``[material]`` and ``[field]``:
     ``fermi.energy`` from ``field.fermi_mev``, or ``fermi.gap`` = the nearest
     integer filling from ``field.density_cm2`` (``nu`` Landau levels of
-    ``p`` bands each at flux ``p/q``).
+    ``p`` bands each at flux ``p/q``); disorder strengths given in meV
+    (``disorder.unit = "meV"``) are converted to t.
     """
     from dataclasses import replace
 
@@ -71,6 +72,10 @@ def lattice_scenario(s: Scenario) -> tuple[Scenario, Derived | None]:
         # sub-band), so the gap above nu levels lies above nu * p bands.
         fermi = FermiConfig(gap=max(1, round(d.filling)) * abs(d.flux.numerator))
     spin = replace(s.spin, zeeman=d.zeeman_t) if s.spin.enabled else s.spin
-    return replace(s, lattice=replace(s.lattice, flux=d.flux), spin=spin, fermi=fermi), d
+    disorder = s.disorder
+    if disorder.unit == "meV":
+        disorder = replace(disorder, unit="t", strength=disorder.strength / d.hopping_mev,
+                           strengths=tuple(w / d.hopping_mev for w in disorder.strengths))
+    return replace(s, lattice=replace(s.lattice, flux=d.flux), spin=spin, fermi=fermi, disorder=disorder), d
 
 

@@ -31,8 +31,10 @@ from typing import Any
 from ..models.profiles import EDGE_PROFILES as _PROFILE_REGISTRY
 from ..models.lattices import LATTICES as _REGISTRY
 from ..models.lattices import zero_field_kinds
+from .study_sections import (BACKGROUND_PROFILES, MIXINGS, START_STATES, BackgroundConfig, DisorderConfig,
+                             InteractionConfig, LevelsConfig)
 
-__all__ = ["ConfigError", "Scenario", "LatticeConfig", "SpinConfig", "EdgeConfig", "RibbonConfig", "SpectrumConfig", "FermiConfig", "ChernConfig", "EdgesConfig", "MaterialConfig", "FieldConfig", "HallbarConfig", "BackgroundConfig", "InteractionConfig", "SECTIONS", "EDGE_PROFILES", "SOLVERS", "LATTICES", "ZERO_FIELD", "ORIENTATIONS", "START_STATES", "MIXINGS", "BACKGROUND_PROFILES", "plain", "fraction_text", "lookup"]
+__all__ = ["ConfigError", "Scenario", "LatticeConfig", "SpinConfig", "EdgeConfig", "RibbonConfig", "SpectrumConfig", "FermiConfig", "ChernConfig", "EdgesConfig", "MaterialConfig", "FieldConfig", "HallbarConfig", "DisorderConfig", "LevelsConfig", "BackgroundConfig", "InteractionConfig", "SECTIONS", "EDGE_PROFILES", "SOLVERS", "LATTICES", "ZERO_FIELD", "ORIENTATIONS", "START_STATES", "MIXINGS", "BACKGROUND_PROFILES", "plain", "fraction_text", "lookup"]
 
 # The edge profiles are registered where they are defined (one list, no drift).
 EDGE_PROFILES = tuple(_PROFILE_REGISTRY)
@@ -312,129 +314,6 @@ class HallbarConfig:
 
 
 @dataclass(frozen=True)
-class DisorderConfig:
-    """Topology of a finite disordered flake (``topoedge disorder``).
-
-    Attributes
-    ----------
-    flake : int
-        Side of the square flake in the lattice's length unit (a, or a_cc).
-    strength : float
-        Anderson disorder W_dis (t, uniform in [-W/2, W/2] per site) of the
-        marker map.
-    strengths : tuple of float
-        Disorder strengths W_dis (t) of the sigma_xy curves and the
-        robustness map.
-    seeds : int
-        Disorder realisations per strength (seeds 0 .. seeds-1).
-    region : float
-        Central fraction of the flake (in x and in y) over which the marker
-        is averaged and sigma_xy is traced.
-    moments : int or None
-        Chebyshev moments of the kernel-polynomial expansions; None: chosen
-        from the clean gap at E_F.
-    vectors : int
-        Random phase vectors of the Kubo-Bastin trace.
-    energies : int
-        Fermi energies of the sigma_xy curves (from the band bottom to 1.5
-        (E_F - bottom) above E_F).
-    """
-
-    flake: int = 60
-    strength: float = 0.0
-    strengths: tuple[float, ...] = (0.0, 1.0, 2.0, 4.0, 8.0)
-    seeds: int = 2
-    region: float = 0.4
-    moments: int | None = None
-    vectors: int = 8
-    energies: int = 41
-
-
-#: Starting states of the self-consistent loop (the names of
-#: topoedge.solvers.hartree_fock.START_STATES; repeated here so that reading a
-#: scenario does not import the solvers).
-START_STATES = ("unpolarised", "polarised", "edge", "random")
-MIXINGS = ("diis", "linear")
-BACKGROUND_PROFILES = ("linear", "erf")
-
-
-@dataclass(frozen=True)
-class BackgroundConfig:
-    """Positive background charge that neutralises the electrons and makes the edge.
-
-    Attributes
-    ----------
-    profile : str
-        One of `BACKGROUND_PROFILES`: the fall from the bulk value to zero.
-    width : float
-        Width w of the fall at each edge, in lattice constants a (0: sharp).
-    setback : float
-        Rows next to each boundary kept free of background, in a.
-    """
-
-    profile: str = "linear"
-    width: float = 0.0
-    setback: float = 0.0
-
-
-@dataclass(frozen=True)
-class InteractionConfig:
-    """Coulomb interaction; with it, ``run`` is self-consistent Hartree-Fock.
-
-    Attributes
-    ----------
-    enabled : bool
-        Self-consistent run; true when the ``[interaction]`` section is
-        present unless it says otherwise.
-    coulomb : float or None
-        ``U_C = e^2 / (4 pi eps0 eps_r a)``, in t; unset: from
-        ``[material]`` and ``[field]``.
-    onsite : float or None
-        ``V(0)``, in t; unset: ``4 ln(1 + sqrt 2) U_C`` (1/r averaged over
-        the unit cell).
-    gate_distance : float or None
-        Metal gate at this distance, in a (image charge); unset: no gate.
-    background : BackgroundConfig
-    k_points : int or None
-        Momenta ``N_k`` of the self-consistent loop (even); unset: the
-        smallest even number >= max(32, 12 l_B / a) that holds a whole
-        number of electrons.
-    temperature : float
-        Smearing ``k_B T``, in t (0: zero temperature).
-    mixing : str
-        "diis" (Pulay/Anderson) or "linear".
-    alpha : float
-        Mixing weight of the new residual.
-    history : int
-        DIIS depth.
-    tol : float
-        Converged when the density matrix changes by less than this.
-    max_iter : int
-        Iterations per start before a run is reported as not converged.
-    starts : tuple of str
-        Starting states; the lowest converged energy is kept.
-    scan_widths : tuple of float
-        Background widths w (a) of the edge-structure scan reported beside
-        the main run (empty: no scan).
-    """
-
-    enabled: bool = False
-    coulomb: float | None = None
-    onsite: float | None = None
-    gate_distance: float | None = None
-    background: BackgroundConfig = BackgroundConfig()
-    k_points: int | None = None
-    temperature: float = 0.0
-    mixing: str = "diis"
-    alpha: float = 0.3
-    history: int = 8
-    tol: float = 1e-7
-    max_iter: int = 300
-    starts: tuple[str, ...] = ("polarised", "edge", "unpolarised")
-    scan_widths: tuple[float, ...] = ()
-
-
-@dataclass(frozen=True)
 class Scenario:
     """A complete validated scenario; build it with `parse_scenario`.
 
@@ -455,6 +334,7 @@ class Scenario:
     hallbar: HallbarConfig = HallbarConfig()
     interaction: InteractionConfig = InteractionConfig()
     disorder: DisorderConfig = DisorderConfig()
+    levels: LevelsConfig = LevelsConfig()
     source: str | None = dataclasses.field(default=None, compare=False)
 
     def to_dict(self) -> dict[str, Any]:
@@ -471,6 +351,8 @@ class Scenario:
             derived.add("interaction")
         if self.disorder == DisorderConfig():        # the defaults of topoedge disorder: left out too
             derived.add("disorder")
+        if self.levels == LevelsConfig():            # the defaults of topoedge levels: left out too
+            derived.add("levels")
         return _plain_fields(self, "", derived)
 
 
@@ -521,7 +403,7 @@ SECTIONS: dict[str, type] = {
     "material": MaterialConfig, "field": FieldConfig,
     "hallbar": HallbarConfig,
     "interaction": InteractionConfig, "interaction.background": BackgroundConfig,
-    "disorder": DisorderConfig,
+    "disorder": DisorderConfig, "levels": LevelsConfig,
 }
 
 

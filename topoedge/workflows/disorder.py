@@ -8,7 +8,15 @@ and every seed, computes on the central ``disorder.region`` of the flake
 - the local Chern marker averaged there at E_F (dense projector for small
   flakes, kernel polynomials beyond; :mod:`topoedge.solvers.marker`), and
 - the Kubo-Bastin Hall conductivity sigma_xy(E_F) at ``disorder.energies``
-  Fermi energies (:mod:`topoedge.solvers.kubo`),
+  Fermi energies (:mod:`topoedge.solvers.kubo`), and
+- with ``disorder.hallbar`` on a lattice that has a Hall bar, the Hall and
+  longitudinal resistances of the scenario's six-terminal bar
+  (``[hallbar]`` length and width) at E_F with the same strength and seed
+  (:mod:`topoedge.solvers.transport`); its sigma_xy inverts the resistivity
+  tensor of the seed means, ``rho_xy = <R_xy>``, ``rho_xx = <R_xx> W / L``
+  (L the distance of the longitudinal probes, W the width):
+  ``sigma_xy = -rho_xy / (rho_xx^2 + rho_xy^2)``, which is ``-1 / R_xy`` =
+  C on a plateau and stays bounded where the states localise,
 
 plus the marker of every site (a map) at ``disorder.strength``. The
 plateau breaks at the smallest strength where the seed-averaged value
@@ -73,7 +81,12 @@ class DisorderResult:
     sigma: np.ndarray              # (W, seeds, E) sigma_xy in e^2/h
     sigma_fermi: np.ndarray        # (W, seeds) sigma_xy at E_F
     clean_steps: tuple             # (energy_min, energy_max, C) of the clean gaps in range
+    hallbar_r_xy: np.ndarray | None = None   # (W, seeds) R_xy of the Hall bar at E_F, h/e^2 (NaN: unsolved)
+    hallbar_r_xx: np.ndarray | None = None   # (W, seeds) R_xx, h/e^2
+    hallbar_size: tuple | None = None        # (length, width) in sites
+    hallbar_aspect: float = 1.0              # longitudinal probe distance / width
     units: object = None
+    strength_unit: str = "t"                 # the unit the strengths were given in (t or meV)
     seconds: float = 0.0
     warnings: tuple = field(default_factory=tuple)
 
@@ -83,14 +96,58 @@ class DisorderResult:
         off = np.nonzero(np.abs(mean - self.chern) > PLATEAU_TOLERANCE)[0]
         return float(self.strengths[off[0]]) if off.size else None
 
+    @property
+    def hallbar_sigma(self) -> np.ndarray | None:
+        """sigma_xy of the Hall bar per strength, e^2/h: the resistivity tensor of the seed means inverted.
+
+        ``rho_xy = <R_xy>``, ``rho_xx = <R_xx> / aspect``;
+        ``sigma_xy = -rho_xy / (rho_xx^2 + rho_xy^2)`` (``-1/R_xy`` on a
+        plateau, where ``R_xx = 0``; the sign of :mod:`topoedge.solvers.transport`).
+        """
+        if self.hallbar_r_xy is None:
+            return None
+        rho_xy = _seed_mean(self.hallbar_r_xy)
+        rho_xx = _seed_mean(self.hallbar_r_xx) / self.hallbar_aspect
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return -rho_xy / (rho_xx ** 2 + rho_xy ** 2)
+
+    def hallbar_breaking_strength(self) -> float | None:
+        """Smallest strength where the Hall bar is off the plateau.
+
+        Off: its sigma_xy (:attr:`hallbar_sigma`) differs from the clean C by more than PLATEAU_TOLERANCE
+        (e^2/h), or <R_xx> exceeds PLATEAU_TOLERANCE (h/e^2), or no seed was solved.
+        """
+        sigma = self.hallbar_sigma
+        if sigma is None:
+            return None
+        rxx = _seed_mean(self.hallbar_r_xx)
+        with np.errstate(invalid="ignore"):
+            on = (np.abs(sigma - self.chern) <= PLATEAU_TOLERANCE) & (np.abs(rxx) <= PLATEAU_TOLERANCE)
+        off = np.nonzero(~on)[0]
+        return float(self.strengths[off[0]]) if off.size else None
+
     def to_dict(self) -> dict:
         from .. import __version__
+
+        hallbar = None
+        if self.hallbar_r_xy is not None:
+            hallbar = {"length": self.hallbar_size[0], "width": self.hallbar_size[1],
+                       "probe_distance_over_width": self.hallbar_aspect,
+                       "r_xy_mean": _floats(_seed_mean(self.hallbar_r_xy)),
+                       "r_xx_mean": _floats(_seed_mean(self.hallbar_r_xx)),
+                       "sigma_xy": _floats(self.hallbar_sigma),
+                       "unsolved": int(np.isnan(self.hallbar_r_xy).sum())}
 
         return {
             "topoedge_version": __version__, "title": self.scenario.title, "source": self.scenario.source,
             "config": self.scenario.to_dict(),
             "units": "energies and disorder strengths in t; sigma_xy in e^2/h (sigma_xy = C in a clean gap); "
-                     "lengths in the lattice's length unit",
+                     "R_xy and R_xx in h/e^2; lengths in the lattice's length unit",
+            "physical": None if self.units is None else {
+                "t_mev": self.units.hopping_mev, "a_nm": self.units.lattice_constant_nm,
+                "fermi_energy_mev": (self.fermi_energy - self.energy_zero) * self.units.hopping_mev,
+                "strengths_mev": [float(w) * self.units.hopping_mev for w in self.strengths],
+                "flake_side_nm": self.scenario.disorder.flake * self.units.lattice_constant_nm},
             "fermi": {"energy": self.fermi_energy, "gap_below": self.gap.below,
                       "gap_min": self.gap.energy_min, "gap_max": self.gap.energy_max, "chern": self.chern},
             "flake": {"sites": self.flake_sites, "orbitals_per_site": self.orbitals,
@@ -106,14 +163,43 @@ class DisorderResult:
             "sigma_fermi_spread": [float(v) for v in self.sigma_fermi.std(axis=1)],
             "plateau_broken_at": {"marker": self.breaking_strength(self.marker),
                                   "sigma_xy": self.breaking_strength(self.sigma_fermi),
+                                  "hallbar": self.hallbar_breaking_strength(),
                                   "tolerance": PLATEAU_TOLERANCE},
+            "hallbar": hallbar,
             "warnings": list(self.warnings), "seconds": self.seconds,
         }
+
+    @property
+    def strength_scale(self) -> float:
+        """Strengths in t times this are in :attr:`strength_unit`."""
+        return self.units.hopping_mev if self.strength_unit == "meV" else 1.0
+
+    @property
+    def energy_zero(self) -> float:
+        """The band bottom of the clean square lattice (-4 t + onsite), where physical energies start."""
+        return -4.0 + self.scenario.lattice.onsite
 
     def _map_region_mean(self) -> float | None:
         """The map's marker averaged over the sites of the central region it holds."""
         inside = np.isin(self.map_sites, central_sites(self.positions, self.scenario.disorder.region))
         return float(self.map_marker[inside].mean()) if inside.any() else None
+
+
+def _seed_mean(values: np.ndarray) -> np.ndarray:
+    """Mean over the seeds (axis 1) of the solved realisations; NaN where none was solved."""
+    solved = np.isfinite(values)
+    count = solved.sum(axis=1)
+    total = np.where(solved, values, 0.0).sum(axis=1)
+    return np.where(count > 0, total / np.maximum(count, 1), np.nan)
+
+
+def _floats(values) -> list:
+    return [None if not np.isfinite(v) else float(v) for v in values]
+
+
+def hallbar_view(scenario: Scenario) -> bool:
+    """Whether the disorder run also solves the scenario's Hall bar."""
+    return scenario.disorder.hallbar and "hallbar" in lattice(scenario.lattice.kind).supports
 
 
 def build_flake(scenario: Scenario) -> Flake:
@@ -135,6 +221,10 @@ def check_disorder(scenario: Scenario) -> None:
         if cfg.flake < smallest:
             raise ConfigError(f"disorder.flake: got {cfg.flake} at l_B = {length:.3g} {entry.length_unit}; expected "
                               f"at least {smallest} (six magnetic lengths, and a central region of at least four)")
+    if hallbar_view(scenario):
+        from ..scenario.checks import check_hallbar
+
+        check_hallbar(scenario)
     orbitals = entry.orbitals_per_site * (2 if scenario.spin.enabled and entry.in_field else 1)
     sites_est = cfg.flake * cfg.flake / entry.site_area
     if sites_est * orbitals > 4_000_000:
@@ -194,6 +284,14 @@ def disorder_run(scenario: Scenario | Model, *, progress=None, store: PointStore
             map_marker, method = local_chern_marker_kpm(flake, ef, map_sites, moments=moments), "kpm"
 
     strengths = np.asarray(cfg.strengths, dtype=float)
+    bar = None
+    if hallbar_view(s):
+        from .hallbar_scan import hallbar_aspect, hallbar_system
+
+        bar = hallbar_system(s)
+        aspect = hallbar_aspect(s)
+        r_xy = np.full((strengths.size, cfg.seeds), np.nan)
+        r_xx = np.full((strengths.size, cfg.seeds), np.nan)
     marker = np.empty((strengths.size, cfg.seeds))
     sigma = np.empty((strengths.size, cfg.seeds, energies.size))
     sigma_fermi = np.empty((strengths.size, cfg.seeds))
@@ -201,6 +299,8 @@ def disorder_run(scenario: Scenario | Model, *, progress=None, store: PointStore
         for i, w in enumerate(strengths):
             for seed in range(cfg.seeds):
                 name = f"W{w!r}_seed{seed}_M{moments}_R{cfg.vectors}_E{cfg.energies}"
+                if bar is not None:
+                    name += f"_H{s.hallbar.length}x{s.hallbar.width}"
                 point = store.load(name)
                 if point is None:
                     dis = clean.with_disorder(float(w), seed=seed)
@@ -211,7 +311,11 @@ def disorder_run(scenario: Scenario | Model, *, progress=None, store: PointStore
                     values = hall_conductivity_kpm(dis, [*energies, ef], sites=region, moments=moments,
                                                    vectors=cfg.vectors, seed=seed)
                     point = {"marker": m, "sigma": values[:-1], "sigma_fermi": float(values[-1])}
+                    if bar is not None:
+                        point.update(_hallbar_point(bar, ef, float(w), seed))
                     store.save(name, point)
+                if bar is not None:
+                    r_xy[i, seed], r_xx[i, seed] = point["r_xy"], point["r_xx"]
                 marker[i, seed] = point["marker"]
                 sigma[i, seed] = point["sigma"]
                 sigma_fermi[i, seed] = point["sigma_fermi"]
@@ -222,8 +326,24 @@ def disorder_run(scenario: Scenario | Model, *, progress=None, store: PointStore
         resolution=math.pi * (hi - lo) / 2 / moments, vectors=cfg.vectors,
         map_strength=float(cfg.strength), map_sites=map_sites, map_marker=np.asarray(map_marker),
         positions=clean.positions, map_method=method, strengths=strengths, seeds=cfg.seeds, marker=marker,
-        energies=energies, sigma=sigma, sigma_fermi=sigma_fermi, clean_steps=steps, units=model.units,
+        energies=energies, sigma=sigma, sigma_fermi=sigma_fermi, clean_steps=steps,
+        hallbar_r_xy=None if bar is None else r_xy, hallbar_r_xx=None if bar is None else r_xx,
+        hallbar_size=None if bar is None else (s.hallbar.length, s.hallbar.width),
+        hallbar_aspect=1.0 if bar is None else aspect, units=model.units,
+        strength_unit=model.given.disorder.unit,
         seconds=time.perf_counter() - start)
+
+
+def _hallbar_point(bar, ef: float, strength: float, seed: int) -> dict:
+    """R_xy and R_xx (h/e^2) of the Hall bar at E_F for one disorder realisation (NaN when unsolvable)."""
+    from ..solvers.transport import hall_resistances
+
+    fsyst, params = bar
+    try:
+        r = hall_resistances(fsyst, ef, {**params, "disorder": strength, "seed": seed})
+    except ValueError:                    # a closed lead or a singular probe system at this realisation
+        return {"r_xy": math.nan, "r_xx": math.nan}
+    return {"r_xy": float(r.r_xy), "r_xx": float(r.r_xx)}
 
 
 def _grid_subset(positions: np.ndarray, stride: int) -> np.ndarray:

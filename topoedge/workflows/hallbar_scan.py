@@ -42,23 +42,38 @@ def hallbar_route(scenario: Scenario, ef: float) -> tuple[HallBarRoute | None, s
                         seeds=bar.seeds), None
 
 
-def hallbar_system(scenario: Scenario):
-    """The finalized Hall bar of a scenario and its kwant params (without E_F)."""
+def _layout(scenario: Scenario):
+    """Probe width, probe positions and edge potential (or None) of a scenario's bar."""
     from ..models.bar_layout import probe_layout
-    from ..models.hallbar import hallbar_builder
     from ..models.profiles import EDGE_PROFILES
 
     bar, edge = scenario.hallbar, scenario.ribbon.edge
-    shape = EDGE_PROFILES[edge.profile]
+    potential = None
+    if edge.profile != "none":
+        shape = EDGE_PROFILES[edge.profile]
 
-    def potential(d):
-        return shape(np.asarray(d, dtype=float), width=edge.width, height=edge.height, table=edge.table)
+        def potential(d):
+            return shape(np.asarray(d, dtype=float), width=edge.width, height=edge.height, table=edge.table)
 
-    probe, positions = probe_layout(bar.length, bar.width, None if edge.profile == "none" else potential)
+    probe, positions = probe_layout(bar.length, bar.width, potential)
+    return probe, positions, potential
+
+
+def hallbar_aspect(scenario: Scenario) -> float:
+    """Distance between the longitudinal probes over the bar's width: rho_xx = R_xx / aspect."""
+    _, positions, _ = _layout(scenario)
+    return (positions[1] - positions[0]) / scenario.hallbar.width
+
+
+def hallbar_system(scenario: Scenario):
+    """The finalized Hall bar of a scenario and its kwant params (without E_F)."""
+    from ..models.hallbar import hallbar_builder
+
+    bar = scenario.hallbar
+    probe, positions, potential = _layout(scenario)
     builder = hallbar_builder(
         bar.length, bar.width, lead_width=bar.width, spin=scenario.spin.enabled, probe_width=probe,
-        probe_positions=positions,
-        potential=None if edge.profile == "none" else potential,
+        probe_positions=positions, potential=potential,
     )
     return builder.finalized(), dict(params_of(scenario), disorder=bar.disorder, seed=0)
 

@@ -96,6 +96,9 @@ QUANTITIES: dict[str, tuple[str, str]] = {
     "disorder_marker_spread": ("float", "its spread over the seeds"),
     "disorder_sigma_xy": ("float", "Kubo-Bastin sigma_xy at E_F, e^2/h, mean over the seeds (command disorder)"),
     "disorder_sigma_xy_spread": ("float", "its spread over the seeds"),
+    "disorder_hallbar_sigma_xy": ("float", "sigma_xy of the Hall bar at E_F from its seed-mean resistivities, "
+                                  "e^2/h (command disorder)"),
+    "disorder_r_xx": ("float", "R_xx of the Hall bar at E_F, h/e^2, mean over the seeds (command disorder)"),
 }
 
 

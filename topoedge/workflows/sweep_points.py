@@ -87,7 +87,7 @@ def submitter(executor: str, jobs: int, scheduler: str | None, command: str = "r
 
 
 def _disorder_point(scenario, start: float, cpu: float) -> dict:
-    """``topoedge disorder`` at the one strength ``disorder.strength``: the marker and sigma_xy at E_F."""
+    """``topoedge disorder`` at the one strength ``disorder.strength``: marker, sigma_xy and Hall bar at E_F."""
     from .disorder import disorder_run
     from .sweep import QUANTITIES
 
@@ -99,5 +99,8 @@ def _disorder_point(scenario, start: float, cpu: float) -> dict:
                       disorder_marker=float(result.marker.mean()), disorder_marker_spread=float(result.marker.std()),
                       disorder_sigma_xy=float(result.sigma_fermi.mean()),
                       disorder_sigma_xy_spread=float(result.sigma_fermi.std()))
+    if result.hallbar_r_xy is not None:
+        bar = result.to_dict()["hallbar"]
+        quantities.update(disorder_hallbar_sigma_xy=bar["sigma_xy"][0], disorder_r_xx=bar["r_xx_mean"][0])
     return {"status": "ok", "quantities": plain_json(quantities), "summary": plain_json(result.to_dict()),
             "seconds": time.perf_counter() - start, "cpu_seconds": time.process_time() - cpu}
