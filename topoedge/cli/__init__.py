@@ -7,6 +7,7 @@
 ``topoedge sweep SWEEP``     a scenario over a grid of parameters (resumable; local or dask), table and maps
 ``topoedge butterfly``       flux-energy spectrum with gap Chern numbers, results folder
 ``topoedge disorder``        local Chern marker and Kubo-Bastin sigma_xy of a disordered flake, results folder
+``topoedge levels``          which spin-split Landau levels the exchange fills: diagram, transitions, gaps
 
 Each command is a module of this package with its arguments and its
 :class:`~topoedge.cli.common.Command`, listed once in :data:`COMMANDS`.
@@ -24,7 +25,7 @@ import warnings
 
 from .. import __version__
 from ..scenario import ConfigError
-from . import bench, butterfly, disorder, hallbar, run, sweep
+from . import bench, butterfly, disorder, hallbar, levels, run, sweep
 from .common import EXIT_BAD_INPUT, Command, Parser, one_line
 
 #: Every subcommand, in the order of ``topoedge --help``: a new command is a
@@ -32,7 +33,7 @@ from .common import EXIT_BAD_INPUT, Command, Parser, one_line
 #: entry here.
 COMMANDS: dict[str, Command] = {"run": run.COMMAND, "bench": bench.COMMAND, "hallbar": hallbar.COMMAND,
                                 "sweep": sweep.COMMAND, "butterfly": butterfly.COMMAND,
-                                "disorder": disorder.COMMAND}
+                                "disorder": disorder.COMMAND, "levels": levels.COMMAND}
 
 
 def _parser() -> argparse.ArgumentParser:

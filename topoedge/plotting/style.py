@@ -14,6 +14,8 @@ from ..solvers.spectrum import RibbonSpectrum
 #
 # - spin: colour, the orange / purple pair of SPIN_COLOURS (spinless: near black),
 #   in the ribbon's band points also the marker (SPIN_MARKERS);
+# - spin polarisation of a set of levels: polarisation_cmap, purple (all down) over
+#   grey (unpolarised) to orange (all up);
 # - edge (bottom / top): the fill of a marker (EDGE_FILLED), never a colour;
 # - propagation direction: the way a triangle points (DIRECTION_MARKERS);
 # - position across the ribbon: POSITION_CMAP, blue (bottom) over grey to
@@ -57,6 +59,14 @@ def spin_name(spin) -> str:
 def spin_colour(spin) -> str:
     """The colour of a spin label (``"up"``, ``"down"``, None) or ``<S_z>``."""
     return SPIN_COLOURS[spin_name(spin)]
+
+
+def polarisation_cmap():
+    """Spin polarisation -1 .. +1: spin down purple, unpolarised grey, spin up orange (the spin colours)."""
+    from matplotlib.colors import LinearSegmentedColormap
+
+    return LinearSegmentedColormap.from_list("topoedge_polarisation",
+                                             [SPIN_COLOURS["down"], "#d9d9d9", SPIN_COLOURS["up"]])
 
 
 def position_cmap():

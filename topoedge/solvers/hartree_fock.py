@@ -74,6 +74,7 @@ __all__ = ["HartreeFockRibbon", "HFResult", "START_STATES"]
 #: Starting states of the self-consistent loop (see :meth:`HartreeFockRibbon.initial`).
 START_STATES = ("unpolarised", "polarised", "edge", "random")
 from .coulomb import Interaction, line_kernel, pair_kernel
+from .mixing import Pulay
 
 
 @dataclass(frozen=True, eq=False)
@@ -377,7 +378,7 @@ class HartreeFockRibbon:
         if abs(held - self.electrons) > 1e-6 * max(1.0, self.electrons):
             raise ValueError(f"start density matrix: holds {held:.6g} electrons per cell against a background "
                              f"of {self.electrons:.6g}; expected a neutral state (the same background)")
-        pulay = _Pulay(history)
+        pulay = Pulay(history)
         residuals, energies = [], []
         converged = False
         for it in range(1, max_iter + 1):
@@ -433,49 +434,3 @@ class HartreeFockRibbon:
         converged = [r for r in results if r.converged]
         best = min(converged, key=lambda r: r.energy) if converged else None
         return best, results
-
-
-class _Pulay:
-    """Pulay/Anderson extrapolation over the last ``depth`` iterates.
-
-    The overlaps ``<r_i, r_j>`` of the residuals are kept between steps, so
-    a step costs ``depth`` inner products of new against old residuals (not
-    ``depth^2``).
-    """
-
-    def __init__(self, depth: int):
-        self.depth = int(depth)
-        self.xs: list = []
-        self.rs: list = []
-        self.overlap = np.zeros((0, 0))
-
-    def step(self, x: np.ndarray, r: np.ndarray, alpha: float) -> np.ndarray:
-        """Store ``(x, r)`` and return the next iterate ``sum c_i (x_i + alpha r_i)``."""
-        new = np.array([np.real(np.vdot(ri, r)) for ri in self.rs] + [np.real(np.vdot(r, r))])
-        m = len(self.rs) + 1
-        b = np.zeros((m, m))
-        b[:m - 1, :m - 1] = self.overlap
-        b[m - 1, :] = b[:, m - 1] = new
-        self.xs.append(x)
-        self.rs.append(r)
-        if m > self.depth:
-            self.xs.pop(0)
-            self.rs.pop(0)
-            b = b[1:, 1:]
-            m -= 1
-        self.overlap = b
-        a = np.zeros((m + 1, m + 1))
-        scale = np.abs(np.diag(b)).max()
-        a[:m, :m] = b / (scale if scale > 0 else 1.0)
-        a[m, :m] = a[:m, m] = -1.0
-        rhs = np.zeros(m + 1)
-        rhs[m] = -1.0
-        try:
-            c = np.linalg.lstsq(a, rhs, rcond=1e-12)[0][:m]
-        except np.linalg.LinAlgError:
-            c = np.zeros(m)
-            c[-1] = 1.0
-        out = np.zeros_like(x)
-        for ci, xi, ri in zip(c, self.xs, self.rs):
-            out += ci * (xi + alpha * ri)
-        return out
