@@ -24,7 +24,8 @@ def _cli(*args, cwd):
 
 def test_the_shipped_gaas_scenario(tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
-    assert cli.main(["levels", "gaas-levels", "--out", "out", "--quiet"]) == 0
+    # the lattice part (about a minute at flux 1/131) is test_the_shipped_scenario_on_the_lattice's
+    assert cli.main(["levels", "gaas-levels", "--out", "out", "--quiet", "--set", "levels.lattice=false"]) == 0
     files = {p.name for p in (tmp_path / "out").iterdir()}
     assert files == {"summary.json", "levels.h5", "candidates.csv", "transitions.csv", "gaps.csv",
                      "level_order.png", "gaps.png"}
@@ -61,10 +62,41 @@ def test_the_shipped_gaas_scenario(tmp_path, monkeypatch):
     assert (t2["before"], t2["after"]) == ("0up,1up", "0up,0down")
 
 
+def test_the_lattice_part_agrees_with_the_continuum_at_flux_1_40():
+    # nu = 3 at flux 1/40: every candidate solved on the lattice; the lattice fills the same levels as the
+    # continuum, its interaction energies lie within 3 % of -(1/2) sum X_nm (REFERENCES.md sections 8, 15)
+    # and its transition within 5 % of 256 / (81 sqrt(pi/2)) (worked out from the closed forms).
+    model = resolve(load_scenario("nu2-spin-order", ["levels.filling=3", "spin.zeeman=0.0",
+                                                     "levels.lattice_points=6"]))
+    result = levels_run(model)
+    lat = result.to_dict()["lattice"]
+    assert lat["ground_state"] == result.sets[result.ground].label == "0up,0down,1up"
+    assert lat["filled_levels_found"] == "0up,0down,1up"
+    for c in lat["candidates"]:
+        assert c["converged"] and abs(c["interaction_ec"] / c["continuum_interaction_ec"] - 1) < 0.03
+    (t,) = lat["transitions"]
+    assert (t["before"], t["after"]) == ("0up,0down,1up", "0up,1up,2up")
+    assert t["coulomb_ratio"] == pytest.approx(256 / (81 * ROOT), rel=0.05)
+    assert lat["samples"]["all_converged"] and not result.warnings
+
+
+@pytest.mark.slow
+def test_the_shipped_scenario_on_the_lattice(tmp_path, monkeypatch):
+    # GaAs at 3 T on the automatic lattice (flux -1/131): the lattice fills 0up, 0down, 1up like the
+    # continuum, with the spin gap of n = 1 within 5 % of Delta_Z + (3/4) sqrt(pi/2) E_C.
+    monkeypatch.chdir(tmp_path)
+    assert cli.main(["levels", "gaas-levels", "--out", "out", "--quiet"]) == 0
+    d = json.loads((tmp_path / "out" / "summary.json").read_text())
+    lat = d["lattice"]
+    assert lat["ground_state"] == d["ground_state"]["levels"] == "0up,0down,1up"
+    assert lat["gap"] == pytest.approx(d["zeeman_ratio"] + 0.75 * ROOT * d["coulomb_ratio"], rel=0.05)
+    assert all(c["converged"] for c in lat["candidates"]) and lat["samples"]["all_converged"]
+
+
 def test_a_lattice_scenario_takes_its_coulomb_strength():
     # E_C = U_C a / l_B with l_B = a / sqrt(2 pi phi), hbar omega_c = 4 pi phi t (the lattice's continuum
     # limit, common practice).
-    result = levels_run(load_scenario("nu2-spin-order"))
+    result = levels_run(load_scenario("nu2-spin-order", ["levels.lattice=false"]))
     phi = 1 / 40
     assert result.point.coulomb == pytest.approx(0.4 * math.sqrt(2 * math.pi * phi) / (4 * math.pi * phi), rel=1e-12)
     assert result.point.zeeman == pytest.approx(0.02 / (4 * math.pi * phi), rel=1e-12)
@@ -73,7 +105,7 @@ def test_a_lattice_scenario_takes_its_coulomb_strength():
 
 
 def test_a_large_zeeman_splitting_warns():
-    model = resolve(load_scenario("nu2-spin-order", ["spin.zeeman=0.4"]))
+    model = resolve(load_scenario("nu2-spin-order", ["spin.zeeman=0.4", "levels.lattice=false"]))
     result = levels_run(model)
     assert any("larger than the cyclotron gap" in w for w in result.warnings)
 
@@ -90,6 +122,8 @@ def test_a_large_zeeman_splitting_warns():
      "levels.filling: got 9; expected a positive integer filling <= 8"),
     ("haldane", "title=x", "lattice.kind: got 'haldane', a zero-field model"),
     ("default", "title=x", "interaction.coulomb: unset and no [material] with [field]"),
+    ("nu2-spin-order", "levels.grid=[4, 1]", "levels.grid: got [4, 1] at l_B = 2.52 a and flux 1/40"),
+    ("nu2-spin-order", "levels.grid=[0, 1]", "levels.grid: got [0, 1]; expected an empty array or two integers"),
 ])
 def test_bad_input_is_one_line_before_anything_is_written(tmp_path, config, override, message):
     sets = [item for o in ((override,) if isinstance(override, str) else override) for item in ("--set", o)]
@@ -97,3 +131,24 @@ def test_bad_input_is_one_line_before_anything_is_written(tmp_path, config, over
     assert proc.returncode == 2 and proc.stdout == "", proc.stderr
     assert len(proc.stderr.splitlines()) == 1 and message in proc.stderr, proc.stderr
     assert not (tmp_path / "out").exists()
+
+
+def test_a_sweep_can_run_the_levels_command_per_point(tmp_path):
+    # command = "levels": every point is `topoedge levels` at its own interaction strength; at flux 1/20
+    # and nu = 3 the lattice fills {0up, 0down, 1up} at E_C / hbar omega_c = 0.5 and {0up, 1up, 2up} at 3.5
+    # (either side of the transition near 2.5: 256 / (81 sqrt(pi/2)) in the continuum).
+    from topoedge.workflows.sweep import gather, load_sweep, parse_sweep, run_sweep
+
+    shipped = load_sweep("levels-nu3")
+    assert shipped.command == "levels" and len(shipped.points()) == 45
+    data = {"title": "two points", "command": "levels", "scenario": shipped.to_dict()["scenario"],
+            "axis": [{"key": "interaction.coulomb", "values": [0.56, 3.92]}],
+            "plot": {"quantities": ["levels_lattice_ground"]}}
+    sweep = parse_sweep(data)
+    stats = run_sweep(sweep, tmp_path / "out", jobs=1)
+    assert stats["computed"] == 2 and stats["failed"] == 0
+    rows = {r["interaction.coulomb"]: r for r in gather(sweep, tmp_path / "out")}
+    assert rows[0.56]["levels_lattice_ground"] == rows[0.56]["levels_ground"] == "0up,0down,1up"
+    assert rows[3.92]["levels_lattice_ground"] == rows[3.92]["levels_ground"] == "0up,1up,2up"
+    assert rows[0.56]["levels_coulomb_ratio"] == pytest.approx(0.56 / (math.sqrt(20 / (2 * math.pi)) * 4 * math.pi / 20))
+    assert rows[3.92]["levels_agree"] and rows[3.92]["levels_lattice_converged"]

@@ -26,12 +26,20 @@ def _candidates_csv(result) -> str:
     buffer = io.StringIO()
     writer = csv.writer(buffer)
     p = result.point
+    lat = result.lattice
     writer.writerow(["filled levels", "energy per flux quantum (hbar omega_c)", "above the ground state (hbar omega_c)",
-                     "polarisation (N_up - N_down)/N", "ground state"])
+                     "polarisation (N_up - N_down)/N", "ground state", "exchange per flux quantum (E_C)"]
+                    + (["lattice: above its ground state (hbar omega_c)", "lattice: interaction per flux quantum (E_C)",
+                        "lattice: ground state", "lattice: iterations", "lattice: converged"] if lat else []))
     best = float(result.sets[result.ground].energy(p.coulomb, p.zeeman))
     for i, s in enumerate(result.sets):
         e = float(s.energy(p.coulomb, p.zeeman))
-        writer.writerow([s.label, f"{e:.12g}", f"{e - best:.12g}", f"{s.polarisation:.6g}", int(i == result.ground)])
+        row = [s.label, f"{e:.12g}", f"{e - best:.12g}", f"{s.polarisation:.6g}", int(i == result.ground),
+               f"{s.exchange:.12g}"]
+        if lat:
+            row += [f"{lat.point_energies[i] - lat.point_energies[lat.ground]:.12g}", f"{lat.point_interaction[i]:.12g}",
+                    int(i == lat.ground), lat.point_iterations[i], int(lat.point_converged[i])]
+        writer.writerow(row)
     return buffer.getvalue()
 
 
@@ -73,6 +81,15 @@ def _write_h5(path: Path, result) -> None:
         f.create_dataset("ground_state", data=result.diagram)
         f["ground_state"].attrs["sets"] = json.dumps([s.label for s in result.sets])
         f.create_dataset("exchange_integrals", data=result.exchange)
+        if result.lattice is not None:
+            lat = result.lattice
+            f.create_dataset("lattice/coulomb", data=lat.lambdas)
+            f.create_dataset("lattice/energies", data=lat.energies)
+            f.create_dataset("lattice/ground_state", data=lat.diagram)
+            f.create_dataset("lattice/iterations", data=lat.iterations)
+            f["lattice"].attrs["units"] = ("energies per flux quantum in hbar omega_c at zero Zeeman, one row per "
+                                           "candidate (ground_state attrs sets); ground_state over zeeman x coulomb")
+            f["lattice"].attrs["flux"] = str(lat.flux)
         if result.fields is not None:
             f.create_dataset("fields", data=result.fields)
             f.create_dataset("gaps_mev", data=result.field_gaps)
@@ -124,6 +141,24 @@ def format_levels(result, out: Path) -> str:
         for t in af["transitions"]:
             lines.append(f"               nu = {t['filling']}: {t['before']} -> {t['after']} at B = "
                          f"{t['b_tesla']:.4g} T")
+    lat = result.lattice
+    if lat is not None:
+        ld = d["lattice"]
+        lines.append(f"  lattice      flux {lat.flux}, grid {lat.grid[0]} x {lat.grid[1]}, U_C = {lat.coulomb_t:.4g} t: "
+                     f"{result.sets[lat.ground].name} (levels found {ld['filled_levels_found']}), gap "
+                     f"{lat.gap:.4f} hbar omega_c" + (f" = {ld['gap_mev']:.4g} meV" if ld["gap_mev"] else ""))
+        lines.append("               interaction per flux quantum (E_C): lattice / continuum; iterations")
+        for c in ld["candidates"]:
+            lines.append(f"               {c['levels']:<28s} {c['interaction_ec']:8.4f} / {c['continuum_interaction_ec']:8.4f}"
+                         f"   {c['iterations']}{'' if c['converged'] else ' (not converged)'}")
+        for t in ld["transitions"]:
+            lines.append(f"               transition at E_C / hbar omega_c = {t['coulomb_ratio']:.4f}: {t['before']} -> "
+                         f"{t['after']}")
+        lines.append(f"               {lat.lambdas.size} strengths x {len(result.sets)} candidates in {lat.seconds:.1f} s"
+                     + ("" if ld["samples"]["all_converged"] else "; some did not converge")
+                     + f" (at most {ld['samples']['most_iterations']} iterations)")
+    elif result.lattice_note:
+        lines.append(f"  lattice      skipped: {result.lattice_note}")
     for w in result.warnings:
         lines.append(f"  warning      {w}")
     lines.append(f"  time         {result.seconds:.2f} s")

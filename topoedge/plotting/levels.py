@@ -20,7 +20,7 @@ def level_order_figure(result):
     from matplotlib.lines import Line2D
 
     p = result.point
-    fig, (left, right) = plt.subplots(1, 2, figsize=(12.0, 5.2), layout="constrained",
+    fig, (left, right) = plt.subplots(1, 2, figsize=(13.0, 5.6), layout="constrained",
                                       gridspec_kw={"width_ratios": [1.15, 1.0]})
     cmap = polarisation_cmap()
     polarisation = np.array([s.polarisation for s in result.sets])
@@ -40,6 +40,14 @@ def level_order_figure(result):
         left.text(result.coulomb_axis[int(np.median(cc))], result.zeeman_axis[int(np.median(zz))],
                   _set_name(result, int(i)), ha="center", va="center", fontsize=9,
                   bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.8))
+    lattice_handles = []
+    if result.lattice is not None:
+        lines = _lattice_lines(result)
+        for points in lines.values():
+            xy = np.array(sorted(points, key=lambda v: v[1]))
+            left.plot(xy[:, 0], xy[:, 1], color="k", lw=1.3, ls="--")
+        lattice_handles = [Line2D([], [], color="k", lw=1.2, label="transition: continuum"),
+                           Line2D([], [], color="k", lw=1.3, ls="--", label="transition: lattice")]
     inside = p.coulomb <= result.coulomb_axis[-1]
     left.plot(min(p.coulomb, result.coulomb_axis[-1]), p.zeeman, marker="*" if inside else ">", ms=15, color="k",
               mec="white", mew=1.0, ls="none", clip_on=False)
@@ -64,6 +72,17 @@ def level_order_figure(result):
         candidates.append(line)
     for _, end, _ in result.along[:-1]:
         right.plot(end, 0.0, "o", color="k", ms=5, zorder=4)
+    if result.lattice is not None:
+        lat = result.lattice
+        along = lat.energies + np.array([s.zeeman for s in result.sets])[:, None] * p.zeeman
+        for i, s in enumerate(result.sets):
+            right.plot(lat.lambdas, along[i] - along.min(axis=0), "o", ms=4.5, mfc="white",
+                       mec=cmap(0.5 + 0.5 * s.polarisation), mew=1.3, zorder=5)
+        for w, _, _ in lat.transitions:
+            right.plot(w, 0.0, "D", color="k", mfc="white", ms=6, zorder=6)
+        lattice_handles += [Line2D([], [], marker="o", mfc="white", mec="0.3", ls="none",
+                                   label=f"lattice (flux {lat.flux})"),
+                            Line2D([], [], marker="D", mfc="white", color="k", ls="none", label="lattice transition")]
     right.axvline(p.coulomb, **REFERENCE["bulk"])
     right.set_ylim(-0.02 * top, top)
     right.set_xlim(0.0, lam[-1])
@@ -72,15 +91,32 @@ def level_order_figure(result):
     right.set_title(f"candidates at $\\Delta_Z / \\hbar\\omega_c$ = {p.zeeman:.3g}", fontsize=9)
     legend_outside(right, candidates + [Line2D([], [], marker="*", ms=12, color="k", ls="none", label="this scenario"),
                            Line2D([], [], **REFERENCE["bulk"], label="its $E_C / \\hbar\\omega_c$"),
-                           Line2D([], [], marker="o", color="k", ls="none", label="first-order transition")],
-                   where="below")
+                           Line2D([], [], marker="o", color="k", ls="none", label="first-order transition")]
+                   + lattice_handles)
     gap = f"gap {result.gap:.3g} $\\hbar\\omega_c$" + (f" = {result.gap * p.cyclotron_mev:.3g} meV"
                                                         if p.cyclotron_mev else "")
-    fig.suptitle(f"{result.scenario.title or 'scenario'}: $E_C / \\hbar\\omega_c$ = {p.coulomb:.3g}, "
+    fig.suptitle(f"{result.scenario.title or 'scenario'}\n$E_C / \\hbar\\omega_c$ = {p.coulomb:.3g}, "
                  f"$\\Delta_Z / \\hbar\\omega_c$ = {p.zeeman:.3g}; filled {result.sets[result.ground].name}, {gap} "
                  f"({result.gap_kind})\ncontinuum Hartree-Fock of filled Landau levels, exchange only",
                  fontsize=10)
     return fig
+
+
+def _lattice_lines(result) -> dict:
+    """Lattice transitions over the diagram: per pair of sets, (lambda, z) points by linear interpolation."""
+    lat = result.lattice
+    slope = np.array([s.zeeman for s in result.sets])
+    pairs: dict = {}
+    for z in result.zeeman_axis:
+        along = lat.energies + slope[:, None] * z
+        best = np.argmin(along, axis=0)
+        for j in np.nonzero(best[1:] != best[:-1])[0]:
+            a, b = best[j], best[j + 1]
+            d0 = along[b, j] - along[a, j]
+            d1 = along[b, j + 1] - along[a, j + 1]
+            where = lat.lambdas[j] + (lat.lambdas[j + 1] - lat.lambdas[j]) * d0 / (d0 - d1)
+            pairs.setdefault((int(a), int(b)), []).append((float(where), float(z)))
+    return pairs
 
 
 def gaps_figure(result):

@@ -189,6 +189,14 @@ KEYS: dict[str, Key] = {key.path: key for key in (
          "an integer between 2 and 2000", lambda n: 2 <= n <= 2000),
     Key("levels.max_filling", "integer", "-", "Largest filling of the gaps against the field.",
          "an integer between 1 and 12", lambda n: 1 <= n <= 12),
+    Key("levels.lattice", "boolean", "-",
+         "Also solve every candidate by bulk Hartree-Fock on the lattice (square lattice with spin).",
+         "true or false"),
+    Key("levels.lattice_points", "integer", "-", "Interaction strengths of the lattice part.",
+         "an integer between 2 and 200", lambda n: 2 <= n <= 200),
+    Key("levels.grid", "torus", "-",
+         "[N1, N2] momenta of the lattice part; empty: the smallest spanning six magnetic lengths.",
+         "an empty array or two integers >= 1 such as [16, 1]"),
     Key("interaction.enabled", "boolean", "-",
          "Self-consistent Hartree-Fock run (true when the [interaction] section is present).",
          "true or false"),
@@ -369,6 +377,17 @@ def _to_grid(key: Key, value: Any) -> tuple[int, int]:
     return int(value[0]), int(value[1])
 
 
+def _to_torus(key: Key, value: Any) -> tuple[int, ...]:
+    if not isinstance(value, (list, tuple)):
+        raise _type_error(key, value)
+    if len(value) == 0:
+        return ()
+    if not (len(value) == 2 and all(isinstance(n, numbers.Integral) and not isinstance(n, bool) and n >= 1
+                                    for n in value)):
+        raise ConfigError(f"{key.path}: got {show(list(value))}; expected {key.expect}")
+    return int(value[0]), int(value[1])
+
+
 def _to_starts(key: Key, value: Any) -> tuple[str, ...]:
     if not isinstance(value, (list, tuple)) or not value:
         raise _type_error(key, value)
@@ -395,7 +414,7 @@ def _to_widths(key: Key, value: Any) -> tuple[float, ...]:
 
 _CONVERTERS: dict[str, Callable[[Key, Any], Any]] = {
     "string": _to_str, "float": _to_float, "integer": _to_int, "boolean": _to_bool,
-    "choice": _to_choice, "flux": _to_flux, "pairs": _to_pairs, "grid": _to_grid,
+    "choice": _to_choice, "flux": _to_flux, "pairs": _to_pairs, "grid": _to_grid, "torus": _to_torus,
     "starts": _to_starts, "widths": _to_widths, "length_or_auto": _to_length_or_auto,
 }
 
@@ -486,7 +505,7 @@ def key_docs() -> list[tuple[str, str, str, str, str]]:
     for path, key in KEYS.items():
         kind = {"choice": "string: " + " | ".join(f'"{c}"' for c in key.choices),
                 "flux": 'string "p/q"', "pairs": "array of [float, float]",
-                "grid": "array of two integers", "starts": "array of strings",
+                "grid": "array of two integers", "torus": "array of two integers, or empty", "starts": "array of strings",
                 "widths": "array of floats", "length_or_auto": 'float or "auto"'}.get(key.kind, key.kind)
         default = plain(lookup(defaults, path))
         rows.append((path, kind, key.unit, "unset" if default is None else json.dumps(default),

@@ -170,6 +170,16 @@ class LevelsConfig:
         Fields of the gaps against the field.
     max_filling : int
         Largest filling of the gaps against the field (1 .. max_filling).
+    lattice : bool
+        Also solve every candidate by bulk Hartree-Fock on the lattice
+        (square lattice with spin): at the scenario's point and at
+        ``lattice_points`` interaction strengths up to ``coulomb_max``.
+    lattice_points : int
+        Interaction strengths of the lattice part.
+    grid : tuple of int
+        ``[N1, N2]`` momenta of the lattice part (the torus is ``N1`` cells
+        by ``N2`` magnetic cells); empty: the smallest that spans six magnetic
+        lengths both ways.
     """
 
     filling: int | None = None
@@ -179,3 +189,6 @@ class LevelsConfig:
     fields: tuple[float, ...] = ()
     field_points: int = 120
     max_filling: int = 6
+    lattice: bool = True
+    lattice_points: int = 10
+    grid: tuple[int, ...] = ()

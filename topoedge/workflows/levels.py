@@ -81,6 +81,8 @@ class LevelsResult:
     field_transitions: tuple = ()         # (nu, B, before, after)
     cyclotron_mev: np.ndarray | None = None
     zeeman_mev: np.ndarray | None = None
+    lattice: object = None                # LatticeLevels of the lattice part, or None
+    lattice_note: str | None = None       # why there is no lattice part
     units: object = None
     seconds: float = 0.0
     warnings: tuple = field(default_factory=tuple)
@@ -111,6 +113,8 @@ class LevelsResult:
                              "after": self.sets[j].label}
                             for (_, end, i), (_, _, j) in zip(self.along, self.along[1:])],
             "exchange_integrals": [[float(v) for v in row] for row in self.exchange],
+            "lattice": (self.lattice.to_dict(self.sets, p.cyclotron_mev) if self.lattice is not None
+                        else {"skipped": self.lattice_note}),
             "warnings": list(self.warnings), "seconds": self.seconds,
         }
         if self.fields is not None:
@@ -195,6 +199,10 @@ def check_levels(s: Scenario, units) -> tuple[ScenarioPoint, tuple[str, ...]]:
     if cfg.fields and units is None:
         raise ConfigError("levels.fields: given without field.b_tesla; expected [material] and [field] for the "
                           "gaps against the field")
+    from .levels_lattice import check_lattice_grid, lattice_supported
+
+    if lattice_supported(s) is None:
+        check_lattice_grid(s, point.filling)
     warnings = []
     if abs(point.zeeman) >= 1:
         warnings.append(f"the Zeeman splitting is {abs(point.zeeman):.3g} hbar omega_c, larger than the "
@@ -206,8 +214,13 @@ def check_levels(s: Scenario, units) -> tuple[ScenarioPoint, tuple[str, ...]]:
     return point, tuple(warnings)
 
 
-def levels_run(scenario: Scenario | Model, *, progress=None) -> LevelsResult:
-    """The level-ordering diagram, the scenario's ground state and gap, and gaps against B (module notes)."""
+def levels_run(scenario: Scenario | Model, *, progress=None, diagram: bool = True) -> LevelsResult:
+    """The level-ordering diagram, the scenario's ground state and gap, and gaps against B (module notes).
+
+    With ``diagram=False`` only the scenario's point is computed (continuum and
+    lattice), as a point of a sweep: the diagram's axes hold the point alone,
+    and there are no lattice samples along the interaction and no gaps against B.
+    """
     start = time.perf_counter()
     model = resolve(scenario)
     s, units = model.scenario, model.units
@@ -217,11 +230,14 @@ def levels_run(scenario: Scenario | Model, *, progress=None) -> LevelsResult:
     orbitals = point.filling + 2
     x = exchange_matrix(orbitals, gate=point.gate)
     sets = tuple(candidate_sets(point.filling, x))
-    with progress.stage(f"diagram: nu = {point.filling}, {cfg.points} x {cfg.points} points"):
-        coulomb_axis = np.linspace(0.0, max(cfg.coulomb_max, 0.0), cfg.points)
-        z_lo = min(0.0, 1.1 * point.zeeman)
-        z_hi = max(cfg.zeeman_max, 1.1 * point.zeeman)
-        zeeman_axis = np.linspace(z_lo, z_hi, cfg.points)
+    points = cfg.points if diagram else 1
+    with progress.stage(f"diagram: nu = {point.filling}, {points} x {points} points"):
+        if diagram:
+            coulomb_axis = np.linspace(0.0, max(cfg.coulomb_max, 0.0), cfg.points)
+            zeeman_axis = np.linspace(min(0.0, 1.1 * point.zeeman), max(cfg.zeeman_max, 1.1 * point.zeeman),
+                                      cfg.points)
+        else:
+            coulomb_axis, zeeman_axis = np.array([point.coulomb]), np.array([point.zeeman])
         diagram = ground_state(list(sets), coulomb_axis[None, :], zeeman_axis[:, None])
         lines = tuple(tuple((end, i, j) for (_, end, i), (_, _, j) in zip(pieces, pieces[1:]))
                       for pieces in (lower_envelope(list(sets), 0.0, coulomb_axis[-1], zeeman=z)
@@ -230,13 +246,26 @@ def levels_run(scenario: Scenario | Model, *, progress=None) -> LevelsResult:
     ground = int(ground_state(list(sets), point.coulomb, point.zeeman))
     gap, kind, top, bottom = sets[ground].gap(point.coulomb, point.zeeman, x)
     extra = {}
-    if units is not None:
+    if units is not None and diagram:
         with progress.stage("gaps against the field"):
             extra = _against_field(s, units, cfg)
+    from .levels_lattice import lattice_levels, lattice_supported
+
+    note = lattice_supported(s)
+    if note is None:
+        found = lattice_levels(s, units, point, list(sets), zeeman_axis, progress=progress, samples=diagram)
+        extra["lattice"] = found
+        if found.ground != ground:
+            warnings = warnings + (f"the lattice (flux {found.flux}) fills {sets[found.ground].name}, the continuum "
+                                   f"{sets[ground].name}: lattice corrections decide at this point",)
+        if not all(found.point_converged) or not found.converged.all():
+            warnings = warnings + ("some lattice candidates did not converge (see lattice.candidates and "
+                                   "lattice.samples in summary.json)",)
     return LevelsResult(
         scenario=s, point=point, sets=sets, coulomb_axis=coulomb_axis, zeeman_axis=zeeman_axis, diagram=diagram,
         lines=lines, along=along, ground=ground, gap=float(gap), gap_kind=kind, gap_levels=(top, bottom),
-        exchange=x, units=units, seconds=time.perf_counter() - start, warnings=warnings, **extra)
+        exchange=x, units=units, seconds=time.perf_counter() - start, warnings=warnings, lattice_note=note,
+        **extra)
 
 
 def _against_field(s: Scenario, units, cfg) -> dict:

@@ -98,6 +98,15 @@ QUANTITIES: dict[str, tuple[str, str]] = {
     "disorder_sigma_xy_spread": ("float", "its spread over the seeds"),
     "disorder_hallbar_sigma_xy": ("float", "sigma_xy of the Hall bar at E_F from its seed-mean resistivities, "
                                   "e^2/h (command disorder)"),
+    "levels_ground": ("str", "filled levels of the continuum ground state (command levels)"),
+    "levels_polarisation": ("float", "its spin polarisation (N_up - N_down) / N"),
+    "levels_gap": ("float", "its activation gap, hbar omega_c"),
+    "levels_coulomb_ratio": ("float", "E_C / hbar omega_c of the point"),
+    "levels_zeeman_ratio": ("float", "Delta_Z / hbar omega_c of the point"),
+    "levels_lattice_ground": ("str", "filled levels of the lattice's ground state (bulk Hartree-Fock)"),
+    "levels_lattice_gap": ("float", "its activation gap, hbar omega_c"),
+    "levels_agree": ("bool", "lattice and continuum fill the same levels"),
+    "levels_lattice_converged": ("bool", "every lattice candidate converged"),
     "disorder_r_xx": ("float", "R_xx of the Hall bar at E_F, h/e^2, mean over the seeds (command disorder)"),
 }
 
@@ -169,8 +178,9 @@ def _toml_value(value: Any) -> str:
 DEFAULT_QUANTITIES = ("bottom_pairs", "bottom_net", "chern", "outermost_spin_bottom")
 _TOP_KEYS = ("title", "command", "scenario", "mode", "axis", "plot")
 
-#: What every point of a sweep runs: ``topoedge run`` (default) or ``topoedge disorder`` at one strength.
-COMMANDS = ("run", "disorder")
+#: What every point of a sweep runs: ``topoedge run`` (default), ``topoedge disorder`` at one strength or
+#: ``topoedge levels`` at the point (the names of topoedge.workflows.sweep_points.POINT_RUNNERS).
+COMMANDS = ("run", "disorder", "levels")
 
 
 def _axis_values(spec: Any, i: int) -> list:

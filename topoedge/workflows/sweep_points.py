@@ -1,4 +1,9 @@
-"""What a sweep's workers run: one point (``run`` or ``disorder``), and the executors that run them."""
+"""What a sweep's workers run: one point (``run``, ``disorder`` or ``levels``), and the executors that run them.
+
+Each command a sweep point can run is one entry of :data:`POINT_RUNNERS`
+(a function of the parsed scenario that returns the point's quantities and
+summary); the sweep file's ``command`` names it.
+"""
 
 from __future__ import annotations
 
@@ -8,12 +13,11 @@ from dataclasses import replace
 from ..scenario import parse_scenario
 from ..util.jsonio import plain_json
 
-__all__ = ["run_point", "submitter"]
+__all__ = ["run_point", "submitter", "POINT_RUNNERS"]
 
 
 def run_point(config: dict, command: str = "run") -> dict:
-    """Run one point (in a worker): the pipeline of ``topoedge run`` (or of ``topoedge disorder`` at the
-    point's ``disorder.strength`` alone), no files.
+    """Run one point (in a worker): the :data:`POINT_RUNNERS` entry of ``command``, no files.
 
     Returns ``{"status": "ok", "quantities", "summary", "seconds"}`` or
     ``{"status": "failed", "error": one line, "seconds"}``: a point that
@@ -28,20 +32,8 @@ def run_point(config: dict, command: str = "run") -> dict:
     try:
         scenario = parse_scenario(config)
         with one_blas_thread():
-            if command == "disorder":
-                return _disorder_point(scenario, start, cpu)
-            if scenario.interaction.enabled:
-                from .interacting import run_interacting
-
-                result = run_interacting(scenario)
-            else:
-                from .run import run_scenario
-
-                result = run_scenario(scenario)
-        from .sweep import quantities_of
-
-        return {"status": "ok", "quantities": plain_json(quantities_of(result.summary)),
-                "summary": plain_json(result.summary),
+            quantities, summary = POINT_RUNNERS[command](scenario)
+        return {"status": "ok", "quantities": plain_json(quantities), "summary": plain_json(summary),
                 "seconds": time.perf_counter() - start, "cpu_seconds": time.process_time() - cpu}
     except Exception as err:  # a failed point is recorded, never stops the sweep
         message = " ".join(str(err).split()) or type(err).__name__
@@ -86,7 +78,22 @@ def submitter(executor: str, jobs: int, scheduler: str | None, command: str = "r
     return (lambda config: client.submit(run_point, config, command, pure=False)), as_completed, close
 
 
-def _disorder_point(scenario, start: float, cpu: float) -> dict:
+def _run_point(scenario) -> tuple[dict, dict]:
+    """``topoedge run`` (self-consistent with [interaction])."""
+    from .sweep import quantities_of
+
+    if scenario.interaction.enabled:
+        from .interacting import run_interacting
+
+        result = run_interacting(scenario)
+    else:
+        from .run import run_scenario
+
+        result = run_scenario(scenario)
+    return quantities_of(result.summary), result.summary
+
+
+def _disorder_point(scenario) -> tuple[dict, dict]:
     """``topoedge disorder`` at the one strength ``disorder.strength``: marker, sigma_xy and Hall bar at E_F."""
     from .disorder import disorder_run
     from .sweep import QUANTITIES
@@ -102,5 +109,27 @@ def _disorder_point(scenario, start: float, cpu: float) -> dict:
     if result.hallbar_r_xy is not None:
         bar = result.to_dict()["hallbar"]
         quantities.update(disorder_hallbar_sigma_xy=bar["sigma_xy"][0], disorder_r_xx=bar["r_xx_mean"][0])
-    return {"status": "ok", "quantities": plain_json(quantities), "summary": plain_json(result.to_dict()),
-            "seconds": time.perf_counter() - start, "cpu_seconds": time.process_time() - cpu}
+    return quantities, result.to_dict()
+
+
+def _levels_point(scenario) -> tuple[dict, dict]:
+    """``topoedge levels`` at the point alone (no diagram, no samples along the interaction, no field scan)."""
+    from .levels import levels_run
+    from .sweep import QUANTITIES
+
+    result = levels_run(scenario, diagram=False)
+    d = result.to_dict()
+    quantities = {name: None for name in QUANTITIES}
+    quantities.update(levels_ground=d["ground_state"]["levels"], levels_polarisation=d["ground_state"]["polarisation"],
+                      levels_gap=d["gap"]["value"], levels_coulomb_ratio=d["coulomb_ratio"],
+                      levels_zeeman_ratio=d["zeeman_ratio"])
+    if result.lattice is not None:
+        lat = d["lattice"]
+        quantities.update(levels_lattice_ground=lat["ground_state"], levels_lattice_gap=lat["gap"],
+                          levels_agree=lat["ground_state"] == d["ground_state"]["levels"],
+                          levels_lattice_converged=all(c["converged"] for c in lat["candidates"]))
+    return quantities, d
+
+
+#: The commands a sweep point can run: name -> function(scenario) -> (quantities, summary).
+POINT_RUNNERS = {"run": _run_point, "disorder": _disorder_point, "levels": _levels_point}

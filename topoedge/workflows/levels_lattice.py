@@ -1,0 +1,231 @@
+"""The level ordering on the lattice: bulk Hartree-Fock of every filled-level candidate (workflow stage).
+
+For a square-lattice scenario in a field with spin, every candidate set of
+filled levels of the continuum ordering (:mod:`topoedge.solvers.landau_exchange`)
+is solved self-consistently on the lattice (:class:`topoedge.solvers.bulk_hf.BulkHartreeFock`)
+with the scenario's interaction (``U_C``, ``U_0``, gate), at the scenario's
+``U_C`` and at ``levels.lattice_points`` interaction strengths from
+``levels.coulomb_max / lattice_points`` to ``levels.coulomb_max`` (in
+``E_C / hbar omega_c``). The Zeeman term shifts each spin's bands rigidly
+and the occupations are fixed per spin, so it adds ``-(z/2)(N_up - N_down)``
+per flux quantum to a candidate's energy without changing its orbitals: the
+lattice diagram over (lambda, z) follows from the energies at z = 0. The
+transitions along lambda at the scenario's z are refined by the secant method
+on the energy difference of the two sets, each step a pair of
+self-consistent solutions.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..scenario import ConfigError, Scenario
+from ..solvers.bulk_hf import BulkHartreeFock, smallest_grid
+from ..util.budget import require
+
+__all__ = ["LatticeLevels", "lattice_levels", "check_lattice_grid", "lattice_supported", "GRID_LENGTHS",
+           "default_lengths"]
+
+#: Magnetic lengths the momentum torus must span in both directions (fewer are refused).
+GRID_LENGTHS = 6.0
+
+
+def default_lengths(filling: int) -> float:
+    """Magnetic lengths of the default torus: 6 + nu/2 (a level n spreads over about sqrt(2n + 1) l_B;
+    measured at flux 1/20: 6 l_B leaves 6e-4 E_C in the exchange energy of {0up, 1up}, 7 l_B 6e-5 and
+    the lattice itself is 2 % from the continuum there)."""
+    return 6.0 + filling / 2
+
+
+@dataclass(frozen=True, eq=False)
+class LatticeLevels:
+    """The lattice's answer for the candidates of the level ordering (energies per flux quantum in hbar omega_c)."""
+
+    flux: object
+    grid: tuple
+    coulomb_t: float                     # U_C of the scenario, t
+    onsite_t: float
+    lambdas: np.ndarray                  # (L,) E_C / hbar omega_c of the samples
+    energies: np.ndarray                 # (S, L) at z = 0
+    iterations: np.ndarray               # (S, L)
+    converged: np.ndarray                # (S, L) bool
+    point_energies: np.ndarray           # (S,) at the scenario's point (with its z)
+    point_interaction: np.ndarray        # (S,) Hartree + exchange per flux quantum, E_C
+    point_iterations: tuple
+    point_converged: tuple
+    ground: int
+    ground_levels: tuple                 # the filled levels found, ((n, spin), ...)
+    gap: float                           # activation gap of the ground state, hbar omega_c
+    transitions: tuple                   # ((lambda, before, after), ...) at the scenario's z
+    diagram: np.ndarray                  # (Z, L) ground-state index over the diagram's z axis and lambdas
+    seconds: float
+
+    def to_dict(self, sets, cyclotron_mev: float | None) -> dict:
+        return {
+            "method": "bulk Hartree-Fock on the lattice: magnetic cell on a momentum torus, occupations fixed "
+                      "per spin, same interaction as the ribbon",
+            "flux": str(self.flux), "grid": list(self.grid), "coulomb_t": self.coulomb_t, "onsite_t": self.onsite_t,
+            "ground_state": sets[self.ground].label,
+            "filled_levels_found": ",".join(f"{n}{s}" for n, s in self.ground_levels),
+            "gap": self.gap, "gap_mev": None if cyclotron_mev is None else self.gap * cyclotron_mev,
+            "candidates": [{"levels": s.label, "energy": float(self.point_energies[i]),
+                            "interaction_ec": float(self.point_interaction[i]),
+                            "continuum_interaction_ec": float(s.exchange),
+                            "iterations": int(self.point_iterations[i]), "converged": bool(self.point_converged[i])}
+                           for i, s in enumerate(sets)],
+            "transitions": [{"coulomb_ratio": float(w), "before": sets[i].label, "after": sets[j].label}
+                            for w, i, j in self.transitions],
+            "samples": {"coulomb_ratio": [float(x) for x in self.lambdas],
+                        "energies": {s.label: [float(e) for e in self.energies[i]] for i, s in enumerate(sets)},
+                        "all_converged": bool(self.converged.all()),
+                        "most_iterations": int(self.iterations.max()) if self.iterations.size else None},
+            "seconds": self.seconds,
+        }
+
+
+def lattice_supported(s: Scenario) -> str | None:
+    """None when the lattice part runs for this scenario, else why not."""
+    from ..models.lattices import lattice
+
+    if not s.levels.lattice:
+        return "levels.lattice = false"
+    if "landau" not in lattice(s.lattice.kind).supports:
+        return f"no bulk Hartree-Fock for the {s.lattice.kind} lattice"
+    if not s.spin.enabled:
+        return "spin.enabled = false (the ordering is about the two spins)"
+    return None
+
+
+def check_lattice_grid(s: Scenario, filling: int) -> tuple[int, int]:
+    """The momentum grid of the lattice part: ``levels.grid``, or the smallest spanning ``default_lengths`` l_B.
+
+    Raises
+    ------
+    ConfigError
+        For a grid too coarse for the magnetic length (with the smallest
+        that works) or one that does not fit in memory.
+    """
+    flux = s.lattice.flux
+    least = smallest_grid(flux, GRID_LENGTHS)
+    grid = tuple(s.levels.grid) if s.levels.grid else smallest_grid(flux, default_lengths(filling))
+    lb = math.sqrt(1 / (2 * math.pi * abs(float(flux))))
+    if grid[0] < least[0] or grid[1] < least[1]:
+        raise ConfigError(f"levels.grid: got {list(grid)} at l_B = {lb:.3g} a and flux {flux}: the torus spans "
+                          f"{grid[0] / lb:.2g} x {grid[1] * flux.denominator / lb:.2g} magnetic lengths; expected "
+                          f"at least {list(least)} ({GRID_LENGTHS:g} magnetic lengths both ways)")
+    q = flux.denominator
+    per_array = grid[0] * grid[1] * q * q * 16
+    # the Hamiltonians of both spins, the interaction, projectors, Fock terms and 2 x 6 mixing iterates
+    require([("the lattice level ordering", per_array * (2 + 1 + 2 + 2 + 2 * 2 * 6),
+              "expected a larger flux (smaller q) or levels.lattice = false")])
+    return grid
+
+
+def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, samples: bool = True) -> LatticeLevels:
+    """Every candidate on the lattice at the scenario's point and (``samples``) along lambda (module notes)."""
+    from fractions import Fraction
+
+    from ..systems.harper import HarperCell
+    from ..solvers.coulomb import Interaction
+    from .interacting import interaction_of
+
+    start = time.perf_counter()
+    cfg = s.levels
+    grid = check_lattice_grid(s, point.filling)
+    flux = Fraction(s.lattice.flux)
+    phi = abs(float(flux))
+    # l_B / a and hbar omega_c of the field asked for (physical scenarios) or of the flux
+    lb = units.magnetic_length_a if units is not None else math.sqrt(1 / (2 * math.pi * phi))
+    cyclotron_t = units.cyclotron_t if units is not None else 4 * math.pi * phi
+    base = interaction_of(s, units)
+    ratio = base.onsite / base.coulomb
+    cell = HarperCell(flux, onsite=s.lattice.onsite, zeeman=0.0, spin=True)
+    bands = [{"up": sum(lv.spin == "up" for lv in c.levels) * abs(flux.numerator),
+              "down": sum(lv.spin == "down" for lv in c.levels) * abs(flux.numerator)} for c in sets]
+    zeeman_slope = np.array([c.zeeman for c in sets])           # per flux quantum, times z
+
+    unit = BulkHartreeFock(cell, Interaction(1.0, ratio, base.gate_distance), grid)   # U_C = 1 t, scaled below
+    warm: dict = {}
+
+    def solve_all(lam: float):
+        """Every candidate at E_C / hbar omega_c = lam, each from the nearest solution found so far."""
+        u = lam * cyclotron_t * lb                                # U_C from E_C / hbar omega_c
+        solver = unit.scaled(u)
+        row = []
+        for i, b in enumerate(bands):
+            near = min(warm.get(i, {}), key=lambda x: abs(x - lam), default=None)
+            result = solver.solve(b, start=warm[i][near] if near is not None else "levels")
+            if not result.converged and near is not None:            # a warm start that fails: from scratch
+                result = solver.solve(b)
+            warm.setdefault(i, {})[lam] = result.projectors
+            row.append(result)
+        return row, u
+
+    lambdas = (np.linspace(cfg.coulomb_max / cfg.lattice_points, cfg.coulomb_max, cfg.lattice_points) if samples
+               else np.empty(0))
+    energies = np.empty((len(sets), lambdas.size))
+    iterations = np.empty((len(sets), lambdas.size), dtype=int)
+    converged = np.empty((len(sets), lambdas.size), dtype=bool)
+    with progress.stage(f"lattice: {len(sets)} candidates x {lambdas.size} strengths, flux {flux}, grid "
+                        f"{grid[0]} x {grid[1]}", lambdas.size + 1) as stage:
+        results, _ = solve_all(point.coulomb)
+        stage.update(1)
+        for j, lam in enumerate(lambdas):
+            row, _ = solve_all(lam)
+            energies[:, j] = [r.energy_per_flux / cyclotron_t for r in row]
+            iterations[:, j] = [r.iterations for r in row]
+            converged[:, j] = [r.converged for r in row]
+            stage.update(1)
+    point_energies = np.array([r.energy_per_flux / cyclotron_t for r in results]) + zeeman_slope * point.zeeman
+    ec = point.coulomb * cyclotron_t                                 # E_C in t
+    # ties (zero Zeeman: two polarisations alike) go to the set polarised along spin up, as in the continuum
+    order = np.argsort([-c.polarisation for c in sets], kind="stable")
+
+    def lowest(values: np.ndarray) -> np.ndarray:
+        return order[np.argmin(np.round(values[order], 9), axis=0)]
+
+    ground = int(lowest(point_energies))
+    diagram = lowest(energies[:, None, :] + zeeman_slope[:, None, None] * zeeman_axis[None, :, None])
+    transitions = []
+    along = energies + (zeeman_slope * point.zeeman)[:, None]
+    best = lowest(along)
+    for j in np.nonzero(best[1:] != best[:-1])[0]:
+        a, b = int(best[j]), int(best[j + 1])
+        transitions.append((_secant(solve_all, bands_pair=(a, b), lo=lambdas[j], hi=lambdas[j + 1],
+                                    zeeman=point.zeeman * (zeeman_slope[b] - zeeman_slope[a]),
+                                    cyclotron_t=cyclotron_t), a, b))
+    best_result = results[ground]
+    return LatticeLevels(
+        flux=flux, grid=grid, coulomb_t=point.coulomb * cyclotron_t * lb,
+        onsite_t=ratio * point.coulomb * cyclotron_t * lb,
+        lambdas=lambdas, energies=energies, iterations=iterations, converged=converged,
+        point_energies=point_energies, point_interaction=np.array([r.interaction_per_flux / ec for r in results]),
+        point_iterations=tuple(r.iterations for r in results), point_converged=tuple(r.converged for r in results),
+        ground=ground, ground_levels=best_result.filled_levels(), gap=best_result.gap / cyclotron_t,
+        transitions=tuple(transitions), diagram=diagram, seconds=time.perf_counter() - start)
+
+
+def _secant(solve_all, *, bands_pair, lo: float, hi: float, zeeman: float, cyclotron_t: float,
+            tol: float = 1e-6, steps: int = 12) -> float:
+    """lambda where candidates ``a`` and ``b`` cost the same, between ``lo`` and ``hi`` (secant steps)."""
+    a, b = bands_pair
+
+    def difference(lam):
+        row, _ = solve_all(lam)
+        return (row[b].energy_per_flux - row[a].energy_per_flux) / cyclotron_t + zeeman
+
+    x0, x1 = lo, hi
+    f0, f1 = difference(x0), difference(x1)
+    for _ in range(steps):
+        if f1 == f0:
+            break
+        x2 = x1 - f1 * (x1 - x0) / (f1 - f0)
+        x0, f0, x1 = x1, f1, x2
+        f1 = difference(x1)
+        if abs(x1 - x0) < tol * max(1.0, abs(x1)):
+            break
+    return float(x1)
