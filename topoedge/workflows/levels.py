@@ -230,9 +230,10 @@ def levels_run(scenario: Scenario | Model, *, progress=None, diagram: bool = Tru
     orbitals = point.filling + 2
     x = exchange_matrix(orbitals, gate=point.gate)
     sets = tuple(candidate_sets(point.filling, x))
-    points = cfg.points if diagram else 1
+    full = diagram                       # the name is reused for the ground-state map below
+    points = cfg.points if full else 1
     with progress.stage(f"diagram: nu = {point.filling}, {points} x {points} points"):
-        if diagram:
+        if full:
             coulomb_axis = np.linspace(0.0, max(cfg.coulomb_max, 0.0), cfg.points)
             zeeman_axis = np.linspace(min(0.0, 1.1 * point.zeeman), max(cfg.zeeman_max, 1.1 * point.zeeman),
                                       cfg.points)
@@ -246,14 +247,14 @@ def levels_run(scenario: Scenario | Model, *, progress=None, diagram: bool = Tru
     ground = int(ground_state(list(sets), point.coulomb, point.zeeman))
     gap, kind, top, bottom = sets[ground].gap(point.coulomb, point.zeeman, x)
     extra = {}
-    if units is not None and diagram:
+    if units is not None and full:
         with progress.stage("gaps against the field"):
             extra = _against_field(s, units, cfg)
     from .levels_lattice import lattice_levels, lattice_supported
 
     note = lattice_supported(s)
     if note is None:
-        found = lattice_levels(s, units, point, list(sets), zeeman_axis, progress=progress, samples=diagram)
+        found = lattice_levels(s, units, point, list(sets), zeeman_axis, progress=progress, samples=full)
         extra["lattice"] = found
         if found.ground != ground:
             warnings = warnings + (f"the lattice (flux {found.flux}) fills {sets[found.ground].name}, the continuum "
