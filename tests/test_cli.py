@@ -568,8 +568,15 @@ def test_bench_json(tmp_path):
                         "--gaas", "gaas.toml", "--marker-flakes", "24:12,16", "--json", cwd=tmp_path)
     assert proc.returncode == 0, proc.stderr
     full = leading_json(proc.stdout)
-    assert full.keys() == {"ribbon", "chern", "landau", "gaas", "hallbar", "hf", "sweep", "marker"}
+    assert full.keys() == {"ribbon", "chern", "landau", "gaas", "hallbar", "hf", "mixing", "sweep", "marker",
+                           "levels"}
     assert full["marker"]["dense"]["largest_difference"] < 1e-2
+    # the mixing holds one half iterate (D = 0 .. 8 of N_k = 16: 9/16 of G) and 8 single-precision
+    # residuals of it (9/32 each) instead of 8 full pairs (16 arrays): counted from the array sizes,
+    # measured as the bytes the mixers hold
+    assert full["mixing"]["ratio_full_over_lean"] == pytest.approx(16 / (9 / 16 + 8 * 9 / 32), rel=1e-9)
+    levels = full["levels"]
+    assert levels["all_converged"] and levels["points"] == 20 and len(levels["lattice_transitions"]) == 1
     landau = full["landau"]
     # dense at 12, 24, 48 (measured), Landau-level solver at those and at 60;
     # the lowest four gaps have t_r = r at flux 1/q (TKNN, PRL 49, 405 (1982)).

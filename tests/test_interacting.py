@@ -166,6 +166,11 @@ def test_self_consistent_run_is_neutral_and_keeps_one_mode_per_edge(nu1_run):
     # The mode sits where the electron density falls to half its bulk value.
     mode = i["bottom"]["order"][0]["distance_a"]
     assert abs(mode - i["half_filling_distance_a"]["up"]) < 1.0
+    # The centre beside the lattice bulk Hartree-Fock at the same parameters: both fill 0up (the
+    # quantum-Hall ferromagnet; Kallin and Halperin, PRB 30, 5655 (1984)).
+    link = i["bulk_link"]
+    assert link["centre_levels"] == link["bulk_levels"] == "0up" and link["agree"]
+    assert all(c["converged"] for c in link["candidates"])
 
 
 def test_edge_modes_of_the_run_are_those_of_the_self_consistent_bands(nu1_run):

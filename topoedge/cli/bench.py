@@ -11,10 +11,11 @@ def cmd_bench(args) -> int:
     from ..workflows.bench import bench_chern, bench_ribbon
 
     parts = [p.strip() for p in args.parts.split(",") if p.strip()]
-    unknown = sorted(set(parts) - {"ribbon", "chern", "landau", "gaas", "hallbar", "hf", "sweep", "marker"})
+    known = ("ribbon", "chern", "landau", "gaas", "hallbar", "hf", "sweep", "marker", "levels")
+    unknown = sorted(set(parts) - set(known))
     if unknown or not parts:
         raise ConfigError(f"bench --parts: got {args.parts!r}; expected a comma-separated subset of "
-                          "ribbon, chern, landau, gaas, hallbar, hf, sweep, marker")
+                          + ", ".join(known))
     try:
         landau_qs = [int(x) for x in args.landau_q.split(",")]
         assert landau_qs and all(24 <= q <= 20000 for q in landau_qs)
@@ -176,6 +177,27 @@ def cmd_bench(args) -> int:
         for row in r["exchange_scaling"]:
             say(args, f"    W = {row['width']:4d}, N_k = {row['k_points']:4d}: {row['build_seconds']:7.3f} s, "
                        f"time ratio {row['time_ratio']:5.2f}, model ratio {row['model_ratio']:5.2f}")
+    if "hf" in parts:
+        from ..workflows.bench_levels import bench_mixing
+
+        say(args, f"mixing memory of the self-consistent ribbon: W = {hf_width}, N_k = {hf_nk}, history 8 ...")
+        report["mixing"] = r = bench_mixing(width=hf_width, k_points=hf_nk)
+        for name in ("full iterates (Pulay)", "residuals only (lean)"):
+            say(args, f"  {name:24s} {r[name]['bytes'] / 1e9:7.3f} GB held, {r[name]['seconds_per_step']:.3f} s per step")
+        say(args, f"  ratio full / lean = {r['ratio_full_over_lean']:.2f}")
+    if "levels" in parts:
+        from ..workflows.bench_levels import bench_levels
+
+        say(args, "level-ordering diagram: nu = 3, flux 1/20, 20 x 20 points (continuum envelope and lattice "
+                   "bulk Hartree-Fock of every candidate) ...")
+        report["levels"] = r = bench_levels()
+        say(args, f"  {r['candidates']} candidates, grid {r['grid'][0]} x {r['grid'][1]}: {r['seconds']:.1f} s "
+                   f"({r['solutions']} lattice solutions, {r['lattice_seconds']:.1f} s; continuum "
+                   f"{r['continuum_seconds']:.2f} s), at most {r['most_iterations']} iterations, all converged: "
+                   f"{r['all_converged']}")
+        say(args, f"  transitions along E_C / hbar omega_c at zero Zeeman: lattice "
+                   f"{', '.join(f'{w:.3f}' for w in r['lattice_transitions'])}; continuum "
+                   f"{', '.join(f'{w:.3f}' for w in r['continuum_transitions'])}")
     if "sweep" in parts:
         from ..workflows.bench import bench_sweep
 
@@ -198,9 +220,9 @@ def add_arguments(parser) -> None:
                         help="half-width of the energy window around E_F, units of t (default 0.5)")
     parser.add_argument("--chern-q", type=int, default=50,
                         help="Chern benchmark at flux 1/q, spinless (default 50)")
-    parser.add_argument("--parts", default="ribbon,chern,landau,gaas,hallbar,hf,sweep,marker",
-                        help="comma-separated benchmarks to run: ribbon, chern, landau, gaas, hallbar, hf, sweep, marker "
-                             "(default all)")
+    parser.add_argument("--parts", default="ribbon,chern,landau,gaas,hallbar,hf,sweep,marker,levels",
+                        help="comma-separated benchmarks to run: ribbon, chern, landau, gaas, hallbar, hf (with the "
+                             "mixing memory), sweep, marker, levels (default all)")
     parser.add_argument("--marker-flakes", default="60:50,100,200", metavar="DENSE:SIZE,...",
                         help="marker part: the flake side where dense and kernel polynomials are compared, and the "
                              "sides of the kernel-polynomial growth (default 60:50,100,200)")

@@ -123,6 +123,10 @@ def _interaction_lines(i: InteractionInfo | None) -> list[str]:
     lines.append(f"  filling      centre: up {i.filling_centre['up']:.4f}, down {i.filling_centre['down']:.4f}; "
                  f"half of the centre value reached at up {at(half['up'])}, down {at(half['down'])}, "
                  f"background {at(half['background'])} from the boundary")
+    link = i.bulk_link
+    if link and "bulk_levels" in link:
+        lines.append(f"  bulk         the centre fills {link['centre_levels']}; the lattice bulk Hartree-Fock at the "
+                     f"same parameters fills {link['bulk_levels']}" + ("" if link["agree"] else "  <- they differ"))
     lines.append(f"  edge order   bottom: {_modes_text(main.bottom.order)}")
     lines.append(f"               top:    {_modes_text(main.top.order)}")
     if i.scan:

@@ -40,10 +40,13 @@ exp(-i k D)``: two FFTs along ``k`` and one elementwise product, cost
 ring; the separations ``D`` are taken as the nearest images,
 ``-N_k/2 < D <= N_k/2``.
 
-Self-consistency. The variable is the real-space density matrix ``G_s(D)``;
-the residual is ``G_out - G_in``. Linear mixing or Pulay/Anderson (DIIS)
-mixing of the last iterates; converged when the largest element of the
-residual is below ``tol``. Occupations at zero temperature (the lowest
+Self-consistency. The variable is the real-space density matrix ``G_s(D)``
+(its independent half, ``D = 0 .. N_k/2``); the residual is ``G_out - G_in``.
+Linear mixing or Pulay/Anderson (DIIS) mixing over the last residuals, kept
+in single precision without the iterates
+(:class:`topoedge.solvers.mixing.LeanAnderson`), with energy descent by
+optimal damping where the extrapolation stalls (:meth:`HartreeFockRibbon.solve`);
+converged when the largest element of the residual is below ``tol``. Occupations at zero temperature (the lowest
 ``N`` states over both spins and all ``k``; a fractional last level shares
 its charge) or Fermi-Dirac at ``temperature``, with the electron number
 fixed to the background charge.
@@ -74,7 +77,6 @@ __all__ = ["HartreeFockRibbon", "HFResult", "START_STATES"]
 #: Starting states of the self-consistent loop (see :meth:`HartreeFockRibbon.initial`).
 START_STATES = ("unpolarised", "polarised", "edge", "random")
 from .coulomb import Interaction, line_kernel, pair_kernel
-from .mixing import Pulay
 
 
 @dataclass(frozen=True, eq=False)
@@ -128,6 +130,18 @@ class HFResult:
     def electrons(self) -> float:
         """Electrons per cell (both spins)."""
         return float(self.density.sum())
+
+
+def _why_not(energies: list, descent: bool) -> str:
+    """Why a loop stopped short, from its energies: still descending slowly, or oscillating."""
+    last = np.asarray(energies[-20:])
+    if descent and last.size > 2 and np.all(np.diff(last) <= 1e-12):
+        return (f"the energy still falls ({(last[0] - last[-1]) / (last.size - 1):.1e} t per cell per "
+                "iteration in energy descent): a slow mode, such as a spin domain wall drifting; more "
+                "iterations (interaction.max_iter) let it settle")
+    spread = float(last.max() - last.min()) if last.size else 0.0
+    return (f"the energy oscillates within {spread:.1e} t per cell"
+            + (" even in energy descent" if descent else "") + ": states of nearly equal energy compete")
 
 
 class HartreeFockRibbon:
@@ -330,9 +344,21 @@ class HartreeFockRibbon:
         return g
 
     # ------------------------------------------------------------ loop
+    def pack(self, g: np.ndarray) -> np.ndarray:
+        """The independent half of ``G_s(D)``: ``D = 0 .. N_k/2`` (``G(-D) = G(D)^dagger``)."""
+        return g[:, :self.nk // 2 + 1]
+
+    def unpack(self, x: np.ndarray) -> np.ndarray:
+        """``G_s(D)`` for every ``D`` (FFT order) from its half :meth:`pack`."""
+        half = self.nk // 2
+        g = np.empty((2, self.nk, self.width, self.width), dtype=complex)
+        g[:, :half + 1] = x
+        g[:, half + 1:] = np.conj(np.swapaxes(x[:, 1:half][:, ::-1], -1, -2))
+        return g
+
     def solve(self, start: str | np.ndarray = "unpolarised", *, mixing: str = "diis", alpha: float = 0.3,
               history: int = 8, tol: float = 1e-6, max_iter: int = 300, seed: int = 0,
-              callback=None) -> HFResult:
+              patience: int = 12, callback=None) -> HFResult:
         """Iterate to self-consistency.
 
         Parameters
@@ -341,8 +367,10 @@ class HartreeFockRibbon:
             A name of :data:`START_STATES` or a density matrix ``G_s(D)``
             (e.g. :attr:`HFResult.density_matrix` of a stopped run).
         mixing : {"diis", "linear"}
-            Pulay/Anderson extrapolation over the last ``history`` iterates,
-            or plain linear mixing ``G <- G + alpha (G_out - G)``.
+            Pulay/Anderson extrapolation over the last ``history`` residuals
+            (:class:`topoedge.solvers.mixing.LeanAnderson`: the residuals in
+            single precision, the iterates never stored), or plain linear
+            mixing ``G <- G + alpha (G_out - G)``.
         alpha : float
             Mixing weight of the new residual (0 < alpha <= 1).
         history : int
@@ -352,6 +380,9 @@ class HartreeFockRibbon:
         max_iter : int
         seed : int
             Seed of the ``random`` start.
+        patience : int
+            Iterations without halving the smallest residual after which the
+            extrapolation gives way to energy descent (see Notes).
         callback : callable, optional
             Called as ``callback(iteration, residual, energy, g)`` after each step.
 
@@ -359,12 +390,33 @@ class HartreeFockRibbon:
         -------
         HFResult
             Not converged after ``max_iter`` iterations: ``converged`` is
-            False and ``message`` says so; the last state is kept.
+            False and ``message`` says so (with the smallest residual
+            reached and whether the energy descent was on); the last state
+            is kept. ``history["events"]`` lists the switches between
+            extrapolation and descent with their iterations.
+
+        Notes
+        -----
+        Energy descent (optimal damping): near level crossings the
+        extrapolation can oscillate between states. When the residual has
+        not halved for ``patience`` iterations, every step moves along the
+        line from the current density matrix ``G`` to the aufbau one
+        ``G_out`` of its Hamiltonian, ``G + l (G_out - G)``, by the ``l`` in
+        [0, 1] that minimises the Hartree-Fock energy on that line (a
+        quadratic in ``l``, known from the Fock and Hartree terms of both
+        ends, which are linear in ``G``: no extra Fock build). The energy
+        of the iterates then never rises. Once the residual has fallen
+        tenfold the extrapolation resumes with a fresh history.
 
         References
         ----------
         .. [1] P. Pulay, Chem. Phys. Lett. 73, 393 (1980).
+        .. [2] E. Cances and C. Le Bris, "Can we outperform the DIIS approach
+           for electronic structure calculations?", Int. J. Quantum Chem.
+           79, 82 (2000) (optimal damping; from memory).
         """
+        from .mixing import LeanAnderson
+
         if mixing not in ("diis", "linear"):
             raise ValueError(f"mixing: got {mixing!r}; expected 'diis' or 'linear'")
         if not 0 < alpha <= 1:
@@ -378,14 +430,18 @@ class HartreeFockRibbon:
         if abs(held - self.electrons) > 1e-6 * max(1.0, self.electrons):
             raise ValueError(f"start density matrix: holds {held:.6g} electrons per cell against a background "
                              f"of {self.electrons:.6g}; expected a neutral state (the same background)")
-        pulay = Pulay(history)
-        residuals, energies = [], []
+        mixer = LeanAnderson(history)
+        residuals, energies, events = [], [], []
         converged = False
+        descent = False                      # DIIS first; optimal damping (energy descent) once it stalls
+        x = np.array(self.pack(g))
+        best = {"residual": np.inf, "at": 0}
+        idx = np.arange(self.width)
+        h, vh, f = self.hamiltonian(g)
         for it in range(1, max_iter + 1):
-            h, vh, f = self.hamiltonian(g)
             energies.append(self.energy(g, vh, f))
             w, _, _, mu, g_out = self.solve_fixed(h)
-            r = g_out - g
+            r = self.pack(g_out) - x
             res = float(np.abs(r).max())
             residuals.append(res)
             if callback is not None:
@@ -394,22 +450,50 @@ class HartreeFockRibbon:
                 converged = True
                 g = g_out
                 break
-            if mixing == "linear":
-                g = g + alpha * r
+            if res < 0.5 * best["residual"]:
+                best.update(residual=res, at=it)
+            if not descent and it - best["at"] >= patience and mixing == "diis":
+                descent, stalled_at = True, res
+                events.append((it, "stalled: energy descent by optimal damping"))
+            elif descent and res < 0.1 * stalled_at:
+                descent = False          # close enough for the extrapolation again
+                best.update(residual=res, at=it)
+                mixer.reset()
+                events.append((it, "back to DIIS"))
+            if descent:
+                # the line g + l (g_out - g): the energy is quadratic in l; take its minimum in [0, 1]
+                f_out = self.fock(g_out)
+                vh_out = self.hartree(self.density_of(g_out))
+                dp = np.fft.fft(g_out - g, axis=1)
+                slope = np.real(np.einsum("skij,skji->", dp, h)) / self.nk
+                dn = (self.density_of(g_out) - self.density_of(g)).sum(axis=0)
+                curvature = np.real(np.einsum("skij,skji->", dp, f_out - f)) / self.nk + float(dn @ (vh_out - vh))
+                step = 1.0 if curvature <= 0 else float(np.clip(-slope / curvature, 0.0, 1.0))
+                if step == 0.0:
+                    step = 0.05          # at a stationary point of the line that is not self-consistent
+                g = g + step * (g_out - g)
+                f = f + step * (f_out - f)
+                vh = vh + step * (vh_out - vh)
+                h = self.h0 + f
+                h[..., idx, idx] += vh
+                x = self.pack(g)
                 continue
-            g = pulay.step(g, r, alpha)
-        h, vh, f = self.hamiltonian(g)
+            x = mixer.step(x, r, alpha) if mixing == "diis" else x + alpha * r
+            g = self.unpack(x)
+            h, vh, f = self.hamiltonian(g)
+        h, vh, f = self.hamiltonian(g if converged else self.unpack(x))
+        g = g if converged else self.unpack(x)
         w, _, _, mu, _ = self.solve_fixed(h)
         message = (f"converged in {it} iterations (max |dG| = {residuals[-1]:.2e} < {tol:g})" if converged else
-                   f"not converged after {max_iter} iterations: max |dG| = {residuals[-1]:.2e} "
-                   f"(tolerance {tol:g}); continue from density_matrix")
+                   f"not converged after {max_iter} iterations: max |dG| = {residuals[-1]:.2e}, smallest "
+                   f"{min(residuals):.2e} (tolerance {tol:g}); " + _why_not(energies, descent)
+                   + "; continue from density_matrix")
         return HFResult(
             start=name, converged=converged, iterations=it, message=message, energies=w, k=self.k,
             density=self.density_of(g), background=self.background, hartree=vh, fock=f,
             density_matrix=g, mu=mu, energy=self.energy(g, vh, f),
-            history={"residual": residuals, "energy": energies},
+            history={"residual": residuals, "energy": energies, "events": events},
         )
-
 
     def solve_all(self, starts=START_STATES, **options) -> tuple[HFResult | None, tuple[HFResult, ...]]:
         """Solve from several starting states; keep the lowest converged energy.

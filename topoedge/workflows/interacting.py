@@ -151,18 +151,21 @@ def choose_k_points(electrons: float, magnetic_length: float, *, given: int | No
 def memory_estimate_interacting(scenario: Scenario) -> tuple[str, float, str]:
     """Upper bound (bytes) of the self-consistent loop, with the keys that shrink it.
 
-    Per spin and momentum a W x W density matrix; the loop holds the input,
-    the output, the residual and ``history`` pairs of them for the mixing
-    (complex128). ``N_k`` is ``interaction.k_points`` or, when the run
-    chooses it, twice its smallest choice (:func:`choose_k_points`).
+    Per spin and momentum a W x W density matrix (complex128); the loop holds
+    five of them (the input, the output, the Hamiltonian, its Fock part and
+    the eigenvectors) and the mixing half of one (the independent half of
+    ``G(D)``) plus ``history`` residuals of that half in single precision (a
+    quarter each; :class:`topoedge.solvers.mixing.LeanAnderson`). ``N_k`` is
+    ``interaction.k_points`` or, when the run chooses it, twice its smallest
+    choice (:func:`choose_k_points`).
     """
     cfg, width = scenario.interaction, scenario.ribbon.width
     phi = abs(float(scenario.lattice.flux)) or 1.0
     least = fewest_k_points(1.0 / math.sqrt(2 * math.pi * phi))
     nk = cfg.k_points if cfg.k_points is not None else 2 * least
-    copies = 4 + 2 * (cfg.history if cfg.mixing == "diis" else 0)
+    copies = 5 + (0.5 + 0.25 * cfg.history if cfg.mixing == "diis" else 0)
     need = copies * 2 * nk * width * width * 16
-    return (f"the self-consistent loop ({nk} momenta x {width} rows x 2 spins, {copies} density matrices "
+    return (f"the self-consistent loop ({nk} momenta x {width} rows x 2 spins, {copies:g} density matrices "
             "each)", need, "expected a smaller ribbon.width, fewer interaction.k_points or a shorter "
             "interaction.history")
 
@@ -388,6 +391,16 @@ def run_interacting(scenario: Scenario | Model, *, restart: dict | None = None, 
             spec = ribbon_spectrum(ham, k_grid(scenario.spectrum.k_points), window=window, solver="dense",
                                    progress=stage)
     info = interaction_summary(scenario, run, gap)
+    if main.best is not None and info.filling_centre is not None:
+        from .levels_lattice import bulk_answer
+
+        with as_progress(progress).stage("bulk: the lattice's filled levels for the centre"):
+            link = bulk_answer(scenario, interaction, info.filling_centre)
+        info = replace(info, bulk_link=link)
+        if link.get("agree") is False:
+            warnings.append(f"the ribbon's centre fills {link['centre_levels']}, the bulk Hartree-Fock at the "
+                            f"same parameters {link['bulk_levels']}: the ribbon (its width, its start) holds "
+                            "another bulk state than the lowest")
     if main.best is not None:
         summary = summarize(scenario, spec, hartree, chern=chern, refined=refined, ef=ef, gap=gap, edges=edges,
                             seconds=time.perf_counter() - start_time, given=given, units=units,

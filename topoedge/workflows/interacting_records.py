@@ -276,6 +276,9 @@ class InteractionInfo:
     scan : tuple of WidthSolution
         The background-width scan (``interaction.scan_widths``).
     reconstruction : Reconstruction or None
+    bulk_link : dict or None
+        The state in the ribbon's centre beside the lattice bulk's answer
+        (:func:`topoedge.workflows.levels_lattice.bulk_answer`).
         What the scan says about edge reconstruction.
     """
 
@@ -299,6 +302,7 @@ class InteractionInfo:
     chirality_equals_chern: bool | None = None
     scan: tuple[WidthSolution, ...] = ()
     reconstruction: Reconstruction | None = None
+    bulk_link: Mapping | None = None
 
     @property
     def converged(self) -> bool:
@@ -315,7 +319,8 @@ class InteractionInfo:
                         "hartree_centre_over_coulomb_energy": self.hartree_centre_over_coulomb_energy,
                         "filling_centre": dict(self.filling_centre),
                         "half_filling_distance_a": dict(self.half_filling_distance_a),
-                        "chirality_equals_chern": self.chirality_equals_chern})
+                        "chirality_equals_chern": self.chirality_equals_chern,
+                        "bulk_link": None if self.bulk_link is None else dict(self.bulk_link)})
         if self.scan:
             out["scan"] = [s.to_dict() for s in self.scan]
             out["reconstruction"] = self.reconstruction.to_dict() if self.reconstruction is not None else None

@@ -27,7 +27,7 @@ from ..scenario import ConfigError, Scenario
 from ..solvers.bulk_hf import BulkHartreeFock, smallest_grid
 from ..util.budget import require
 
-__all__ = ["LatticeLevels", "lattice_levels", "check_lattice_grid", "lattice_supported", "GRID_LENGTHS",
+__all__ = ["LatticeLevels", "lattice_levels", "check_lattice_grid", "lattice_supported", "GRID_LENGTHS", "bulk_answer",
            "default_lengths"]
 
 #: Magnetic lengths the momentum torus must span in both directions (fewer are refused).
@@ -229,3 +229,39 @@ def _secant(solve_all, *, bands_pair, lo: float, hi: float, zeeman: float, cyclo
         if abs(x1 - x0) < tol * max(1.0, abs(x1)):
             break
     return float(x1)
+
+
+def bulk_answer(s: Scenario, interaction, centre: dict) -> dict:
+    """The lattice bulk's ground state beside the state a self-consistent ribbon holds in its centre.
+
+    ``centre`` is the filling of each spin at the ribbon's centre (Landau
+    levels, ``{"up": nu_up, "down": nu_down}``). Every candidate of the same
+    total filling is solved by bulk Hartree-Fock with the ribbon's flux,
+    Zeeman splitting and interaction (:func:`default_lengths` torus); the
+    lowest is the bulk's answer. ``agree`` says whether the ribbon's centre
+    fills as many levels of each spin as the bulk's answer.
+    """
+    from fractions import Fraction
+
+    from ..solvers.landau_exchange import candidate_sets, exchange_matrix
+    from ..systems.harper import HarperCell
+
+    flux = Fraction(s.lattice.flux)
+    p = abs(flux.numerator)
+    filling = round(centre["up"] + centre["down"])
+    counts = {spin: round(centre[spin]) for spin in ("up", "down")}
+    label = ",".join([f"{n}up" for n in range(counts["up"])] + [f"{n}down" for n in range(counts["down"])])
+    if filling < 1 or abs(centre["up"] + centre["down"] - filling) > 0.05:
+        return {"centre_filling": dict(centre), "skipped": "the centre is not at an integer filling"}
+    sets = candidate_sets(filling, exchange_matrix(filling + 2))
+    solver = BulkHartreeFock(HarperCell(flux, onsite=s.lattice.onsite, zeeman=s.spin.zeeman, spin=True),
+                             interaction, smallest_grid(flux, default_lengths(filling)))
+    results = [solver.solve({spin: sum(lv.spin == spin for lv in c.levels) * p for spin in ("up", "down")})
+               for c in sets]
+    order = sorted(range(len(sets)), key=lambda i: (round(results[i].energy_per_flux, 9), -sets[i].polarisation))
+    best = sets[order[0]]
+    best_counts = {spin: sum(lv.spin == spin for lv in best.levels) for spin in ("up", "down")}
+    return {"centre_filling": dict(centre), "centre_levels": label, "bulk_levels": best.label,
+            "agree": best_counts == counts, "grid": list(solver.grid),
+            "candidates": [{"levels": c.label, "energy_t_per_flux": r.energy_per_flux, "converged": r.converged}
+                           for c, r in zip(sets, results)]}
