@@ -142,7 +142,7 @@ class InteractionConfig:
     alpha: float = 0.3
     history: int = 8
     tol: float = 1e-7
-    max_iter: int = 300
+    max_iter: int = 1000
     starts: tuple[str, ...] = ("polarised", "edge", "unpolarised")
     scan_widths: tuple[float, ...] = ()
 

@@ -357,7 +357,7 @@ class HartreeFockRibbon:
         return g
 
     def solve(self, start: str | np.ndarray = "unpolarised", *, mixing: str = "diis", alpha: float = 0.3,
-              history: int = 8, tol: float = 1e-6, max_iter: int = 300, seed: int = 0,
+              history: int = 8, tol: float = 1e-6, max_iter: int = 1000, seed: int = 0,
               patience: int = 12, callback=None) -> HFResult:
         """Iterate to self-consistency.
 
