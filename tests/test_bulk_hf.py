@@ -128,3 +128,20 @@ def test_bad_arguments():
         solver.solve({"up": 9, "down": 0})
     with pytest.raises(ValueError, match="start: got 'x'"):
         solver.solve({"up": 1, "down": 0}, start="x")
+
+
+@pytest.mark.parametrize("lam", [0.5, 3.5])
+def test_random_starts_with_free_spins_converge_and_never_beat_the_best_candidate(lam):
+    # nu = 3 at flux 1/20 with a small Zeeman splitting: random starts whose spins share the bands freely
+    # (the aufbau over both spins at every momentum) all converge (energy descent where DIIS stalls) and
+    # settle in self-consistent states no lower than the lowest candidate of the level ordering; at
+    # E_C / hbar omega_c = 3.5 they stay in partly polarised states above the fully polarised candidate,
+    # which is why the candidates are enumerated rather than left to the loop.
+    hw = 4 * math.pi / 20
+    solver, _ = _solver(20, lam, zeeman=0.02 * hw)
+    best = min(solver.solve(_bands(s)).energy_per_flux for s in candidate_sets(3, exchange_matrix(5)))
+    for seed in range(3):
+        result = solver.solve(3, start="random", seed=seed)
+        assert result.converged, (seed, result.message)
+        assert result.energy_per_flux >= best - 1e-9
+        assert result.bands["up"] + result.bands["down"] == pytest.approx(3.0, abs=1e-9)

@@ -78,6 +78,9 @@ def test_the_lattice_part_agrees_with_the_continuum_at_flux_1_40():
     assert (t["before"], t["after"]) == ("0up,0down,1up", "0up,1up,2up")
     assert t["coulomb_ratio"] == pytest.approx(256 / (81 * ROOT), rel=0.05)
     assert lat["samples"]["all_converged"] and not result.warnings
+    # two random starts with free spins, reported beside the candidates, none below the lowest
+    assert len(lat["random_starts"]) == 2
+    assert all(f["converged"] and f["above_ground"] >= -1e-9 for f in lat["random_starts"])
 
 
 @pytest.mark.slow

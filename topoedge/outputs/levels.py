@@ -151,6 +151,12 @@ def format_levels(result, out: Path) -> str:
         for c in ld["candidates"]:
             lines.append(f"               {c['levels']:<28s} {c['interaction_ec']:8.4f} / {c['continuum_interaction_ec']:8.4f}"
                          f"   {c['iterations']}{'' if c['converged'] else ' (not converged)'}")
+        for f in ld["random_starts"]:
+            lines.append(f"               random start {f['seed']} (spins free): "
+                         + (f"{f['levels_found'] or '-'} (bands up {f['bands_per_spin']['up']:.3g}, down "
+                            f"{f['bands_per_spin']['down']:.3g}), {f['above_ground']:+.4f} hbar omega_c above the "
+                            f"lowest candidate, {f['iterations']} iterations" if f["converged"]
+                            else f"not converged in {f['iterations']} iterations"))
         for t in ld["transitions"]:
             lines.append(f"               transition at E_C / hbar omega_c = {t['coulomb_ratio']:.4f}: {t['before']} -> "
                          f"{t['after']}")

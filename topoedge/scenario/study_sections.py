@@ -176,6 +176,10 @@ class LevelsConfig:
         ``lattice_points`` interaction strengths up to ``coulomb_max``.
     lattice_points : int
         Interaction strengths of the lattice part.
+    random_starts : int
+        Random starts of the lattice part at the scenario's point with the
+        spins free to share the bands (what the loop finds by itself,
+        reported beside the candidates).
     grid : tuple of int
         ``[N1, N2]`` momenta of the lattice part (the torus is ``N1`` cells
         by ``N2`` magnetic cells); empty: the smallest that spans six magnetic
@@ -191,4 +195,5 @@ class LevelsConfig:
     max_filling: int = 6
     lattice: bool = True
     lattice_points: int = 10
+    random_starts: int = 2
     grid: tuple[int, ...] = ()

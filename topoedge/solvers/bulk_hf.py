@@ -106,6 +106,7 @@ class BulkHFResult:
     density: np.ndarray          # (q,) electrons per site, both spins
     band_energies: dict          # spin -> (N1, N2, q) Hartree-Fock bands
     projectors: dict = field(default_factory=dict, repr=False)   # spin -> (N1, N2, q, q), for warm starts
+    occupied: dict = field(default_factory=dict, repr=False)     # spin -> (N1, N2, q) bool, the filled bands
     history: dict = field(default_factory=dict)
 
     @property
@@ -120,8 +121,8 @@ class BulkHFResult:
     @property
     def gap(self) -> float:
         """Lowest empty minus highest filled Hartree-Fock level over both spins and all momenta (t)."""
-        filled = max(e[..., :n].max() for s, e in self.band_energies.items() if (n := self.bands[s]) > 0)
-        empty = min(e[..., n:].min() for s, e in self.band_energies.items() if (n := self.bands[s]) < e.shape[-1])
+        filled = max(e[self.occupied[s]].max() for s, e in self.band_energies.items() if self.occupied[s].any())
+        empty = min(e[~self.occupied[s]].min() for s, e in self.band_energies.items() if not self.occupied[s].all())
         return float(empty - filled)
 
     def filled_levels(self) -> tuple[tuple[int, str], ...]:
@@ -203,15 +204,24 @@ class BulkHartreeFock:
         """``V_H(y)`` of the density's deviation from its mean (the background)."""
         return self.hartree_kernel @ (density - density.mean())
 
-    def occupy(self, h: dict, bands: dict) -> tuple[dict, dict]:
-        """The lowest ``bands[s]`` bands of each spin at every momentum: projectors and band energies."""
-        projectors, energies = {}, {}
-        for spin, hs in h.items():
-            w, v = eigh_stack(hs)
-            occ = v[..., :bands[spin]]
-            projectors[spin] = occ @ np.conj(np.swapaxes(occ, -1, -2))
-            energies[spin] = w
-        return projectors, energies
+    def occupy(self, h: dict, bands) -> tuple[dict, dict, dict]:
+        """Projectors, band energies and filled-band masks of the occupation rule.
+
+        ``bands`` a dict: the lowest ``bands[s]`` bands of each spin at every
+        momentum; an int: the lowest ``bands`` of both spins together at every
+        momentum (the spins free to share them).
+        """
+        solved = {spin: eigh_stack(hs) for spin, hs in h.items()}
+        if isinstance(bands, dict):
+            masks = {spin: np.broadcast_to(np.arange(self.q) < bands[spin], w.shape)
+                     for spin, (w, _) in solved.items()}
+        else:
+            both = np.sort(np.concatenate([w for w, _ in solved.values()], axis=-1), axis=-1)
+            level = both[..., bands - 1:bands] if bands > 0 else np.full(both.shape[:-1] + (1,), -np.inf)
+            masks = {spin: w <= level for spin, (w, _) in solved.items()}
+        projectors = {spin: (v * masks[spin][..., None, :]) @ np.conj(np.swapaxes(v, -1, -2))
+                      for spin, (_, v) in solved.items()}
+        return projectors, {spin: w for spin, (w, _) in solved.items()}, masks
 
     def hamiltonian(self, projectors: dict) -> tuple[dict, np.ndarray, dict]:
         """``H_s(k)``, ``V_H`` and ``F_s(k)`` of a set of projectors."""
@@ -239,32 +249,50 @@ class BulkHartreeFock:
         return out
 
     # ------------------------------------------------------------------ loop
-    def solve(self, bands: dict, *, start: str | dict = "levels", seed: int = 0, tol: float = 1e-8,
-              max_iter: int = 200, history: int = 6, alpha: float = 0.5) -> BulkHFResult:
+    def solve(self, bands, *, start: str | dict = "levels", seed: int = 0, tol: float = 1e-8,
+              max_iter: int = 300, history: int = 6, alpha: float = 0.5, patience: int = 12) -> BulkHFResult:
         """Iterate to self-consistency with ``bands[s]`` occupied bands of spin ``s``.
 
         Parameters
         ----------
-        bands : dict
-            ``{"up": m_up, "down": m_down}`` bands per momentum.
+        bands : dict or int
+            ``{"up": m_up, "down": m_down}`` bands per momentum (a candidate
+            of the level ordering), or the total number of bands per momentum
+            with the spins free to share them (the aufbau over both spins at
+            every momentum, from a ``random`` start: which candidate, if any,
+            the loop finds by itself).
         start : {"levels", "random"} or dict
             The non-interacting bands, those of a Hamiltonian with a random
-            Hermitian term of strength 0.3 t per momentum (seed ``seed``), or
-            the projectors of an earlier solution (:attr:`BulkHFResult.projectors`,
+            Hermitian term of strength 0.3 t per momentum and (free spins) a
+            random spin splitting of up to 0.3 t (seed ``seed``), or the
+            projectors of an earlier solution (:attr:`BulkHFResult.projectors`,
             e.g. at a nearby interaction strength).
         tol : float
             Converged when the largest change of the projectors is below it.
         history, alpha
             Pulay depth and mixing weight of the residual.
+        patience : int
+            Iterations without halving the smallest residual after which the
+            loop descends in energy by optimal damping (the line from ``P``
+            to the aufbau projectors of its Hamiltonian, the step that
+            minimises the energy there: E. Cances and C. Le Bris,
+            Int. J. Quantum Chem. 79, 82 (2000)), back to DIIS once the
+            residual has fallen tenfold.
 
         Returns
         -------
         BulkHFResult
         """
-        if set(bands) != set(self.h0) or any(not 0 <= m <= self.q for m in bands.values()):
+        free = not isinstance(bands, dict)
+        if free and not (isinstance(bands, (int, np.integer)) and 0 <= bands <= 2 * self.q):
+            raise ValueError(f"bands: got {bands!r}; expected 0 .. {2 * self.q} bands per momentum, or a dict "
+                             "of bands per spin")
+        if not free and (set(bands) != set(self.h0) or any(not 0 <= m <= self.q for m in bands.values())):
             raise ValueError(f"bands per spin: got {bands}; expected 0 .. {self.q} bands for each of "
                              f"{sorted(self.h0)}")
         h = self.h0
+        if isinstance(start, dict) and free:
+            raise ValueError("start: projectors need bands per spin; expected 'levels' or 'random' with free spins")
         if isinstance(start, dict):
             if set(start) != set(self.h0) or any(np.shape(start[s]) != self.h0[s].shape for s in start):
                 raise ValueError("start: projectors of another lattice or grid; expected those of this solver")
@@ -273,9 +301,10 @@ class BulkHartreeFock:
         elif start == "random":
             rng = np.random.default_rng(seed)
             h = {}
-            for spin, h0 in self.h0.items():
+            split = rng.uniform(-0.3, 0.3) if free else 0.0
+            for sign, (spin, h0) in zip((-1, 1), sorted(self.h0.items())):
                 noise = rng.normal(size=h0.shape) + 1j * rng.normal(size=h0.shape)
-                h[spin] = h0 + 0.15 * (noise + np.conj(np.swapaxes(noise, -1, -2)))
+                h[spin] = h0 + 0.15 * (noise + np.conj(np.swapaxes(noise, -1, -2))) + sign * split * np.eye(self.q)
         elif start != "levels":
             raise ValueError(f"start: got {start!r}; expected 'levels' or 'random'")
         projectors = dict(start) if isinstance(start, dict) else self.occupy(h, bands)[0]
@@ -283,30 +312,51 @@ class BulkHartreeFock:
         pack = lambda ps: np.stack([ps[s] for s in spins])            # noqa: E731
         unpack = lambda x: {s: x[i] for i, s in enumerate(spins)}     # noqa: E731
         pulay = Pulay(history)
-        residuals, totals = [], []
+        residuals, totals, events = [], [], []
         x = pack(projectors)
         converged = False
+        best, descent = (np.inf, 0), False
         for it in range(1, max_iter + 1):
             current = unpack(x)
             hk, vh, f = self.hamiltonian(current)
             totals.append(sum(self.energies(current, vh, f)))
-            out, band_energies = self.occupy(hk, bands)
+            out, band_energies, _ = self.occupy(hk, bands)
             r = pack(out) - x
             residual = float(np.abs(r).max())
             residuals.append(residual)
             if residual < tol:
                 converged, x = True, pack(out)
                 break
+            if residual < 0.5 * best[0]:
+                best = (residual, it)
+            if not descent and it - best[1] >= patience:
+                descent, stalled = True, residual
+                events.append((it, "stalled: energy descent by optimal damping"))
+            elif descent and residual < 0.1 * stalled:
+                descent, best = False, (residual, it)
+                pulay = Pulay(history)
+                events.append((it, "back to DIIS"))
+            if descent:
+                # the energy on the line P + l (P_out - P) is quadratic in l (Hartree and Fock are linear in P)
+                _, vh_out, f_out = self.hamiltonian(out)
+                slope = sum(np.einsum("ijab,ijba->", out[s] - current[s], hk[s]).real for s in spins) / self.n
+                dn = self.density(out) - self.density(current)
+                curvature = (sum(np.einsum("ijab,ijba->", out[s] - current[s], f_out[s] - f[s]).real
+                                 for s in spins) / self.n + float((dn - dn.mean()) @ (vh_out - vh)))
+                step = 1.0 if curvature <= 0 else float(np.clip(-slope / curvature, 0.05, 1.0))
+                x = x + step * r
+                continue
             x = pulay.step(x, r, alpha)
         final = unpack(x)
         hk, vh, f = self.hamiltonian(final)
-        _, band_energies = self.occupy(hk, bands)
+        _, band_energies, masks = self.occupy(hk, bands)
         kinetic, hartree, exchange = self.energies(final, vh, f)
+        held = {spin: float(np.einsum("ijaa->", final[spin]).real / self.n) for spin in final}
         message = (f"converged in {it} iterations (max |dP| = {residuals[-1]:.1e} < {tol:g})" if converged
                    else f"not converged after {max_iter} iterations: max |dP| = {residuals[-1]:.1e}")
-        return BulkHFResult(bands=dict(bands), converged=converged, iterations=it, message=message,
+        return BulkHFResult(bands=dict(bands) if not free else held, converged=converged, iterations=it, message=message,
                             energy=kinetic + hartree + exchange, kinetic=kinetic, hartree=hartree,
                             exchange=exchange, flux_quanta=self.p, residual=residuals[-1],
                             levels=self.level_weights(final), density=self.density(final),
-                            band_energies=band_energies, projectors=final,
-                            history={"residual": residuals, "energy": totals})
+                            band_energies=band_energies, projectors=final, occupied=masks,
+                            history={"residual": residuals, "energy": totals, "events": events})

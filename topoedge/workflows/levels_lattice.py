@@ -63,6 +63,7 @@ class LatticeLevels:
     transitions: tuple                   # ((lambda, before, after), ...) at the scenario's z
     diagram: np.ndarray                  # (Z, L) ground-state index over the diagram's z axis and lambdas
     seconds: float
+    free_starts: tuple = ()              # random starts with the spins free: what each found
 
     def to_dict(self, sets, cyclotron_mev: float | None) -> dict:
         return {
@@ -79,6 +80,7 @@ class LatticeLevels:
                            for i, s in enumerate(sets)],
             "transitions": [{"coulomb_ratio": float(w), "before": sets[i].label, "after": sets[j].label}
                             for w, i, j in self.transitions],
+            "random_starts": list(self.free_starts),
             "samples": {"coulomb_ratio": [float(x) for x in self.lambdas],
                         "energies": {s.label: [float(e) for e in self.energies[i]] for i, s in enumerate(sets)},
                         "all_converged": bool(self.converged.all()),
@@ -199,6 +201,20 @@ def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, sa
                                     zeeman=point.zeeman * (zeeman_slope[b] - zeeman_slope[a]),
                                     cyclotron_t=cyclotron_t), a, b))
     best_result = results[ground]
+    # random starts with the spins free to share the bands (with the scenario's Zeeman splitting, which
+    # then takes part in the aufbau): which state the loop finds by itself
+    free = []
+    if cfg.random_starts:
+        zeeman_t = point.zeeman * cyclotron_t
+        u = point.coulomb * cyclotron_t * lb
+        solver = BulkHartreeFock(HarperCell(flux, onsite=s.lattice.onsite, zeeman=zeeman_t, spin=True),
+                                 Interaction(u, ratio * u, base.gate_distance), grid)
+        for seed in range(cfg.random_starts):
+            r = solver.solve(point.filling * abs(flux.numerator), start="random", seed=seed)
+            free.append({"seed": seed, "converged": r.converged, "iterations": r.iterations,
+                         "levels_found": ",".join(f"{n}{spin}" for n, spin in r.filled_levels()),
+                         "bands_per_spin": {k: round(v, 6) for k, v in r.bands.items()},
+                         "above_ground": float(r.energy_per_flux / cyclotron_t - point_energies[ground])})
     return LatticeLevels(
         flux=flux, grid=grid, coulomb_t=point.coulomb * cyclotron_t * lb,
         onsite_t=ratio * point.coulomb * cyclotron_t * lb,
@@ -206,7 +222,8 @@ def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, sa
         point_energies=point_energies, point_interaction=np.array([r.interaction_per_flux / ec for r in results]),
         point_iterations=tuple(r.iterations for r in results), point_converged=tuple(r.converged for r in results),
         ground=ground, ground_levels=best_result.filled_levels(), gap=best_result.gap / cyclotron_t,
-        transitions=tuple(transitions), diagram=diagram, seconds=time.perf_counter() - start)
+        transitions=tuple(transitions), diagram=diagram, seconds=time.perf_counter() - start,
+        free_starts=tuple(free))
 
 
 def _secant(solve_all, *, bands_pair, lo: float, hi: float, zeeman: float, cyclotron_t: float,
