@@ -250,7 +250,7 @@ class BulkHartreeFock:
 
     # ------------------------------------------------------------------ loop
     def solve(self, bands, *, start: str | dict = "levels", seed: int = 0, tol: float = 1e-8,
-              max_iter: int = 300, history: int = 6, alpha: float = 0.5, patience: int = 12) -> BulkHFResult:
+              max_iter: int = 1000, history: int = 6, alpha: float = 0.5, patience: int = 12) -> BulkHFResult:
         """Iterate to self-consistency with ``bands[s]`` occupied bands of spin ``s``.
 
         Parameters
