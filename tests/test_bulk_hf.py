@@ -88,9 +88,17 @@ def _lattice_transition(q: int, first: dict, second: dict) -> float:
     ({"up": 2, "down": 1}, {"up": 3, "down": 0}, 256 / (81 * ROOT)),
 ])
 def test_lattice_transitions_approach_the_continuum(first, second, continuum):
-    deviations = [abs(_lattice_transition(q, first, second) - continuum) for q in FLUXES]
+    # Fluxes 1/20, 1/30, 1/40: at 1/12 (a/l_B = 0.72) the partly polarised nu = 3 set has a second
+    # self-consistent solution at strong interaction, another lattice state than the filled levels.
+    deviations = [abs(_lattice_transition(q, first, second) - continuum) for q in (20, 30, 40)]
     assert deviations[0] > deviations[1] > deviations[2], deviations
     assert deviations[2] < 0.05 * continuum, deviations
+    # at both ends of the secant's first step the solutions fill the levels of their candidate
+    solver, _ = _solver(40, 3.0)
+    for bands in (first, second):
+        found = solver.solve(bands).filled_levels()
+        assert sorted(s for _, s in found) == sorted(["up"] * bands["up"] + ["down"] * bands["down"])
+        assert all(n < max(bands.values()) for n, _ in found)
 
 
 def test_the_torus_converges_with_its_size():

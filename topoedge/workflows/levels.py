@@ -259,6 +259,10 @@ def levels_run(scenario: Scenario | Model, *, progress=None, diagram: bool = Tru
         if found.ground != ground:
             warnings = warnings + (f"the lattice (flux {found.flux}) fills {sets[found.ground].name}, the continuum "
                                    f"{sets[ground].name}: lattice corrections decide at this point",)
+        strays = [c["levels"] for c in found.to_dict(list(sets), None)["candidates"] if not c["fills_its_levels"]]
+        if strays:
+            warnings = warnings + (f"on the lattice the solutions of {', '.join(strays)} hold other levels than "
+                                   "their candidate's (a second self-consistent state; a coarse lattice)",)
         if not all(found.point_converged) or not found.converged.all():
             warnings = warnings + ("some lattice candidates did not converge (see lattice.candidates and "
                                    "lattice.samples in summary.json)",)

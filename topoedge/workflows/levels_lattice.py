@@ -57,6 +57,7 @@ class LatticeLevels:
     point_interaction: np.ndarray        # (S,) Hartree + exchange per flux quantum, E_C
     point_iterations: tuple
     point_converged: tuple
+    point_found: tuple                   # the filled levels each candidate's solution holds, ((n, spin), ...)
     ground: int
     ground_levels: tuple                 # the filled levels found, ((n, spin), ...)
     gap: float                           # activation gap of the ground state, hbar omega_c
@@ -76,6 +77,9 @@ class LatticeLevels:
             "candidates": [{"levels": s.label, "energy": float(self.point_energies[i]),
                             "interaction_ec": float(self.point_interaction[i]),
                             "continuum_interaction_ec": float(s.exchange),
+                            "levels_found": ",".join(f"{n}{spin}" for n, spin in self.point_found[i]),
+                            "fills_its_levels": tuple(self.point_found[i]) == tuple((lv.n, lv.spin)
+                                                                                   for lv in s.levels),
                             "iterations": int(self.point_iterations[i]), "converged": bool(self.point_converged[i])}
                            for i, s in enumerate(sets)],
             "transitions": [{"coulomb_ratio": float(w), "before": sets[i].label, "after": sets[j].label}
@@ -221,6 +225,7 @@ def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, sa
         lambdas=lambdas, energies=energies, iterations=iterations, converged=converged,
         point_energies=point_energies, point_interaction=np.array([r.interaction_per_flux / ec for r in results]),
         point_iterations=tuple(r.iterations for r in results), point_converged=tuple(r.converged for r in results),
+        point_found=tuple(r.filled_levels() for r in results),
         ground=ground, ground_levels=best_result.filled_levels(), gap=best_result.gap / cyclotron_t,
         transitions=tuple(transitions), diagram=diagram, seconds=time.perf_counter() - start,
         free_starts=tuple(free))
