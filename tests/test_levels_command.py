@@ -7,6 +7,7 @@ import math
 import subprocess
 import sys
 
+import numpy as np
 import pytest
 import scipy.constants as const
 
@@ -155,3 +156,28 @@ def test_a_sweep_can_run_the_levels_command_per_point(tmp_path):
     assert rows[3.92]["levels_lattice_ground"] == rows[3.92]["levels_ground"] == "0up,1up,2up"
     assert rows[0.56]["levels_coulomb_ratio"] == pytest.approx(0.56 / (math.sqrt(20 / (2 * math.pi)) * 4 * math.pi / 20))
     assert rows[3.92]["levels_agree"] and rows[3.92]["levels_lattice_converged"]
+
+
+def test_the_lattice_part_resumes_from_its_finished_solutions(tmp_path, monkeypatch):
+    # Every lattice solution (the point, each interaction strength, each transition, each random start) is
+    # kept the moment it is found: the same run again solves nothing, and with some of them removed (an
+    # interrupted run) it solves only those, to the same result.
+    from topoedge.solvers import bulk_hf
+    from topoedge.util.points import PointStore
+
+    model = resolve(load_scenario("nu2-spin-order", ["levels.filling=2", "levels.lattice_points=4"]))
+    first = levels_run(model, store=PointStore(tmp_path / "points"))
+    files = sorted((tmp_path / "points").glob("*.pkl"))
+    assert len(files) == 1 + 4 + len(first.lattice.transitions) + 2
+    calls = []
+    original = bulk_hf.BulkHartreeFock.solve
+    monkeypatch.setattr(bulk_hf.BulkHartreeFock, "solve", lambda self, *a, **k: calls.append(1) or original(self, *a, **k))
+    again = levels_run(model, store=PointStore(tmp_path / "points"))
+    assert calls == [] and again.to_dict()["lattice"]["candidates"] == first.to_dict()["lattice"]["candidates"]
+    for f in files:
+        if f.name.startswith("lambda"):
+            f.unlink()
+            break
+    third = levels_run(model, store=PointStore(tmp_path / "points"))
+    assert len(calls) == len(first.sets)               # one interaction strength: every candidate once
+    assert np.allclose(third.lattice.energies, first.lattice.energies, atol=1e-9)

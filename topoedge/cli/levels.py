@@ -6,7 +6,7 @@ from pathlib import Path
 
 from ..scenario import DEFAULT_SCENARIO, load_scenario, resolve
 from ..util.jsonio import dumps
-from .common import Command, default_out, figure_writer, say
+from .common import Command, default_out, figure_writer, interrupted, open_points, say
 
 
 def cmd_levels(args) -> int:
@@ -23,7 +23,11 @@ def cmd_levels(args) -> int:
     from ..util.progress import Progress, progress_mode
     from ..workflows.levels import levels_run
 
-    result = levels_run(model, progress=Progress(progress_mode(quiet=args.quiet)))
+    store = open_points(args, out, "levels", model.scenario.to_dict(), what="lattice solutions")
+    try:
+        result = levels_run(model, progress=Progress(progress_mode(quiet=args.quiet)), store=store)
+    except KeyboardInterrupt:
+        return interrupted(store, what="lattice solutions")
     import matplotlib
 
     matplotlib.use("Agg")
@@ -34,6 +38,7 @@ def cmd_levels(args) -> int:
     if result.fields is not None:
         figures["gaps.png"] = figure_writer(gaps_figure, result)
     write_levels(out, result, figures, force=args.force)
+    store.clear()
     if args.json:
         print(dumps(result.to_dict(), indent=2))
     say(args, format_levels(result, out))

@@ -214,12 +214,14 @@ def check_levels(s: Scenario, units) -> tuple[ScenarioPoint, tuple[str, ...]]:
     return point, tuple(warnings)
 
 
-def levels_run(scenario: Scenario | Model, *, progress=None, diagram: bool = True) -> LevelsResult:
+def levels_run(scenario: Scenario | Model, *, progress=None, diagram: bool = True, store=None) -> LevelsResult:
     """The level-ordering diagram, the scenario's ground state and gap, and gaps against B (module notes).
 
     With ``diagram=False`` only the scenario's point is computed (continuum and
     lattice), as a point of a sweep: the diagram's axes hold the point alone,
     and there are no lattice samples along the interaction and no gaps against B.
+    ``store`` (a :class:`~topoedge.util.points.PointStore`) makes the lattice
+    part resumable (:func:`topoedge.workflows.levels_lattice.lattice_levels`).
     """
     start = time.perf_counter()
     model = resolve(scenario)
@@ -254,7 +256,8 @@ def levels_run(scenario: Scenario | Model, *, progress=None, diagram: bool = Tru
 
     note = lattice_supported(s)
     if note is None:
-        found = lattice_levels(s, units, point, list(sets), zeeman_axis, progress=progress, samples=full)
+        found = lattice_levels(s, units, point, list(sets), zeeman_axis, progress=progress, samples=full,
+                               store=store)
         extra["lattice"] = found
         if found.ground != ground:
             warnings = warnings + (f"the lattice (flux {found.flux}) fills {sets[found.ground].name}, the continuum "

@@ -131,8 +131,18 @@ def check_lattice_grid(s: Scenario, filling: int) -> tuple[int, int]:
     return grid
 
 
-def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, samples: bool = True) -> LatticeLevels:
-    """Every candidate on the lattice at the scenario's point and (``samples``) along lambda (module notes)."""
+def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, samples: bool = True,
+                   store=None) -> LatticeLevels:
+    """Every candidate on the lattice at the scenario's point and (``samples``) along lambda (module notes).
+
+    ``store`` (a :class:`~topoedge.util.points.PointStore`) keeps the point,
+    every interaction strength, every transition and every random start the
+    moment it is solved, so that the same command after an interruption
+    solves only the rest.
+    """
+    from ..util.points import PointStore
+
+    store = store if store is not None else PointStore(None)
     from fractions import Fraction
 
     from ..systems.harper import HarperCell
@@ -176,17 +186,29 @@ def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, sa
     energies = np.empty((len(sets), lambdas.size))
     iterations = np.empty((len(sets), lambdas.size), dtype=int)
     converged = np.empty((len(sets), lambdas.size), dtype=bool)
+    def summary(row) -> dict:
+        return {"energy": [r.energy_per_flux / cyclotron_t for r in row],
+                "interaction": [r.interaction_per_flux for r in row],
+                "iterations": [r.iterations for r in row], "converged": [r.converged for r in row],
+                "found": [r.filled_levels() for r in row], "gap": [r.gap for r in row]}
+
     with progress.stage(f"lattice: {len(sets)} candidates x {lambdas.size} strengths, flux {flux}, grid "
                         f"{grid[0]} x {grid[1]}", lambdas.size + 1) as stage:
-        results, _ = solve_all(point.coulomb)
+        at_point = store.load("point")
+        if at_point is None:
+            at_point = summary(solve_all(point.coulomb)[0])
+            store.save("point", at_point)
         stage.update(1)
         for j, lam in enumerate(lambdas):
-            row, _ = solve_all(lam)
-            energies[:, j] = [r.energy_per_flux / cyclotron_t for r in row]
-            iterations[:, j] = [r.iterations for r in row]
-            converged[:, j] = [r.converged for r in row]
+            row = store.load(f"lambda-{lam!r}")
+            if row is None:
+                row = summary(solve_all(lam)[0])
+                store.save(f"lambda-{lam!r}", row)
+            energies[:, j] = row["energy"]
+            iterations[:, j] = row["iterations"]
+            converged[:, j] = row["converged"]
             stage.update(1)
-    point_energies = np.array([r.energy_per_flux / cyclotron_t for r in results]) + zeeman_slope * point.zeeman
+    point_energies = np.array(at_point["energy"]) + zeeman_slope * point.zeeman
     ec = point.coulomb * cyclotron_t                                 # E_C in t
     # ties (zero Zeeman: two polarisations alike) go to the set polarised along spin up, as in the continuum
     order = np.argsort([-c.polarisation for c in sets], kind="stable")
@@ -201,10 +223,13 @@ def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, sa
     best = lowest(along)
     for j in np.nonzero(best[1:] != best[:-1])[0]:
         a, b = int(best[j]), int(best[j + 1])
-        transitions.append((_secant(solve_all, bands_pair=(a, b), lo=lambdas[j], hi=lambdas[j + 1],
-                                    zeeman=point.zeeman * (zeeman_slope[b] - zeeman_slope[a]),
-                                    cyclotron_t=cyclotron_t), a, b))
-    best_result = results[ground]
+        name = f"transition-{a}-{b}-{lambdas[j]!r}"
+        where = store.load(name)
+        if where is None:
+            where = _secant(solve_all, bands_pair=(a, b), lo=lambdas[j], hi=lambdas[j + 1],
+                            zeeman=point.zeeman * (zeeman_slope[b] - zeeman_slope[a]), cyclotron_t=cyclotron_t)
+            store.save(name, where)
+        transitions.append((where, a, b))
     # random starts with the spins free to share the bands (with the scenario's Zeeman splitting, which
     # then takes part in the aufbau): which state the loop finds by itself
     free = []
@@ -214,19 +239,24 @@ def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, sa
         solver = BulkHartreeFock(HarperCell(flux, onsite=s.lattice.onsite, zeeman=zeeman_t, spin=True),
                                  Interaction(u, ratio * u, base.gate_distance), grid)
         for seed in range(cfg.random_starts):
-            r = solver.solve(point.filling * abs(flux.numerator), start="random", seed=seed)
-            free.append({"seed": seed, "converged": r.converged, "iterations": r.iterations,
+            found = store.load(f"free-{seed}")
+            if found is None:
+                r = solver.solve(point.filling * abs(flux.numerator), start="random", seed=seed)
+                found = {"seed": seed, "converged": r.converged, "iterations": r.iterations,
                          "levels_found": ",".join(f"{n}{spin}" for n, spin in r.filled_levels()),
                          "bands_per_spin": {k: round(v, 6) for k, v in r.bands.items()},
-                         "above_ground": float(r.energy_per_flux / cyclotron_t - point_energies[ground])})
+                         "above_ground": float(r.energy_per_flux / cyclotron_t - point_energies[ground])}
+                store.save(f"free-{seed}", found)
+            free.append(found)
     return LatticeLevels(
         flux=flux, grid=grid, coulomb_t=point.coulomb * cyclotron_t * lb,
         onsite_t=ratio * point.coulomb * cyclotron_t * lb,
         lambdas=lambdas, energies=energies, iterations=iterations, converged=converged,
-        point_energies=point_energies, point_interaction=np.array([r.interaction_per_flux / ec for r in results]),
-        point_iterations=tuple(r.iterations for r in results), point_converged=tuple(r.converged for r in results),
-        point_found=tuple(r.filled_levels() for r in results),
-        ground=ground, ground_levels=best_result.filled_levels(), gap=best_result.gap / cyclotron_t,
+        point_energies=point_energies, point_interaction=np.array(at_point["interaction"]) / ec,
+        point_iterations=tuple(at_point["iterations"]), point_converged=tuple(at_point["converged"]),
+        point_found=tuple(tuple(map(tuple, f)) for f in at_point["found"]),
+        ground=ground, ground_levels=tuple(map(tuple, at_point["found"][ground])),
+        gap=at_point["gap"][ground] / cyclotron_t,
         transitions=tuple(transitions), diagram=diagram, seconds=time.perf_counter() - start,
         free_starts=tuple(free))
 
