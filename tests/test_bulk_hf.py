@@ -30,8 +30,7 @@ def _solver(q: int, lam: float, *, zeeman: float = 0.0, grid=None) -> tuple[Bulk
 
 
 def _bands(levels_set) -> dict:
-    return {"up": sum(lv.spin == "up" for lv in levels_set.levels),
-            "down": sum(lv.spin == "down" for lv in levels_set.levels)}
+    return dict(levels_set.per_spin)
 
 
 @pytest.mark.parametrize("filling", [1, 2])

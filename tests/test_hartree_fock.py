@@ -416,7 +416,8 @@ def test_the_mixing_variable_is_the_independent_half_of_the_density_matrix():
 def test_a_start_that_used_to_stall_converges_by_energy_descent():
     # nu = 2 at flux 1/40, 80 rows, E_C / hbar omega_c = 4, the 'edge' start: plain DIIS oscillated
     # (residual 7.5e-4 after 300 iterations); the loop switches to optimal damping (E. Cances and C. Le Bris,
-    # Int. J. Quantum Chem. 79, 82 (2000)) when the residual stops halving, and back to DIIS near the end.
+    # Int. J. Quantum Chem. 79, 82 (2000), cited from memory) when the residual stops halving, and back to
+    # DIIS near the end.
     import math
 
     lb, hw = math.sqrt(40 / (2 * math.pi)), 4 * math.pi / 40

@@ -69,6 +69,11 @@ def default_out(config_path: str | None) -> Path:
     return out
 
 
+def folder_of(args, kind: str) -> Path:
+    """``--out``, or ``results/<kind>-<scenario>-<date-time>``."""
+    return args.out if args.out is not None else default_out(f"{kind}-{Path(args.config or DEFAULT_SCENARIO).stem}")
+
+
 def scan_range(text: str | None, option: str, unit: str) -> tuple[float, float, int] | None:
     if text is None:
         return None
@@ -122,6 +127,15 @@ def open_points(args, out: Path, kind: str, identity, what: str = "points"):
     if earlier:
         say(args, f"topoedge {args.command}: continuing an interrupted run: {earlier} {what} from {store.folder}")
     return store
+
+
+def add_folder_arguments(parser, kind: str, section: str) -> None:
+    """The scenario, ``--out`` and ``--force`` of a command that writes one results folder of ``kind``."""
+    parser.add_argument("config", nargs="?", default=None,
+                        help="scenario TOML file or the name of a shipped scenario (default: default); " + section)
+    parser.add_argument("--out", type=Path, default=None,
+                        help=f"results folder (default: results/{kind}-<scenario>-<date-time>)")
+    parser.add_argument("--force", action="store_true", help="replace an existing results folder")
 
 
 def interrupted(store, what: str = "points") -> int:

@@ -2,11 +2,10 @@
 
 from __future__ import annotations
 
-from pathlib import Path
 
-from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario, resolve
+from ..scenario import ConfigError, load_scenario, resolve
 from ..util.jsonio import dumps
-from .common import Command, default_out, figure_writer, interrupted, open_points, say
+from .common import Command, add_folder_arguments, figure_writer, folder_of, interrupted, open_points, say
 
 
 def cmd_disorder(args) -> int:
@@ -19,7 +18,7 @@ def cmd_disorder(args) -> int:
     from ..workflows.disorder import check_disorder
 
     check_disorder(model.scenario)          # flake against l_B and size, before anything is built
-    out = args.out if args.out is not None else default_out(f"disorder-{Path(args.config or DEFAULT_SCENARIO).stem}")
+    out = folder_of(args, "disorder")
     from ..util.atomic import check_destination
 
     check_destination(out, force=args.force)
@@ -50,13 +49,7 @@ def cmd_disorder(args) -> int:
 
 def add_arguments(parser) -> None:
     """The arguments of ``topoedge disorder`` (besides ``--set``, ``--json`` and ``--quiet``)."""
-    parser.add_argument("config", nargs="?", default=None,
-                        help="scenario TOML file or the name of a shipped scenario (default: default); the "
-                             "[disorder] section sets the flake, the strengths and the expansions")
-    parser.add_argument("--out", type=Path, default=None,
-                        help="results folder (default: results/disorder-<scenario>-<date-time>)")
-    parser.add_argument("--force", action="store_true", help="replace an existing results folder")
-
+    add_folder_arguments(parser, "disorder", "the [disorder] section sets the flake, the strengths and the expansions")
 
 #: ``topoedge disorder`` in the command registry of :mod:`topoedge.cli`.
 COMMAND = Command(help="local Chern marker and Kubo-Bastin sigma_xy of a finite disordered flake: marker map, "

@@ -4,10 +4,10 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from ..scenario import DEFAULT_SCENARIO, ConfigError, load_scenario, resolve
+from ..scenario import ConfigError, load_scenario, resolve
 from ..scenario.checks import check_hallbar
 from ..util.jsonio import dumps
-from .common import (EXIT_POINTS_FAILED, Command, default_out, interrupted, open_points, require_support, say,
+from .common import (EXIT_POINTS_FAILED, Command, folder_of, interrupted, open_points, require_support, say,
                      scan_range)
 
 
@@ -34,7 +34,7 @@ def cmd_hallbar(args) -> int:
             raise ConfigError(f"hallbar --jobs: got {args.jobs}; expected at least 1 worker")
         if fields[0] * fields[1] <= 0:
             raise ConfigError(f"hallbar --fields: got {args.fields!r}; expected a range of one sign without 0 T")
-    out = args.out if args.out is not None else default_out(f"hallbar-{Path(args.config or DEFAULT_SCENARIO).stem}")
+    out = folder_of(args, "hallbar")
     from ..util.atomic import check_destination
 
     check_destination(out, force=args.force)

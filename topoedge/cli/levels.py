@@ -2,11 +2,10 @@
 
 from __future__ import annotations
 
-from pathlib import Path
 
-from ..scenario import DEFAULT_SCENARIO, load_scenario, resolve
+from ..scenario import load_scenario, resolve
 from ..util.jsonio import dumps
-from .common import Command, default_out, figure_writer, interrupted, open_points, say
+from .common import Command, add_folder_arguments, figure_writer, folder_of, interrupted, open_points, say
 
 
 def cmd_levels(args) -> int:
@@ -16,7 +15,7 @@ def cmd_levels(args) -> int:
     from ..workflows.levels import check_levels
 
     check_levels(model.scenario, model.units)          # filling, interaction, fields: before anything is written
-    out = args.out if args.out is not None else default_out(f"levels-{Path(args.config or DEFAULT_SCENARIO).stem}")
+    out = folder_of(args, "levels")
     from ..util.atomic import check_destination
 
     check_destination(out, force=args.force)
@@ -47,13 +46,7 @@ def cmd_levels(args) -> int:
 
 def add_arguments(parser) -> None:
     """The arguments of ``topoedge levels`` (besides ``--set``, ``--json`` and ``--quiet``)."""
-    parser.add_argument("config", nargs="?", default=None,
-                        help="scenario TOML file or the name of a shipped scenario (default: default); the "
-                             "[levels] section sets the filling and the extent of the diagram")
-    parser.add_argument("--out", type=Path, default=None,
-                        help="results folder (default: results/levels-<scenario>-<date-time>)")
-    parser.add_argument("--force", action="store_true", help="replace an existing results folder")
-
+    add_folder_arguments(parser, "levels", "the [levels] section sets the filling and the extent of the diagram")
 
 #: ``topoedge levels`` in the command registry of :mod:`topoedge.cli`.
 COMMAND = Command(help="interaction-driven level ordering of the bulk: which spin-split Landau levels the "

@@ -39,18 +39,32 @@ def marker_map_figure(result):
     unit = lattice(result.scenario.lattice.kind).length_unit.replace("a_cc", "a_{cc}")
     ax.set_xlabel(f"$x$ (${unit}$)")
     ax.set_ylabel(f"$y$ (${unit}$)")
+    if result.units is not None:                      # physical scenarios: the flake in nm as well
+        a = result.units.lattice_constant_nm
+        for side in (ax.secondary_xaxis("top", functions=(lambda x: x * a, lambda x: x / a)),
+                     ax.secondary_yaxis("right", functions=(lambda y: y * a, lambda y: y / a))):
+            side.tick_params(labelsize=8)
+        ax.text(1.0, 1.01, "nm", transform=ax.transAxes, fontsize=8, ha="left", va="bottom")
     bar = fig.colorbar(dots, ax=ax, shrink=0.85)
     bar.set_label("local Chern marker $c(\\mathbf{r})$ (values beyond the scale clipped)")
     mean = result.to_dict()["map"]["region_mean"]
     ax.set_title(f"{result.scenario.title or result.scenario.lattice.kind}\n"
-                 f"$W_{{dis}}$ = {_strength(result, result.map_strength)}, $E_F$ = {result.fermi_energy:.4g} t, clean C = "
-                 f"{result.chern}; central mean {mean:.3f}" + ("" if result.map_method == "dense"
+                 f"$W_{{dis}}$ = {_strength(result, result.map_strength)}, $E_F$ = {result.fermi_energy:.4g} t"
+                 f"{_fermi_mev(result)}\nclean C = {result.chern}; central mean {mean:.3f}"
+                 + ("" if result.map_method == "dense"
                                                              else " (every few sites, kernel polynomials)"),
                  fontsize=9)
     legend_outside(ax, [Line2D([], [], color="k", lw=1.2, label="flake outline"),
                         Line2D([], [], color="k", lw=1.0, ls="--", label="central region (averages)")],
                    where="below")
     return fig
+
+
+def _fermi_mev(result) -> str:
+    """`` (x meV above the band bottom)`` for physical scenarios, else nothing."""
+    if result.units is None:
+        return ""
+    return f" ({(result.fermi_energy - result.energy_zero) * result.units.hopping_mev:.3g} meV above the band bottom)"
 
 
 def _seeds(result) -> str:

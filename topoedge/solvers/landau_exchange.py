@@ -56,7 +56,7 @@ from functools import lru_cache
 import numpy as np
 
 __all__ = ["Level", "exchange_integral", "exchange_rational", "exchange_matrix", "FilledSet", "candidate_sets",
-           "ground_state", "lower_envelope", "transitions", "SPINS"]
+           "ground_state", "lowest_set", "lower_envelope", "transitions", "SPINS"]
 
 #: Spins of a level and their sign s in the Zeeman term -s Delta_Z / 2 (spin up lower for Delta_Z > 0).
 SPINS = {"up": 1, "down": -1}
@@ -181,6 +181,11 @@ class FilledSet:
         return ",".join(level.label for level in self.levels)
 
     @property
+    def per_spin(self) -> dict[str, int]:
+        """Filled levels of each spin, ``{"up": n_up, "down": n_down}``."""
+        return {spin: sum(level.spin == spin for level in self.levels) for spin in SPINS}
+
+    @property
     def polarisation(self) -> float:
         """(N_up - N_down) / (N_up + N_down)."""
         s = [SPINS[level.spin] for level in self.levels]
@@ -240,13 +245,22 @@ def candidate_sets(filling: int, x: np.ndarray) -> list[FilledSet]:
     return sets
 
 
+def lowest_set(sets: list[FilledSet], energies, *, decimals: int | None = None) -> np.ndarray:
+    """Index into ``sets`` of the lowest of ``energies`` (first axis: the sets; any other axes).
+
+    Ties (zero Zeeman: the two polarisations alike) go to the set polarised
+    along spin up; ``decimals`` rounds the energies first, for energies that
+    tie only to rounding (self-consistent ones).
+    """
+    order = np.argsort([-s.polarisation for s in sets], kind="stable")
+    values = np.asarray(energies)[order]
+    return order[np.argmin(values if decimals is None else np.round(values, decimals), axis=0)]
+
+
 def ground_state(sets: list[FilledSet], coulomb, zeeman=0.0) -> np.ndarray:
     """Index into ``sets`` of the lowest energy at each (broadcast) ``coulomb``, ``zeeman``."""
     shape = np.broadcast(coulomb, zeeman).shape
-    energies = np.stack([s.energy(coulomb, zeeman) * np.ones(shape) for s in sets])
-    # ties (zero Zeeman: the two polarisations) go to the set polarised along spin up
-    order = np.argsort([-s.polarisation for s in sets], kind="stable")
-    return order[np.argmin(energies[order], axis=0)]
+    return lowest_set(sets, np.stack([s.energy(coulomb, zeeman) * np.ones(shape) for s in sets]))
 
 
 def lower_envelope(sets: list[FilledSet], lo: float, hi: float, *, zeeman: float = 0.0,

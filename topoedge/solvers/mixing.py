@@ -15,6 +15,33 @@ import numpy as np
 __all__ = ["Pulay", "LeanAnderson"]
 
 
+def _grown(overlap: np.ndarray, stored: list, r: np.ndarray) -> np.ndarray:
+    """The overlap matrix ``<r_i, r_j>`` of the stored residuals with the new ``r`` appended."""
+    new = np.array([np.real(np.vdot(ri, r)) for ri in stored] + [np.real(np.vdot(r, r))])
+    m = len(stored) + 1
+    b = np.zeros((m, m))
+    b[:m - 1, :m - 1] = overlap
+    b[m - 1, :] = b[:, m - 1] = new
+    return b
+
+
+def _coefficients(overlap: np.ndarray) -> np.ndarray:
+    """``c`` minimising ``|sum c_i r_i|`` with ``sum c_i = 1`` (the last residual alone if singular)."""
+    m = overlap.shape[0]
+    a = np.zeros((m + 1, m + 1))
+    scale = np.abs(np.diag(overlap)).max()
+    a[:m, :m] = overlap / (scale if scale > 0 else 1.0)
+    a[m, :m] = a[:m, m] = -1.0
+    rhs = np.zeros(m + 1)
+    rhs[m] = -1.0
+    try:
+        return np.linalg.lstsq(a, rhs, rcond=1e-12)[0][:m]
+    except np.linalg.LinAlgError:
+        c = np.zeros(m)
+        c[-1] = 1.0
+        return c
+
+
 class Pulay:
     """Pulay/Anderson extrapolation over the last ``depth`` iterates.
 
@@ -31,30 +58,15 @@ class Pulay:
 
     def step(self, x: np.ndarray, r: np.ndarray, alpha: float) -> np.ndarray:
         """Store ``(x, r)`` and return the next iterate ``sum c_i (x_i + alpha r_i)``."""
-        new = np.array([np.real(np.vdot(ri, r)) for ri in self.rs] + [np.real(np.vdot(r, r))])
-        m = len(self.rs) + 1
-        b = np.zeros((m, m))
-        b[:m - 1, :m - 1] = self.overlap
-        b[m - 1, :] = b[:, m - 1] = new
+        b = _grown(self.overlap, self.rs, r)
         self.xs.append(x)
         self.rs.append(r)
-        if m > self.depth:
+        if len(self.rs) > self.depth:
             self.xs.pop(0)
             self.rs.pop(0)
             b = b[1:, 1:]
-            m -= 1
         self.overlap = b
-        a = np.zeros((m + 1, m + 1))
-        scale = np.abs(np.diag(b)).max()
-        a[:m, :m] = b / (scale if scale > 0 else 1.0)
-        a[m, :m] = a[:m, m] = -1.0
-        rhs = np.zeros(m + 1)
-        rhs[m] = -1.0
-        try:
-            c = np.linalg.lstsq(a, rhs, rcond=1e-12)[0][:m]
-        except np.linalg.LinAlgError:
-            c = np.zeros(m)
-            c[-1] = 1.0
+        c = _coefficients(b)
         out = np.zeros_like(x)
         for ci, xi, ri in zip(c, self.xs, self.rs):
             out += ci * (xi + alpha * ri)
@@ -104,31 +116,17 @@ class LeanAnderson:
 
     def step(self, x: np.ndarray, r: np.ndarray, alpha: float) -> np.ndarray:
         """Record the residual ``r`` of ``x`` (the iterate returned last, or a new one) and return the next."""
-        if self.base is None or self.pending is None or len(self.rs) >= self.depth:
+        if self.base is None or len(self.rs) >= self.depth:
             self.reset()
             self.base = np.array(x, copy=True)
             row = np.zeros(0)
         else:
             row = self.pending
-        new = np.array([np.real(np.vdot(ri, r)) for ri in self.rs] + [np.real(np.vdot(r, r))])
-        m = len(self.rs) + 1
-        b = np.zeros((m, m))
-        b[:m - 1, :m - 1] = self.overlap
-        b[m - 1, :] = b[:, m - 1] = new
-        self.overlap = b
+        self.overlap = _grown(self.overlap, self.rs, r)
         self.rs.append(np.asarray(r, dtype=self.store))
+        m = len(self.rs)
         self.rows = [np.pad(rw, (0, m - rw.size)) for rw in self.rows] + [np.pad(row, (0, m - row.size))]
-        a = np.zeros((m + 1, m + 1))
-        scale = np.abs(np.diag(b)).max()
-        a[:m, :m] = b / (scale if scale > 0 else 1.0)
-        a[m, :m] = a[:m, m] = -1.0
-        rhs = np.zeros(m + 1)
-        rhs[m] = -1.0
-        try:
-            c = np.linalg.lstsq(a, rhs, rcond=1e-12)[0][:m]
-        except np.linalg.LinAlgError:
-            c = np.zeros(m)
-            c[-1] = 1.0
+        c = _coefficients(self.overlap)
         coefficients = np.asarray(self.rows).T @ c + alpha * c       # over the stored residuals
         out = np.array(self.base, copy=True)
         for cj, rj in zip(coefficients, self.rs):

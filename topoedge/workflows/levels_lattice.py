@@ -25,6 +25,7 @@ import numpy as np
 
 from ..scenario import ConfigError, Scenario
 from ..solvers.bulk_hf import BulkHartreeFock, smallest_grid
+from ..solvers.landau_exchange import lowest_set
 from ..util.budget import require
 
 __all__ = ["LatticeLevels", "lattice_levels", "check_lattice_grid", "lattice_supported", "GRID_LENGTHS", "bulk_answer",
@@ -59,7 +60,6 @@ class LatticeLevels:
     point_converged: tuple
     point_found: tuple                   # the filled levels each candidate's solution holds, ((n, spin), ...)
     ground: int
-    ground_levels: tuple                 # the filled levels found, ((n, spin), ...)
     gap: float                           # activation gap of the ground state, hbar omega_c
     transitions: tuple                   # ((lambda, before, after), ...) at the scenario's z
     diagram: np.ndarray                  # (Z, L) ground-state index over the diagram's z axis and lambdas
@@ -72,7 +72,7 @@ class LatticeLevels:
                       "per spin, same interaction as the ribbon",
             "flux": str(self.flux), "grid": list(self.grid), "coulomb_t": self.coulomb_t, "onsite_t": self.onsite_t,
             "ground_state": sets[self.ground].label,
-            "filled_levels_found": ",".join(f"{n}{s}" for n, s in self.ground_levels),
+            "filled_levels_found": ",".join(f"{n}{s}" for n, s in self.point_found[self.ground]),
             "gap": self.gap, "gap_mev": None if cyclotron_mev is None else self.gap * cyclotron_mev,
             "candidates": [{"levels": s.label, "energy": float(self.point_energies[i]),
                             "interaction_ec": float(self.point_interaction[i]),
@@ -160,8 +160,7 @@ def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, sa
     base = interaction_of(s, units)
     ratio = base.onsite / base.coulomb
     cell = HarperCell(flux, onsite=s.lattice.onsite, zeeman=0.0, spin=True)
-    bands = [{"up": sum(lv.spin == "up" for lv in c.levels) * abs(flux.numerator),
-              "down": sum(lv.spin == "down" for lv in c.levels) * abs(flux.numerator)} for c in sets]
+    bands = [{spin: n * abs(flux.numerator) for spin, n in c.per_spin.items()} for c in sets]
     zeeman_slope = np.array([c.zeeman for c in sets])           # per flux quantum, times z
 
     unit = BulkHartreeFock(cell, Interaction(1.0, ratio, base.gate_distance), grid)   # U_C = 1 t, scaled below
@@ -179,7 +178,7 @@ def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, sa
                 result = solver.solve(b)
             warm.setdefault(i, {})[lam] = result.projectors
             row.append(result)
-        return row, u
+        return row
 
     lambdas = (np.linspace(cfg.coulomb_max / cfg.lattice_points, cfg.coulomb_max, cfg.lattice_points) if samples
                else np.empty(0))
@@ -196,13 +195,13 @@ def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, sa
                         f"{grid[0]} x {grid[1]}", lambdas.size + 1) as stage:
         at_point = store.load("point")
         if at_point is None:
-            at_point = summary(solve_all(point.coulomb)[0])
+            at_point = summary(solve_all(point.coulomb))
             store.save("point", at_point)
         stage.update(1)
         for j, lam in enumerate(lambdas):
             row = store.load(f"lambda-{lam!r}")
             if row is None:
-                row = summary(solve_all(lam)[0])
+                row = summary(solve_all(lam))
                 store.save(f"lambda-{lam!r}", row)
             energies[:, j] = row["energy"]
             iterations[:, j] = row["iterations"]
@@ -210,17 +209,13 @@ def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, sa
             stage.update(1)
     point_energies = np.array(at_point["energy"]) + zeeman_slope * point.zeeman
     ec = point.coulomb * cyclotron_t                                 # E_C in t
-    # ties (zero Zeeman: two polarisations alike) go to the set polarised along spin up, as in the continuum
-    order = np.argsort([-c.polarisation for c in sets], kind="stable")
 
-    def lowest(values: np.ndarray) -> np.ndarray:
-        return order[np.argmin(np.round(values[order], 9), axis=0)]
-
-    ground = int(lowest(point_energies))
-    diagram = lowest(energies[:, None, :] + zeeman_slope[:, None, None] * zeeman_axis[None, :, None])
+    ground = int(lowest_set(sets, point_energies, decimals=9))
+    diagram = lowest_set(sets, energies[:, None, :] + zeeman_slope[:, None, None] * zeeman_axis[None, :, None],
+                         decimals=9)
     transitions = []
     along = energies + (zeeman_slope * point.zeeman)[:, None]
-    best = lowest(along)
+    best = lowest_set(sets, along, decimals=9)
     for j in np.nonzero(best[1:] != best[:-1])[0]:
         a, b = int(best[j]), int(best[j + 1])
         name = f"transition-{a}-{b}-{lambdas[j]!r}"
@@ -255,7 +250,7 @@ def lattice_levels(s: Scenario, units, point, sets, zeeman_axis, *, progress, sa
         point_energies=point_energies, point_interaction=np.array(at_point["interaction"]) / ec,
         point_iterations=tuple(at_point["iterations"]), point_converged=tuple(at_point["converged"]),
         point_found=tuple(tuple(map(tuple, f)) for f in at_point["found"]),
-        ground=ground, ground_levels=tuple(map(tuple, at_point["found"][ground])),
+        ground=ground,
         gap=at_point["gap"][ground] / cyclotron_t,
         transitions=tuple(transitions), diagram=diagram, seconds=time.perf_counter() - start,
         free_starts=tuple(free))
@@ -267,7 +262,7 @@ def _secant(solve_all, *, bands_pair, lo: float, hi: float, zeeman: float, cyclo
     a, b = bands_pair
 
     def difference(lam):
-        row, _ = solve_all(lam)
+        row = solve_all(lam)
         return (row[b].energy_per_flux - row[a].energy_per_flux) / cyclotron_t + zeeman
 
     x0, x1 = lo, hi
@@ -308,12 +303,9 @@ def bulk_answer(s: Scenario, interaction, centre: dict) -> dict:
     sets = candidate_sets(filling, exchange_matrix(filling + 2))
     solver = BulkHartreeFock(HarperCell(flux, onsite=s.lattice.onsite, zeeman=s.spin.zeeman, spin=True),
                              interaction, smallest_grid(flux, default_lengths(filling)))
-    results = [solver.solve({spin: sum(lv.spin == spin for lv in c.levels) * p for spin in ("up", "down")})
-               for c in sets]
-    order = sorted(range(len(sets)), key=lambda i: (round(results[i].energy_per_flux, 9), -sets[i].polarisation))
-    best = sets[order[0]]
-    best_counts = {spin: sum(lv.spin == spin for lv in best.levels) for spin in ("up", "down")}
+    results = [solver.solve({spin: n * p for spin, n in c.per_spin.items()}) for c in sets]
+    best = sets[int(lowest_set(sets, [r.energy_per_flux for r in results], decimals=9))]
     return {"centre_filling": dict(centre), "centre_levels": label, "bulk_levels": best.label,
-            "agree": best_counts == counts, "grid": list(solver.grid),
+            "agree": best.per_spin == counts, "grid": list(solver.grid),
             "candidates": [{"levels": c.label, "energy_t_per_flux": r.energy_per_flux, "converged": r.converged}
                            for c, r in zip(sets, results)]}
